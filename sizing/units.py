@@ -1,0 +1,136 @@
+"""SI constants and the only place where units are converted.
+
+Plain numbers in input files are SI (Isp in seconds). A string such as
+``"11000 lb"`` or ``"2.2 km/s"`` is parsed with pint and converted to the SI unit
+the field expects; a wrong dimension is an error. pint is imported only when
+a string value is met, so plain-number files load fast.
+"""
+
+from __future__ import annotations
+
+import math
+from functools import lru_cache
+
+__all__ = [
+    "G0_M_S2",
+    "GM_EARTH_M3_S2",
+    "R_EARTH_EQ_M",
+    "OMEGA_EARTH_RAD_S",
+    "SI_UNITS",
+    "to_si",
+    "isp_to_exhaust_velocity",
+    "exhaust_velocity_to_isp",
+]
+
+#: Standard acceleration of gravity [m/s^2], exact by definition
+#: (3rd CGPM 1901; CODATA; also scipy.constants.g).
+G0_M_S2 = 9.80665
+#: Earth gravitational parameter [m^3/s^2], WGS 84 / IERS Conventions 2010.
+GM_EARTH_M3_S2 = 3.986004418e14
+#: Earth equatorial radius [m], WGS 84 semi-major axis.
+R_EARTH_EQ_M = 6378137.0
+#: Earth rotation rate [rad/s], WGS 84 (7.292115e-5 rad/s).
+OMEGA_EARTH_RAD_S = 7.292115e-5
+
+#: The SI unit each kind of field is stored in, as pint spells it.
+SI_UNITS: dict[str, str] = {
+    "mass": "kg",
+    "velocity": "m/s",
+    "length": "m",
+    "time": "s",
+    "force": "N",
+    "pressure": "Pa",
+    "area": "m**2",
+    "volume": "m**3",
+    "acceleration": "m/s**2",
+    "impulse": "N*s",
+    "density": "kg/m**3",
+    "angle": "deg",
+    "dimensionless": "",
+}
+
+
+@lru_cache(maxsize=1)
+def _registry():
+    import pint  # local: heavy import, only needed for strings with units
+
+    return pint.UnitRegistry()
+
+
+def to_si(value: float | int | str, kind: str) -> float:
+    """Convert a number or a "number unit" string to the SI unit of `kind`.
+
+    Parameters
+    ----------
+    value : float, int or str
+        Plain numbers are taken as already SI. Strings are parsed by pint.
+    kind : str
+        A key of `SI_UNITS`, e.g. ``"mass"``.
+
+    Returns
+    -------
+    float
+        The value in SI units (angles in degrees).
+
+    Raises
+    ------
+    ValueError
+        With a one-line message when the string cannot be parsed or has the
+        wrong dimension.
+
+    Examples
+    --------
+    >>> round(to_si("2.2 km/s", "velocity"), 6)
+    2200.0
+    >>> to_si(5.0, "mass")
+    5.0
+    """
+    if isinstance(value, bool):
+        raise ValueError(f"must be a number or a string with a unit. Got {value!r}.")
+    if isinstance(value, (int, float)):
+        out = float(value)
+        if not math.isfinite(out):
+            raise ValueError(f"must be a finite number. Got {value!r}.")
+        return out
+    if not isinstance(value, str):
+        raise ValueError(f"must be a number or a string with a unit. Got {value!r}.")
+    target = SI_UNITS[kind]
+    ureg = _registry()
+    try:
+        q = ureg.Quantity(value.strip())
+    except Exception:
+        raise ValueError(
+            f"cannot read {value!r} as a quantity; write e.g. \"12 kg\" or a plain SI number."
+        ) from None
+    if not hasattr(q, "to"):
+        return float(q)
+    if q.dimensionless and target == "":
+        return float(q.to("").magnitude)
+    if q.unitless:
+        # a plain number written as a string: take it as SI
+        return float(q.magnitude)
+    try:
+        out = float(q.to(target).magnitude)
+    except Exception:
+        raise ValueError(
+            f"{value!r} has the wrong dimension; a {kind} in units such as "
+            f"{target or 'a plain number'} is expected."
+        ) from None
+    if not math.isfinite(out):
+        raise ValueError(f"must be a finite number. Got {value!r}.")
+    return out
+
+
+def isp_to_exhaust_velocity(isp_s: float, g0_m_s2: float = G0_M_S2) -> float:
+    """Effective exhaust velocity c = Isp * g0 [m/s] (definition of specific impulse).
+
+    References
+    ----------
+    .. [1] G. P. Sutton, O. Biblarz, Rocket Propulsion Elements, 9th ed., 2017, eq. 2-5.
+    """
+    return isp_s * g0_m_s2
+
+
+def exhaust_velocity_to_isp(c_m_s: float, g0_m_s2: float = G0_M_S2) -> float:
+    """Specific impulse Isp = c / g0 [s]; inverse of `isp_to_exhaust_velocity`."""
+    return c_m_s / g0_m_s2
