@@ -42,6 +42,7 @@ from pathlib import Path
 import numpy as np
 
 from sizing.errors import FieldError, ProblemDefinitionError
+from sizing.physics.vehicle import DragCurve, FlightStage
 from sizing.units import G0_M_S2, to_si
 
 __all__ = [
@@ -412,14 +413,16 @@ def motor_flight_stage(
     airframe_mass_kg: float,
     diameter_m: float,
     ballast_mass_kg: float = 0.0,
-    drag=None,
-    ignition_delay_s: float = 0.0,
-):
+    drag: DragCurve | None = None,
+    coast_before_ignition_s: float = 0.0,
+) -> FlightStage:
     """A flight stage made of a motor plus its airframe and ballast.
 
-    The stage's dry mass is airframe + ballast + spent motor case; its
-    propellant follows `Motor.propellant_mass_table`, its thrust
-    `Motor.thrust_table`.
+    The stage's structural mass is airframe + ballast + spent motor case; its
+    propellant follows `Motor.propellant_mass_table` and its thrust
+    `Motor.thrust_table`, taken as measured at sea level (no back-pressure
+    correction: nozzle exit area 0). The stage's `isp_vac_s` is the motor's
+    effective Isp, I / (m_p g0).
 
     Parameters
     ----------
@@ -431,25 +434,34 @@ def motor_flight_stage(
     diameter_m : float
         Body diameter for the drag reference area [m], > 0.
     ballast_mass_kg : float
-        Extra mass carried by this stage [kg], >= 0.
+        Extra mass carried by this stage and dropped with it [kg], >= 0.
     drag : sizing.physics.vehicle.DragCurve or None
-        Drag coefficient table; None takes the flight module's default.
-    ignition_delay_s : float
-        Coast between separation of the stage below and ignition [s], >= 0.
+        C_D(Mach) while this stage is the lowest; None takes
+        `DragCurve.default_slender_body`.
+    coast_before_ignition_s : float
+        Coast between the previous event and ignition [s], >= 0.
 
     Returns
     -------
     sizing.physics.vehicle.FlightStage
     """
-    return _motor_flight_stage(
-        motor, name=name, airframe_mass_kg=airframe_mass_kg, diameter_m=diameter_m,
-        ballast_mass_kg=ballast_mass_kg, drag=drag, ignition_delay_s=ignition_delay_s,
+    for fname, v in (("airframe_mass_kg", airframe_mass_kg), ("ballast_mass_kg", ballast_mass_kg)):
+        if isinstance(v, bool) or not isinstance(v, (int, float)) or not math.isfinite(v) or v < 0:
+            raise FieldError(f"stages.{name}.{fname}", "must be a finite number >= 0.", v)
+    thrust = motor.thrust_table()
+    prop = motor.propellant_mass_table()
+    return FlightStage(
+        name,
+        motor.propellant_mass_kg,
+        float(airframe_mass_kg) + float(ballast_mass_kg) + motor.burnout_mass_kg,
+        motor.effective_isp_s,
+        diameter_m=diameter_m,
+        thrust_curve=(tuple(p[0] for p in thrust), tuple(p[1] for p in thrust)),
+        propellant_mass_curve=(tuple(p[0] for p in prop), tuple(p[1] for p in prop)),
+        nozzle_exit_area_m2=0.0,
+        drag=DragCurve.default_slender_body() if drag is None else drag,
+        coast_before_ignition_s=coast_before_ignition_s,
     )
-
-
-def _motor_flight_stage(motor, *, name, airframe_mass_kg, diameter_m, ballast_mass_kg, drag,
-                        ignition_delay_s):
-    raise NotImplementedError("waiting for sizing.physics.vehicle")
 
 
 # ---------------------------------------------------------------- TOML
