@@ -1,0 +1,191 @@
+"""Command line: parse arguments, call the API, print. No numerics here.
+
+Exit codes: 0 ok, 1 a well-formed problem that could not be solved, 2 bad input.
+Errors go to stderr as one line each, never as a traceback.
+"""
+
+from __future__ import annotations
+
+import argparse
+import importlib
+import sys
+import warnings
+from pathlib import Path
+from typing import Sequence
+
+__all__ = ["main", "EXIT_OK", "EXIT_FAILED", "EXIT_BAD_INPUT"]
+
+EXIT_OK = 0
+EXIT_FAILED = 1
+EXIT_BAD_INPUT = 2
+
+#: Modules that add sub-commands through `register(subparsers)`, imported lazily.
+_PLUGINS = ("sizing.cli_flight", "sizing.cli_study", "sizing.cli_hobby")
+
+
+def _console(stderr: bool = False):
+    from rich.console import Console
+
+    return Console(stderr=stderr, highlight=False, soft_wrap=True)
+
+
+def error_line(text: str) -> None:
+    """Print an error to stderr, one line per fault."""
+    for line in str(text).splitlines():
+        print(f"error: {line.strip()}" if line.strip() else "", file=sys.stderr)
+
+
+def print_result(result, console=None) -> None:
+    """Human-readable stage mass table, limits, trade factors, notes and caution."""
+    from rich.markup import escape
+    from rich.table import Table
+
+    from .report.tables import stage_columns_table, trade_factor_rows
+    from .result import CAUTION
+
+    con = console or _console()
+    style = "bold green" if result.success else "bold red"
+    con.print(f"[{style}]{result.status}[/] {escape(result.problem_name)}: {escape(result.message)}")
+    if result.success:
+        header, rows = stage_columns_table(result)
+        t = Table(title="Stage mass table (bottom stage first)", title_justify="left")
+        for i, h in enumerate(header):
+            t.add_column(escape(h), justify="left" if i == 0 else "right", no_wrap=True,
+                         style="bold" if i == len(header) - 1 else None)
+        for row in rows:
+            t.add_row(*map(escape, row))
+        con.print(t)
+    if result.constraints:
+        t = Table(title="Design limits", title_justify="left")
+        for h in ("limit", "allowed", "at optimum", "gross change per +1"):
+            t.add_column(h, no_wrap=True)
+        for c in result.constraints:
+            effect = (f"{c.sensitivity:+.4g} {c.sensitivity_unit.split(' per ')[0]}" if c.binding
+                      else "not binding")
+            t.add_row(escape(c.name), escape(f"{c.limit:.6g} {c.unit}"), f"{c.value:.5g}", escape(effect))
+        con.print(t)
+    tfr = trade_factor_rows(result)
+    if tfr:
+        t = Table(title=escape("Trade factors: " + result.trade_factors.get("basis", "")), title_justify="left")
+        t.add_column("item")
+        t.add_column("change in gross mass", justify="right")
+        t.add_column("unit")
+        for r in tfr:
+            t.add_row(*map(escape, r))
+        con.print(t)
+    if result.flight:
+        from .report.tables import flight_summary_rows
+
+        rows = flight_summary_rows(result)
+        if rows:
+            t = Table(title="Flight", title_justify="left")
+            t.add_column("quantity")
+            t.add_column("value", justify="right")
+            t.add_column("unit")
+            for r in rows:
+                t.add_row(*map(escape, r))
+            con.print(t)
+    if result.best:
+        con.print(escape("best reachable: " + ", ".join(f"{k} = {v:,.6g}" for k, v in result.best.items())))
+    for w in result.warnings:
+        con.print(f"[yellow]review note:[/] {escape(w)}")
+    con.print(f"[dim]{escape(CAUTION)}[/]")
+
+
+def _cmd_check(args) -> int:
+    from .problem.load import load_problem
+
+    problem = load_problem(args.file)
+    n = len(problem.stages)
+    target = (f"delta-v {problem.delta_v_m_s:g} m/s" if problem.delta_v_m_s is not None
+              else f"apogee {problem.apogee_m:g} m" if problem.apogee_m is not None
+              else f"orbit altitude {problem.orbit_altitude_m:g} m" if problem.orbit_altitude_m is not None
+              else "no target")
+    print(f"ok: {args.file}: {problem.name}, {n} stage{'s' if n != 1 else ''} "
+          f"({', '.join(problem.stage_names)}), {target}, solving for {problem.solve_for}.")
+    return EXIT_OK
+
+
+def _cmd_solve(args) -> int:
+    from .optimize.api import solve
+    from .problem.load import load_problem
+    from .report.export import result_json, write_stage_table
+
+    problem = load_problem(args.file)
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always")
+        result = solve(problem, method=args.method)
+    for w in caught:
+        print(f"warning: {w.message}", file=sys.stderr)
+    if args.json:
+        print(result_json(result))
+    else:
+        print_result(result)
+    if args.out:
+        if not result.success:
+            error_line(f"--out {args.out}: not written, the problem has no solution.")
+        else:
+            path = write_stage_table(result, args.out)
+            print(f"wrote {path}", file=sys.stderr if args.json else sys.stdout)
+    return EXIT_OK if result.success else EXIT_FAILED
+
+
+def build_parser() -> argparse.ArgumentParser:
+    parser = argparse.ArgumentParser(
+        prog="sizing",
+        description="Size multistage rockets: optimal stage mass split, flight losses, trade studies. "
+                    "Preliminary estimates only, not flight clearance.",
+    )
+    sub = parser.add_subparsers(dest="command", metavar="COMMAND")
+    sub.required = True
+
+    p = sub.add_parser("solve", help="find the optimal mass split of a problem file")
+    p.add_argument("file", type=Path, help="problem file (TOML)")
+    p.add_argument("--json", action="store_true", help="print one JSON object to stdout")
+    p.add_argument("--out", type=Path, help="also write the table: .csv .md .json .xlsx")
+    p.add_argument("--method", choices=("auto", "lagrange", "cvxpy", "slsqp"), default=None,
+                   help="override [solver].method")
+    p.set_defaults(func=_cmd_solve)
+
+    p = sub.add_parser("check", help="validate a problem file without solving")
+    p.add_argument("file", type=Path)
+    p.set_defaults(func=_cmd_check)
+
+    for mod_name in _PLUGINS:
+        try:
+            mod = importlib.import_module(mod_name)
+        except ModuleNotFoundError as exc:
+            if exc.name == mod_name:
+                continue
+            raise
+        mod.register(sub)
+    return parser
+
+
+def main(argv: Sequence[str] | None = None) -> int:
+    """Run the command line; returns the exit code."""
+    from .errors import InfeasibleProblemError, SizingError
+
+    parser = build_parser()
+    try:
+        args = parser.parse_args(argv)
+    except SystemExit as exc:  # argparse prints its own one-line usage error
+        return int(exc.code or 0)
+    try:
+        return int(args.func(args))
+    except InfeasibleProblemError as exc:
+        error_line(str(exc))
+        return EXIT_FAILED
+    except SizingError as exc:
+        error_line(str(exc))
+        return EXIT_BAD_INPUT
+    except (ValueError, OSError) as exc:
+        error_line(str(exc))
+        return EXIT_BAD_INPUT
+    except KeyboardInterrupt:
+        error_line("interrupted.")
+        return 130
+
+
+if __name__ == "__main__":  # pragma: no cover
+    sys.exit(main())

@@ -1,0 +1,59 @@
+"""`solve`: one entry point for every sizing problem, whatever the method."""
+
+from __future__ import annotations
+
+from ..errors import MSG_UNKNOWN_METHOD
+from ..problem.model import Problem
+from ..result import SizingResult
+
+__all__ = ["solve", "METHODS"]
+
+#: Methods `solve` accepts. "auto" takes the Lagrange closed form when no limit
+#: is set and the convex program otherwise.
+METHODS = ("auto", "lagrange", "cvxpy", "slsqp")
+
+
+def solve(problem: Problem, *, method: str | None = None) -> SizingResult:
+    """Find the optimal mass split of `problem`.
+
+    Parameters
+    ----------
+    problem : Problem
+        From `load_problem` or `problem_from_dict`.
+    method : {"auto", "lagrange", "cvxpy", "slsqp"}, optional
+        Overrides ``[solver].method`` of the problem.
+
+    Returns
+    -------
+    SizingResult
+        Never raises for a problem without a solution: `success` is False and
+        `message` names the best reachable value.
+
+    Raises
+    ------
+    ValueError
+        For an unknown method, or "lagrange" asked for a problem with limits.
+    """
+    m = method or problem.method or "auto"
+    if m not in METHODS:
+        raise ValueError(f"{MSG_UNKNOWN_METHOD} {m!r}. Choose one of: {', '.join(repr(x) for x in METHODS)}.")
+    if problem.is_flight_target:
+        from .flight_problem import solve_flight_problem
+
+        return solve_flight_problem(problem, method=m)
+    if m == "auto":
+        m = "cvxpy" if problem.has_constraints else "lagrange"
+    if m == "lagrange":
+        if problem.has_constraints:
+            raise ValueError("method 'lagrange' handles no limits (mass ratio, delta-v share, mass caps); "
+                             "use 'cvxpy' or 'auto'.")
+        from ._lagrange import solve_lagrange
+
+        return solve_lagrange(problem)
+    if m == "cvxpy":
+        from ._cvx import solve_cvxpy
+
+        return solve_cvxpy(problem)
+    from ._slsqp import solve_slsqp
+
+    return solve_slsqp(problem)

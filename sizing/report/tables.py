@@ -1,0 +1,163 @@
+"""Stage mass tables: the rows and columns a design review reads (results in, text out)."""
+
+from __future__ import annotations
+
+import math
+from typing import Any, Sequence
+
+from ..result import CAUTION, SizingResult
+
+__all__ = ["STAGE_COLUMNS", "FLIGHT_QUANTITIES", "flight_summary_rows", "stage_rows", "stage_columns_table", "total_row", "trade_factor_rows",
+           "stage_table_markdown", "result_markdown"]
+
+#: (field, header with unit, format) for each column of the stage mass table.
+STAGE_COLUMNS: tuple[tuple[str, str, str], ...] = (
+    ("name", "stage", "s"),
+    ("isp_s", "Isp [s]", ".1f"),
+    ("structural_coefficient", "structural coeff. [-]", ".4f"),
+    ("ignition_mass_kg", "ignition mass [kg]", ",.1f"),
+    ("propellant_mass_kg", "propellant mass [kg]", ",.1f"),
+    ("structural_mass_kg", "structural mass [kg]", ",.1f"),
+    ("burnout_mass_kg", "burnout mass [kg]", ",.1f"),
+    ("mass_ratio", "mass ratio [-]", ".4f"),
+    ("payload_ratio", "payload ratio [-]", ".4f"),
+    ("delta_v_m_s", "delta-v [m/s]", ",.1f"),
+    ("delta_v_share", "delta-v share [%]", ".1%"),
+)
+
+
+def _fmt(value: Any, spec: str) -> str:
+    if value is None:
+        return ""
+    if isinstance(value, float) and not math.isfinite(value):
+        return "n/a"
+    if spec.endswith("%"):
+        return format(value, spec).replace("%", "")
+    return format(value, spec)
+
+
+def stage_rows(result: SizingResult) -> list[list[str]]:
+    """Formatted cells, one row per stage (bottom first)."""
+    rows = []
+    for s in result.stages:
+        rows.append([_fmt(getattr(s, f), spec) for f, _h, spec in STAGE_COLUMNS])
+    return rows
+
+
+def total_row(result: SizingResult) -> list[str]:
+    """The totals row: gross mass, total propellant and structure, total delta-v."""
+    tot_p = sum(s.propellant_mass_kg for s in result.stages)
+    tot_s = sum(s.structural_mass_kg for s in result.stages)
+    cells = {
+        "name": "total (payload " + _fmt(result.payload_mass_kg, ",.1f") + " kg)",
+        "ignition_mass_kg": _fmt(result.gross_mass_kg, ",.1f"),
+        "propellant_mass_kg": _fmt(tot_p, ",.1f"),
+        "structural_mass_kg": _fmt(tot_s, ",.1f"),
+        "payload_ratio": _fmt(result.payload_fraction, ".4f"),
+        "delta_v_m_s": _fmt(result.delta_v_m_s, ",.1f"),
+        "delta_v_share": "100.0" if result.success else "",
+    }
+    return [cells.get(f, "") for f, _h, _s in STAGE_COLUMNS]
+
+
+def stage_columns_table(result: SizingResult) -> tuple[list[str], list[list[str]]]:
+    """The stage mass table turned on its side: one row per quantity, one column per stage.
+
+    Fits a terminal of 80 columns for up to four stages. Returns (header, rows).
+    """
+    header = ["quantity [unit]"] + [s.name for s in result.stages] + ["total"]
+    totals = dict(zip((f for f, _h, _s in STAGE_COLUMNS), total_row(result)))
+    totals["name"] = ""
+    rows = []
+    for (f, h, spec), cells in zip(STAGE_COLUMNS[1:], zip(*[r[1:] for r in stage_rows(result)])):
+        rows.append([h] + list(cells) + [totals.get(f, "")])
+    rows.append(["payload mass [kg]"] + [""] * len(result.stages) + [_fmt(result.payload_mass_kg, ",.1f")])
+    return header, rows
+
+
+def trade_factor_rows(result: SizingResult) -> list[list[str]]:
+    """Trade factors as rows: (item, change in gross mass, unit)."""
+    tf = result.trade_factors
+    if not tf:
+        return []
+    rows = [
+        ["payload", _fmt(tf["gross_mass_per_payload_kg"], ",.3f"), "kg gross / kg payload"],
+        ["ideal delta-v", _fmt(tf["gross_mass_per_delta_v_kg_per_m_s"], ",.3f"), "kg gross / (m/s)"],
+    ]
+    for name, d in tf["stages"].items():
+        rows.append([f"{name}: structural mass", _fmt(d["per_structural_kg"], ",.3f"), "kg gross / kg"])
+        rows.append([f"{name}: Isp", _fmt(d["per_isp_s"], ",.3f"), "kg gross / s"])
+        rows.append([f"{name}: structural coeff. +0.01", _fmt(d["per_0_01_structural_coefficient"], ",.1f"),
+                     "kg gross"])
+    return rows
+
+
+def _md_table(header: Sequence[str], rows: Sequence[Sequence[str]], align_right_from: int = 1) -> str:
+    esc = lambda t: str(t).replace("|", "\\|")  # noqa: E731
+    out = ["| " + " | ".join(esc(h) for h in header) + " |"]
+    out.append("|" + "|".join(":---" if i < align_right_from else "---:" for i in range(len(header))) + "|")
+    for r in rows:
+        out.append("| " + " | ".join(esc(c) for c in r) + " |")
+    return "\n".join(out)
+
+
+def stage_table_markdown(result: SizingResult) -> str:
+    """The stage mass table (with totals) as a Markdown table."""
+    header = [h for _f, h, _s in STAGE_COLUMNS]
+    return _md_table(header, stage_rows(result) + [total_row(result)])
+
+
+def result_markdown(result: SizingResult, *, title: str | None = None) -> str:
+    """A design-review section: summary, stage table, limits, trade factors, caution."""
+    parts = [f"## {title or result.problem_name}: stage mass table", "",
+             f"Status: **{result.status}** -- {result.message}", "",
+             f"Method: {result.method}; solving for {result.solve_for}.", ""]
+    if result.success:
+        parts += [stage_table_markdown(result), ""]
+    if result.constraints:
+        parts += ["### Design limits", "",
+                  _md_table(["limit", "allowed", "at optimum", "binding", "sensitivity", "unit"],
+                            [[c.name, f"{c.limit:.6g} {c.unit}", f"{c.value:.6g}", "yes" if c.binding else "no",
+                              f"{c.sensitivity:.6g}", c.sensitivity_unit] for c in result.constraints]), ""]
+    tfr = trade_factor_rows(result)
+    if tfr:
+        parts += ["### Trade factors", "", result.trade_factors.get("basis", ""), "",
+                  _md_table(["item", "change in gross mass", "unit"], tfr), ""]
+    if result.flight:
+        budget = result.flight.get("delta_v_budget_m_s")
+        if budget:
+            parts += ["### Delta-v budget", "",
+                      _md_table(["term", "m/s"], [[k, f"{v:,.1f}"] for k, v in budget.items()]), ""]
+    if result.warnings:
+        parts += ["### Review notes", ""] + [f"- {w}" for w in result.warnings] + [""]
+    parts += [f"> {CAUTION}", ""]
+    return "\n".join(parts)
+
+
+#: (key in result.flight, label, unit, format) for the flight summary.
+FLIGHT_QUANTITIES: tuple[tuple[str, str, str, str], ...] = (
+    ("apogee_m", "apogee above launch site", "m", ",.0f"),
+    ("time_to_apogee_s", "time to apogee", "s", ".1f"),
+    ("rail_exit_speed_m_s", "rail-exit speed", "m/s", ".1f"),
+    ("max_dynamic_pressure_pa", "max dynamic pressure (max-q)", "Pa", ",.0f"),
+    ("max_acceleration_m_s2", "max acceleration", "m/s^2", ".1f"),
+    ("perigee_altitude_m", "perigee altitude", "m", ",.0f"),
+    ("apogee_altitude_m", "apogee altitude", "m", ",.0f"),
+    ("orbit_speed_m_s", "speed at insertion", "m/s", ",.1f"),
+    ("flight_path_angle_deg", "flight-path angle at insertion", "deg", ".3f"),
+    ("iterations", "sizing iterations", "-", "d"),
+)
+
+
+def flight_summary_rows(result: SizingResult) -> list[list[str]]:
+    """(quantity, value, unit) rows for the flight part of a result, including losses."""
+    f = result.flight or {}
+    rows = []
+    for key, label, unit, spec in FLIGHT_QUANTITIES:
+        v = f.get(key)
+        if v is not None:
+            rows.append([label, _fmt(v, spec), unit])
+    for k, v in (f.get("losses_m_s") or {}).items():
+        if isinstance(v, (int, float)):
+            rows.append([f"{k} loss", _fmt(float(v), ",.1f"), "m/s"])
+    return rows
