@@ -1,0 +1,867 @@
+"""Compressed-air water stages: a pressurised bottle that expels water, then air.
+
+A water stage is a pressure vessel (usually a plastic drinks bottle) partly
+filled with water and pumped up with air. This module simulates its thrust
+and builds flight stages and stacks for `sizing.physics.trajectory`.
+
+Thrust phases
+-------------
+1. **Launch tube** (optional). The bottle sits on a tube of length L_t and
+   outer diameter d_t reaching into it. The air pushes on the tube section:
+   F = (p - p_a) A_t, no water leaves, and the gas expands by A_t x as the
+   rocket rises by x; the rocket's motion on the tube is integrated with its
+   whole mass and gravity. The gas that followed the rocket into the tube
+   stays behind when the rocket leaves.
+2. **Water.** Quasi-steady incompressible Bernoulli flow through the nozzle
+   (bottle section much larger than the nozzle, water head and water inertia
+   neglected): exit speed u = sqrt(2 (p - p_a) / rho_w), volume flow A_e u,
+   thrust F = rho_w A_e u^2 = 2 (p - p_a) A_e. The air expands polytropically,
+   p V^n = const, with n = 1.4 (adiabatic) by default. The phase ends when the
+   water is gone or when the air has fallen to ambient pressure (the water
+   left then rides along as dead mass).
+3. **Air.** Blow-down of the remaining air through the nozzle, taken as a
+   convergent nozzle with quasi-steady isentropic flow of a perfect gas:
+   choked while p / p_a >= ((gamma + 1)/2)^(gamma/(gamma - 1)) = 1.893, with
+   mdot = A p sqrt(gamma/(R T)) (2/(gamma+1))^((gamma+1)/(2(gamma-1))) and
+   F = mdot a* + (p* - p_a) A; unchoked below, exit pressure p_a and
+   F = mdot u_e. The gas left in the bottle expands isentropically
+   (gamma = 1.4).
+
+Times follow from the quadratures t = integral dV / (A_e u) (water) and
+t = integral dm / mdot (air), evaluated on a grid stretched towards the end of
+each phase so that the square-root end of the flow is resolved.
+
+Published methods
+-----------------
+* Water phase: the textbook model of Kagan, Buchholz & Klein, "Soda-bottle
+  water rockets", The Physics Teacher 33, 150-157 (1995); Barrio-Perotti et
+  al., Eur. J. Phys. 31, 1131-1147 (2010), report agreement within about 6 %
+  with field tests for a model of this kind. The polytropic exponent lies
+  between isothermal and adiabatic in practice (Romanelli, Bove & Gonzalez
+  Madina, arXiv:1211.1923). Gommes, Am. J. Phys. 78, 236-243 (2010), shows
+  that vapour condensation, water inertia and transient flow are each not
+  negligible but largely cancel. Equation numbers from memory are not given.
+* Air phase: isentropic flow of a perfect gas through a convergent nozzle
+  (J. D. Anderson, Modern Compressible Flow, 3rd ed., 2003, ch. 5; Sutton &
+  Biblarz, Rocket Propulsion Elements, 9th ed., 2017, ch. 3 -- chapter
+  references from memory).
+
+Safety
+------
+A bottle is a pressure vessel that can burst violently. Every stage carries
+its rated (or tested burst) gauge pressure, and the initial pressure must not
+exceed rated / safety_factor: the default safety factor 2 follows the
+student-rocketry rule burst >= 2 x maximum expected operating pressure
+(Spaceport America Cup DTEG, as quoted in check-values.md section 6) and the
+suggestion of check-values.md section 7 to warn above about half the burst
+pressure. These figures are estimates, not clearance to fly: follow the
+applicable hobby safety code and local aviation rules, keep clear distances,
+never exceed a vessel's rating and pressure-test behind shielding.
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Callable, Sequence
+from dataclasses import dataclass, field, replace
+
+import numpy as np
+from scipy import optimize
+from scipy.integrate import cumulative_trapezoid
+
+from sizing.errors import FieldError, SizingConvergenceWarning
+from sizing.physics.vehicle import P0_PA, DragCurve, FlightStage, LaunchSite, Vehicle
+from sizing.units import G0_M_S2
+
+__all__ = [
+    "RHO_WATER_KG_M3",
+    "R_AIR_J_KG_K",
+    "GAMMA_AIR",
+    "DEFAULT_SAFETY_FACTOR",
+    "WATER_CAUTION",
+    "MSG_PRESSURE_LIMIT",
+    "MSG_FILL_FRACTION",
+    "MSG_TUBE_FIT",
+    "WaterStage",
+    "WaterThrust",
+    "WaterOptimum",
+    "simulate_water_thrust",
+    "water_flight_stage",
+    "water_vehicle",
+    "optimise_water_stage",
+]
+
+#: Density of liquid water at 20 degC [kg/m^3] (CoolProp 8.0.0, check-values.md section 8, tag L).
+RHO_WATER_KG_M3 = 998.21
+#: Specific gas constant of dry air [J/(kg K)]: R* / M0 = 8314.32 / 28.9644 (US Standard Atmosphere 1976).
+R_AIR_J_KG_K = 8314.32 / 28.9644
+#: Ratio of specific heats of air [-] (1.4022 at 288 K per CoolProp, check-values.md section 8; 1.4 used).
+GAMMA_AIR = 1.4
+#: Default safety factor on the rated/burst pressure [-]: burst >= 2 x MEOP (DTEG, check-values.md 6).
+DEFAULT_SAFETY_FACTOR = 2.0
+
+WATER_CAUTION = (
+    "Preliminary estimates only, not clearance to fly. A pressurised bottle can burst violently: "
+    "never exceed the vessel's rating, pressure-test behind shielding, keep clear distances, and "
+    "follow the applicable hobby safety code, local law and aviation rules."
+)
+MSG_PRESSURE_LIMIT = (
+    "is above the allowed pressure rated_pressure / safety_factor; the tool refuses it"
+)
+MSG_FILL_FRACTION = "must be in (0, 1)"
+MSG_TUBE_FIT = "launch tube must fit: tube diameter <= nozzle diameter and water + tube volume < bottle volume"
+
+_N_TUBE = 24
+_N_WATER = 160
+_N_AIR = 80
+_JUMP_S = 1e-5  # time step used to represent a thrust jump between phases
+
+
+def _pos(value, name: str, *, zero_ok: bool = False) -> float:
+    if isinstance(value, bool):
+        raise FieldError(name, "must be a number.", value)
+    try:
+        v = float(value)
+    except (TypeError, ValueError):
+        raise FieldError(name, "must be a number.", value) from None
+    if not math.isfinite(v) or (v < 0 if zero_ok else v <= 0):
+        raise FieldError(name, "must be >= 0." if zero_ok else "must be > 0.", value)
+    return v
+
+
+@dataclass(frozen=True, slots=True)
+class WaterStage:
+    """A compressed-air water stage (bottle, water, air, nozzle), SI units.
+
+    Parameters
+    ----------
+    name : str
+        Stage name given by the user.
+    bottle_volume_m3 : float
+        Internal volume of the pressure vessel [m^3], > 0.
+    dry_mass_kg : float
+        Everything of the stage except water and air: bottle, fins, nose,
+        coupler, recovery [kg], >= 0.
+    diameter_m : float
+        Body diameter for the drag reference area [m], > 0.
+    nozzle_throat_diameter_m : float
+        Nozzle (throat) diameter [m], > 0.
+    initial_gauge_pressure_pa : float
+        Launch pressure above ambient [Pa], > 0, at most
+        rated_pressure_pa / safety_factor.
+    water_fill_fraction : float
+        Water volume / bottle volume [-], in (0, 1).
+    rated_pressure_pa : float
+        The vessel's rated or tested burst gauge pressure [Pa], > 0.
+    safety_factor : float
+        Divides `rated_pressure_pa` to give the highest allowed launch
+        pressure [-], >= 1. Default 2 (burst >= 2 x MEOP, see module notes).
+    launch_tube_length_m : float
+        Length of launch tube inside the bottle [m], >= 0 (0: no tube).
+    launch_tube_diameter_m : float or None
+        Outer diameter of the launch tube [m], <= nozzle diameter; required
+        when the tube length is > 0.
+    polytropic_exponent : float
+        n in p V^n = const during the water phase [-], in [1, 1.4]
+        (1 isothermal, 1.4 adiabatic, default).
+    air_temperature_k : float
+        Air temperature at launch [K], > 0.
+    drag : DragCurve or None
+        C_D(Mach) while this stage is the lowest; None takes
+        `DragCurve.default_slender_body` (C_D 0.30 subsonic).
+
+    Raises
+    ------
+    FieldError
+        On any bad field; for a launch pressure above rated / safety_factor
+        the message starts with `MSG_PRESSURE_LIMIT`.
+    """
+
+    name: str
+    bottle_volume_m3: float
+    dry_mass_kg: float
+    diameter_m: float
+    nozzle_throat_diameter_m: float
+    initial_gauge_pressure_pa: float
+    water_fill_fraction: float
+    rated_pressure_pa: float
+    safety_factor: float = DEFAULT_SAFETY_FACTOR
+    launch_tube_length_m: float = 0.0
+    launch_tube_diameter_m: float | None = None
+    polytropic_exponent: float = GAMMA_AIR
+    air_temperature_k: float = 293.15
+    drag: DragCurve | None = None
+
+    def __post_init__(self) -> None:
+        p = f"stages.{self.name}."
+        s = lambda k, v: object.__setattr__(self, k, v)  # noqa: E731
+        if not isinstance(self.name, str) or not self.name.strip():
+            raise FieldError("stages.name", "must be a non-empty string.", self.name)
+        s("bottle_volume_m3", _pos(self.bottle_volume_m3, p + "bottle_volume"))
+        s("dry_mass_kg", _pos(self.dry_mass_kg, p + "dry_mass", zero_ok=True))
+        s("diameter_m", _pos(self.diameter_m, p + "diameter"))
+        s("nozzle_throat_diameter_m", _pos(self.nozzle_throat_diameter_m, p + "nozzle_diameter"))
+        s("initial_gauge_pressure_pa", _pos(self.initial_gauge_pressure_pa, p + "pressure"))
+        s("rated_pressure_pa", _pos(self.rated_pressure_pa, p + "rated_pressure"))
+        s("air_temperature_k", _pos(self.air_temperature_k, p + "air_temperature"))
+        sf = _pos(self.safety_factor, p + "safety_factor")
+        if sf < 1.0:
+            raise FieldError(p + "safety_factor", "must be >= 1.", self.safety_factor)
+        s("safety_factor", sf)
+        f = _pos(self.water_fill_fraction, p + "fill_fraction")
+        if not f < 1.0:
+            raise FieldError(p + "fill_fraction", MSG_FILL_FRACTION + ".", self.water_fill_fraction)
+        s("water_fill_fraction", f)
+        n = _pos(self.polytropic_exponent, p + "polytropic_exponent")
+        if not 1.0 <= n <= GAMMA_AIR:
+            raise FieldError(p + "polytropic_exponent", "must be in [1, 1.4].", self.polytropic_exponent)
+        s("polytropic_exponent", n)
+        if self.drag is not None and not isinstance(self.drag, DragCurve):
+            raise FieldError(p + "drag", "must be a DragCurve.", self.drag)
+        lt = _pos(self.launch_tube_length_m, p + "launch_tube_length", zero_ok=True)
+        s("launch_tube_length_m", lt)
+        if lt > 0:
+            if self.launch_tube_diameter_m is None:
+                raise FieldError(p + "launch_tube_diameter", "is required when launch_tube_length > 0.")
+            dt = _pos(self.launch_tube_diameter_m, p + "launch_tube_diameter")
+            s("launch_tube_diameter_m", dt)
+            tube_v = 0.25 * math.pi * dt * dt * lt
+            if dt > self.nozzle_throat_diameter_m or f * self.bottle_volume_m3 + tube_v >= self.bottle_volume_m3:
+                raise FieldError(
+                    p + "launch_tube_diameter",
+                    f"{MSG_TUBE_FIT} (nozzle {self.nozzle_throat_diameter_m:g} m, "
+                    f"tube volume {tube_v:.3g} m^3, water {f * self.bottle_volume_m3:.3g} m^3, "
+                    f"bottle {self.bottle_volume_m3:.3g} m^3).",
+                    dt,
+                )
+        elif self.launch_tube_diameter_m is not None:
+            s("launch_tube_diameter_m", _pos(self.launch_tube_diameter_m, p + "launch_tube_diameter"))
+        limit = self.max_gauge_pressure_pa
+        if self.initial_gauge_pressure_pa > limit * (1 + 1e-12):
+            raise FieldError(
+                p + "pressure",
+                f"{MSG_PRESSURE_LIMIT}: {self.rated_pressure_pa:.6g} Pa / {sf:g} = {limit:.6g} Pa "
+                f"({limit / 1e5:.3g} bar gauge). Lower the pressure or use a vessel rated higher. "
+                "Never exceed a vessel's rating; pressure-test behind shielding.",
+                self.initial_gauge_pressure_pa,
+            )
+
+    @property
+    def max_gauge_pressure_pa(self) -> float:
+        """Highest allowed launch gauge pressure, rated / safety_factor [Pa]."""
+        return self.rated_pressure_pa / self.safety_factor
+
+    @property
+    def water_volume_m3(self) -> float:
+        """Water volume at launch [m^3]."""
+        return self.water_fill_fraction * self.bottle_volume_m3
+
+    @property
+    def water_mass_kg(self) -> float:
+        """Water mass at launch [kg]."""
+        return RHO_WATER_KG_M3 * self.water_volume_m3
+
+    @property
+    def nozzle_area_m2(self) -> float:
+        """pi d^2 / 4 of the nozzle [m^2]."""
+        return 0.25 * math.pi * self.nozzle_throat_diameter_m**2
+
+    def air_mass_kg(self, ambient_pressure_pa: float = P0_PA) -> float:
+        """Air in the bottle at launch, ideal gas p V / (R T) [kg]."""
+        p0 = ambient_pressure_pa + self.initial_gauge_pressure_pa
+        return p0 * (self.bottle_volume_m3 - self.water_volume_m3) / (R_AIR_J_KG_K * self.air_temperature_k)
+
+    def launch_mass_kg(self, ambient_pressure_pa: float = P0_PA) -> float:
+        """Dry mass + water + air at launch [kg]."""
+        return self.dry_mass_kg + self.water_mass_kg + self.air_mass_kg(ambient_pressure_pa)
+
+
+@dataclass(frozen=True, slots=True)
+class WaterThrust:
+    """Simulated thrust of one water stage.
+
+    Arrays share one time base (time since release [s]); a thrust jump
+    between phases is represented by two points `_JUMP_S` = 1e-5 s apart.
+
+    Attributes
+    ----------
+    times_s, thrust_n, gauge_pressure_pa, water_mass_kg, air_mass_kg : numpy.ndarray
+        Time [s], thrust [N], bottle gauge pressure [Pa], water and air left in
+        the bottle [kg].
+    tube_end_s, water_end_s, end_s : float
+        End of the launch-tube, water and air phases [s].
+    tube_exit_speed_m_s : float
+        Speed when leaving the launch tube [m/s] (0 without a tube).
+    water_ran_out : bool
+        False when the air fell to ambient pressure before all water left.
+    """
+
+    times_s: np.ndarray
+    thrust_n: np.ndarray
+    gauge_pressure_pa: np.ndarray
+    water_mass_kg: np.ndarray
+    air_mass_kg: np.ndarray
+    tube_end_s: float
+    water_end_s: float
+    end_s: float
+    tube_exit_speed_m_s: float
+    water_ran_out: bool
+
+    def impulse_n_s(self, start_s: float = 0.0, end_s: float | None = None) -> float:
+        """Impulse of the (piecewise-linear) thrust table between two times [N s]."""
+        t = self.times_s
+        end = t[-1] if end_s is None else end_s
+        m = (t >= start_s - 1e-12) & (t <= end + 1e-12)
+        return float(np.trapezoid(self.thrust_n[m], t[m]))
+
+    @property
+    def total_impulse_n_s(self) -> float:
+        """Impulse of the whole table [N s]."""
+        return float(np.trapezoid(self.thrust_n, self.times_s))
+
+    @property
+    def propellant_mass_kg(self) -> np.ndarray:
+        """Water + air still to be expelled [kg]: runs down to 0 at `end_s`."""
+        rest = self.water_mass_kg + self.air_mass_kg - self.water_mass_kg[-1] - self.air_mass_kg[-1]
+        return np.minimum.accumulate(np.maximum(rest, 0.0))  # remove round-off upticks
+
+    @property
+    def residual_mass_kg(self) -> float:
+        """Water and air left in the bottle after the last phase [kg]."""
+        return float(self.water_mass_kg[-1] + self.air_mass_kg[-1])
+
+
+def _air_blowdown_state(p_pa, t_k, area_m2, pa_pa):
+    """Mass flow [kg/s] and thrust [N] of a convergent nozzle, isentropic perfect gas.
+
+    Anderson, Modern Compressible Flow, 3rd ed., ch. 5 (from memory): choked
+    when p/p_a >= ((g+1)/2)^(g/(g-1)); otherwise exit pressure = p_a.
+    """
+    g = GAMMA_AIR
+    r = R_AIR_J_KG_K
+    p = np.asarray(p_pa, dtype=float)
+    t = np.asarray(t_k, dtype=float)
+    crit = ((g + 1) / 2) ** (g / (g - 1))
+    choked = p / pa_pa >= crit
+    # choked branch
+    mdot_c = area_m2 * p * np.sqrt(g / (r * t)) * (2 / (g + 1)) ** ((g + 1) / (2 * (g - 1)))
+    a_star = np.sqrt(g * r * t * 2 / (g + 1))
+    p_star = p * (2 / (g + 1)) ** (g / (g - 1))
+    f_c = mdot_c * a_star + (p_star - pa_pa) * area_m2
+    # unchoked branch
+    ratio = np.maximum(p / pa_pa, 1.0)
+    m2 = 2 / (g - 1) * (ratio ** ((g - 1) / g) - 1)
+    te = t / (1 + 0.5 * (g - 1) * m2)
+    ue = np.sqrt(m2 * g * r * te)
+    mdot_u = pa_pa / (r * te) * ue * area_m2
+    f_u = mdot_u * ue
+    return np.where(choked, mdot_c, mdot_u), np.where(choked, f_c, f_u)
+
+
+def simulate_water_thrust(
+    stage: WaterStage,
+    *,
+    mass_above_kg: float = 0.0,
+    ambient_pressure_pa: float = P0_PA,
+    g_m_s2: float = G0_M_S2,
+) -> WaterThrust:
+    """Thrust, pressure and mass left of a water stage over time.
+
+    Parameters
+    ----------
+    stage : WaterStage
+    mass_above_kg : float
+        Everything carried by this stage (upper stages, payload) [kg], >= 0.
+        Used only for the motion on a launch tube.
+    ambient_pressure_pa : float
+        Outside pressure [Pa], > 0.
+    g_m_s2 : float
+        Gravity on the launch tube [m/s^2].
+
+    Returns
+    -------
+    WaterThrust
+
+    Raises
+    ------
+    FieldError
+        When the launch-tube force cannot lift the rocket.
+
+    Notes
+    -----
+    Methods as in the module docstring: quasi-steady Bernoulli water jet with
+    polytropic air expansion (Kagan, Buchholz & Klein 1995), then isentropic
+    convergent-nozzle blow-down of the air (Anderson, Modern Compressible Flow).
+    """
+    pa = _pos(ambient_pressure_pa, "ambient_pressure")
+    m_above = _pos(mass_above_kg, "mass_above", zero_ok=True)
+    n = stage.polytropic_exponent
+    rho = RHO_WATER_KG_M3
+    r = R_AIR_J_KG_K
+    vb = stage.bottle_volume_m3
+    vw0 = stage.water_volume_m3
+    va0 = vb - vw0
+    p0 = pa + stage.initial_gauge_pressure_pa
+    t0k = stage.air_temperature_k
+    a_e = stage.nozzle_area_m2
+    mw0 = rho * vw0
+    ma0 = p0 * va0 / (r * t0k)
+
+    seg_t: list[np.ndarray] = []
+    seg_f: list[np.ndarray] = []
+    seg_p: list[np.ndarray] = []
+    seg_mw: list[np.ndarray] = []
+    seg_ma: list[np.ndarray] = []
+    t_now = 0.0
+    p_start = p0
+    v_exit = 0.0
+
+    # ---- 1. launch tube ----------------------------------------------------
+    if stage.launch_tube_length_m > 0:
+        a_t = 0.25 * math.pi * stage.launch_tube_diameter_m**2
+        lt = stage.launch_tube_length_m
+        m_tot = stage.dry_mass_kg + mw0 + ma0 + m_above
+        if (p0 - pa) * a_t <= m_tot * g_m_s2:
+            raise FieldError(
+                f"stages.{stage.name}.launch_tube_diameter",
+                f"the tube force (p - p_a) A_t = {(p0 - pa) * a_t:.3g} N must exceed the weight "
+                f"{m_tot * g_m_s2:.3g} N; widen the tube, raise the pressure or lighten the rocket.",
+                stage.launch_tube_diameter_m,
+            )
+        # Energy along the stroke: 1/2 m v^2 = W_gas(x) - m g x, with the polytropic work
+        # W_gas(x) = integral_0^x (p(x') - p_a) A_t dx'. Time by quadrature dt = dx / v.
+        s = np.linspace(0.0, 1.0, _N_TUBE)
+        x = lt * s**2  # dense near x = 0 where v -> 0 like sqrt(x)
+        vol = va0 + a_t * x
+        p = p0 * (va0 / vol) ** n
+        if abs(n - 1.0) < 1e-12:
+            work = p0 * va0 * np.log(vol / va0) - pa * a_t * x
+        else:
+            work = p0 * va0 / (n - 1) * (1 - (va0 / vol) ** (n - 1)) - pa * a_t * x
+        v = np.sqrt(np.maximum(2 * (work - m_tot * g_m_s2 * x) / m_tot, 0.0))
+        # dt/ds = (dx/ds) / v; near s=0, x = lt s^2 and v ~ sqrt(2 a0 x) so dt/ds -> 2 sqrt(lt / (2 a0))
+        a0 = (p0 - pa) * a_t / m_tot - g_m_s2
+        dtds = np.empty_like(s)
+        dtds[1:] = 2 * lt * s[1:] / v[1:]
+        dtds[0] = 2.0 * math.sqrt(lt / (2.0 * a0))
+        t = cumulative_trapezoid(dtds, s, initial=0.0)
+        tk = t0k * (p / p0) ** ((n - 1) / n)
+        seg_t.append(t)
+        seg_f.append((p - pa) * a_t)
+        seg_p.append(p - pa)
+        seg_mw.append(np.full_like(t, mw0))
+        seg_ma.append(p * va0 / (r * tk))
+        t_now = float(t[-1])
+        p_start = float(p[-1])
+        v_exit = float(v[-1])
+    tube_end = t_now
+
+    # ---- 2. water ------------------------------------------------------------
+    t_start_k = t0k * (p_start / p0) ** ((n - 1) / n)
+    ma_w = p_start * va0 / (r * t_start_k)  # air in the bottle during the water phase
+    v_pa = va0 * (p_start / pa) ** (1.0 / n)  # air volume at which p falls to ambient
+    ran_out = v_pa > vb
+    v_end = vb if ran_out else v_pa
+    s = np.linspace(0.0, 1.0, _N_WATER)
+    w = 1.0 - s
+    vol = v_end - (v_end - va0) * w * w
+    p = p_start * (va0 / vol) ** n
+    dp = np.maximum(p - pa, 0.0)
+    u = np.sqrt(2.0 * dp / rho)
+    dvds = 2.0 * (v_end - va0) * w
+    dtds = np.empty_like(s)
+    dtds[:-1] = dvds[:-1] / (a_e * u[:-1])
+    if ran_out:
+        dtds[-1] = 0.0
+    else:
+        # limit s -> 1: p - p_a ~ (n p_a / v_end)(v_end - vol), so dt/ds -> finite value
+        k = n * pa / v_end
+        dtds[-1] = 2.0 * (v_end - va0) / (a_e * math.sqrt(2.0 * k * (v_end - va0) / rho))
+    t = t_now + cumulative_trapezoid(dtds, s, initial=0.0)
+    if seg_t:
+        t = t + _JUMP_S
+    seg_t.append(t)
+    seg_f.append(2.0 * dp * a_e)
+    seg_p.append(p - pa)
+    seg_mw.append(rho * (vb - vol))
+    seg_ma.append(np.full_like(t, ma_w))
+    t_now = float(t[-1])
+    water_end = t_now
+
+    # ---- 3. air ------------------------------------------------------------------
+    p1 = float(p[-1])
+    if ran_out and p1 > pa * (1 + 1e-9):
+        t1k = t_start_k * (p1 / p_start) ** ((n - 1) / n)
+        m1 = p1 * vb / (r * t1k)
+        g = GAMMA_AIR
+        m_end = m1 * (pa / p1) ** (1.0 / g)
+        s = np.linspace(0.0, 1.0, _N_AIR)
+        w = 1.0 - s
+        m = m_end + (m1 - m_end) * w * w
+        # evaluate the last node slightly before the end: 0/0 limit there
+        w_eval = np.maximum(w, 1e-3 / _N_AIR)
+        m_eval = m_end + (m1 - m_end) * w_eval * w_eval
+        pp = p1 * (m_eval / m1) ** g
+        tt = t1k * (pp / p1) ** ((g - 1) / g)
+        mdot, thrust = _air_blowdown_state(pp, tt, a_e, pa)
+        dtds = 2.0 * (m1 - m_end) * w_eval / mdot
+        t = t_now + _JUMP_S + cumulative_trapezoid(dtds, s, initial=0.0)
+        thrust = thrust.copy()
+        thrust[-1] = 0.0
+        pp = pp.copy()
+        pp[-1] = pa
+        seg_t.append(t)
+        seg_f.append(thrust)
+        seg_p.append(pp - pa)
+        seg_mw.append(np.zeros_like(t))
+        seg_ma.append(m)
+        t_now = float(t[-1])
+    else:
+        seg_f[-1] = seg_f[-1].copy()
+        seg_f[-1][-1] = 0.0
+    return WaterThrust(
+        times_s=np.concatenate(seg_t),
+        thrust_n=np.concatenate(seg_f),
+        gauge_pressure_pa=np.concatenate(seg_p),
+        water_mass_kg=np.concatenate(seg_mw),
+        air_mass_kg=np.concatenate(seg_ma),
+        tube_end_s=tube_end,
+        water_end_s=water_end,
+        end_s=t_now,
+        tube_exit_speed_m_s=v_exit,
+        water_ran_out=bool(ran_out),
+    )
+
+
+# ---------------------------------------------------------------- flight stages
+def water_flight_stage(
+    stage: WaterStage,
+    *,
+    mass_above_kg: float = 0.0,
+    ambient_pressure_pa: float = P0_PA,
+    coast_before_ignition_s: float = 0.0,
+) -> FlightStage:
+    """The flight stage of a water stage: its simulated thrust and mass tables.
+
+    The thrust table is delivered thrust at `ambient_pressure_pa` (it already
+    contains the p - p_a terms), so the stage gets nozzle exit area 0.
+    Propellant is the water and air expelled; water and air left in the
+    bottle at the end count as structure. `isp_vac_s` is I / (m_p g0).
+
+    Parameters
+    ----------
+    stage : WaterStage
+    mass_above_kg : float
+        Everything this stage carries [kg] (for the launch-tube motion).
+    ambient_pressure_pa : float
+        Outside pressure at release [Pa].
+    coast_before_ignition_s : float
+        Coast between the previous event and release of this stage's nozzle [s].
+
+    Returns
+    -------
+    sizing.physics.vehicle.FlightStage
+    """
+    thr = simulate_water_thrust(stage, mass_above_kg=mass_above_kg, ambient_pressure_pa=ambient_pressure_pa)
+    prop = thr.propellant_mass_kg
+    mp = float(prop[0])
+    prop = prop.copy()
+    prop[-1] = 0.0
+    impulse = thr.total_impulse_n_s
+    return FlightStage(
+        stage.name,
+        mp,
+        stage.dry_mass_kg + thr.residual_mass_kg,
+        impulse / (mp * G0_M_S2),
+        diameter_m=stage.diameter_m,
+        thrust_curve=(tuple(thr.times_s.tolist()), tuple(thr.thrust_n.tolist())),
+        propellant_mass_curve=(tuple(thr.times_s.tolist()), tuple(prop.tolist())),
+        nozzle_exit_area_m2=0.0,
+        drag=DragCurve.default_slender_body() if stage.drag is None else stage.drag,
+        coast_before_ignition_s=coast_before_ignition_s,
+    )
+
+
+def water_vehicle(
+    stages: WaterStage | Sequence[WaterStage],
+    payload_mass_kg: float = 0.0,
+    *,
+    ambient_pressure_pa: float = P0_PA,
+    payload_diameter_m: float | None = None,
+) -> Vehicle:
+    """A stack of water stages, bottom first, staging at burnout.
+
+    Each upper stage is released the moment the stage below has expelled its
+    water and air (staging delay 0, no coast before release). Only the bottom
+    stage may have a launch tube. Every stage's thrust is computed at the same
+    ambient pressure (hobby altitudes change it by a few per cent at most).
+
+    Parameters
+    ----------
+    stages : WaterStage or sequence of WaterStage
+        Bottom first.
+    payload_mass_kg : float
+        Mass above the top stage [kg], >= 0.
+    ambient_pressure_pa : float
+        Outside pressure [Pa].
+    payload_diameter_m : float or None
+        Payload diameter [m] if wider than the stages.
+
+    Returns
+    -------
+    sizing.physics.vehicle.Vehicle
+    """
+    stack = (stages,) if isinstance(stages, WaterStage) else tuple(stages)
+    if not stack:
+        raise FieldError("stages", "at least one water stage is required.", stages)
+    for s in stack[1:]:
+        if s.launch_tube_length_m > 0:
+            raise FieldError(
+                f"stages.{s.name}.launch_tube_length", "must be 0: only the bottom stage sits on a launch tube.",
+                s.launch_tube_length_m,
+            )
+    payload = _pos(payload_mass_kg, "payload_mass", zero_ok=True)
+    flight = []
+    above = payload
+    for s in reversed(stack):
+        flight.append(water_flight_stage(s, mass_above_kg=above, ambient_pressure_pa=ambient_pressure_pa))
+        above += s.launch_mass_kg(ambient_pressure_pa)
+    return Vehicle(tuple(reversed(flight)), payload, payload_diameter_m, 0.0)
+
+
+# ---------------------------------------------------------------- optimisation
+@dataclass(frozen=True, slots=True)
+class WaterOptimum:
+    """Outcome of `optimise_water_stage`. Read `success` and `message` first.
+
+    Attributes
+    ----------
+    success : bool
+    message : str
+    stages : tuple of WaterStage
+        Bottom first, with the best fill, pressure and nozzle found.
+    apogee_m : float
+        Apogee of the best design [m] (as returned by the flight function).
+    initial_apogee_m : float
+        Apogee of the design as given [m].
+    n_evaluations : int
+        Flights simulated.
+    varied : tuple of str
+        Which of ``"fill"``, ``"pressure"``, ``"nozzle"`` were optimised.
+    caution : str
+        `WATER_CAUTION`.
+    """
+
+    success: bool
+    message: str
+    stages: tuple[WaterStage, ...]
+    apogee_m: float
+    initial_apogee_m: float
+    n_evaluations: int
+    varied: tuple[str, ...]
+    caution: str = field(default=WATER_CAUTION)
+
+
+_VARY = ("fill", "pressure", "nozzle")
+
+
+def _default_flight(vehicle: Vehicle, site: LaunchSite) -> float:
+    from sizing.physics.trajectory import fly_vertical  # physics layer, imported late (heavy)
+
+    return float(fly_vertical(vehicle, site).apogee_m)
+
+
+def optimise_water_stage(
+    stages: WaterStage | Sequence[WaterStage],
+    *,
+    payload_mass_kg: float = 0.0,
+    site: LaunchSite | None = None,
+    vary: Sequence[str] = _VARY,
+    max_gauge_pressure_pa: float | None = None,
+    fill_bounds: tuple[float, float] = (0.05, 0.8),
+    nozzle_diameter_bounds_m: tuple[float, float] = (0.004, 0.022),
+    ambient_pressure_pa: float = P0_PA,
+    apogee: Callable[[Vehicle, LaunchSite], float] | None = None,
+    n_grid: int = 7,
+    max_evaluations: int = 400,
+) -> WaterOptimum:
+    """Fill fraction, launch pressure and nozzle diameter of water stages for maximum apogee.
+
+    Method: a coarse grid over the fill fraction of every stage (pressure at
+    its upper bound, nozzle as given) seeds a bounded Powell search
+    (`scipy.optimize.minimize(method="Powell")`) over all varied parameters of
+    all stages. Pressure is bounded above by the smaller of
+    `max_gauge_pressure_pa` and each stage's rated / safety_factor, so the
+    result never exceeds a vessel's allowed pressure. When the nozzle varies
+    and a launch tube is present, the tube keeps its ratio to the nozzle
+    diameter. The 0.022 m default upper nozzle bound is about the bore of a
+    standard drinks-bottle neck (from memory).
+
+    Parameters
+    ----------
+    stages : WaterStage or sequence of WaterStage
+        The design to start from, bottom first.
+    payload_mass_kg : float
+        Mass above the top stage [kg].
+    site : LaunchSite or None
+        Launch site; None is sea level, vertical, rail length = launch tube length.
+    vary : sequence of str
+        Any of ``"fill"``, ``"pressure"``, ``"nozzle"``.
+    max_gauge_pressure_pa : float or None
+        The user's pressure limit [Pa]; never above rated / safety_factor.
+    fill_bounds : (float, float)
+        Bounds of the fill fraction [-], inside (0, 1).
+    nozzle_diameter_bounds_m : (float, float)
+        Bounds of the nozzle diameter [m].
+    ambient_pressure_pa : float
+        Outside pressure for the thrust model [Pa].
+    apogee : callable or None
+        ``apogee(vehicle, site) -> apogee_m``; None uses
+        `sizing.physics.trajectory.fly_vertical`.
+    n_grid : int
+        Points of the seeding grid over the fill fraction, >= 2.
+    max_evaluations : int
+        Cap on simulated flights in the Powell search.
+
+    Returns
+    -------
+    WaterOptimum
+    """
+    stack = (stages,) if isinstance(stages, WaterStage) else tuple(stages)
+    vary = tuple(vary)
+    for v in vary:
+        if v not in _VARY:
+            raise ValueError(f"unknown variable {v!r}. Choose from: 'fill', 'pressure', 'nozzle'.")
+    if not vary:
+        raise ValueError("vary must name at least one of: 'fill', 'pressure', 'nozzle'.")
+    lo_f, hi_f = (float(x) for x in fill_bounds)
+    if not 0.0 < lo_f < hi_f < 1.0:
+        raise ValueError(f"fill_bounds must satisfy 0 < low < high < 1. Got {fill_bounds!r}.")
+    lo_d, hi_d = (float(x) for x in nozzle_diameter_bounds_m)
+    if not 0.0 < lo_d < hi_d:
+        raise ValueError(f"nozzle_diameter_bounds_m must satisfy 0 < low < high. Got {nozzle_diameter_bounds_m!r}.")
+    if site is None:
+        site = LaunchSite(rail_length_m=stack[0].launch_tube_length_m)
+    fly = _default_flight if apogee is None else apogee
+
+    p_hi = []
+    for s in stack:
+        lim = s.max_gauge_pressure_pa
+        if max_gauge_pressure_pa is not None:
+            lim = min(lim, _pos(max_gauge_pressure_pa, "max_gauge_pressure"))
+        p_hi.append(lim)
+
+    # parameter vector: per stage, the varied ones in _VARY order
+    bounds = []
+    for i, s in enumerate(stack):
+        for v in _VARY:
+            if v in vary:
+                bounds.append({"fill": (lo_f, hi_f), "pressure": (0.1 * p_hi[i], p_hi[i]),
+                               "nozzle": (lo_d, hi_d)}[v])
+
+    def build(x) -> tuple[WaterStage, ...] | None:
+        out = []
+        k = 0
+        for i, s in enumerate(stack):
+            kw = {}
+            for v in _VARY:
+                if v in vary:
+                    val = float(np.clip(x[k], *bounds[k]))
+                    k += 1
+                    if v == "fill":
+                        kw["water_fill_fraction"] = val
+                    elif v == "pressure":
+                        kw["initial_gauge_pressure_pa"] = min(val, s.max_gauge_pressure_pa)
+                    else:
+                        kw["nozzle_throat_diameter_m"] = val
+                        if s.launch_tube_length_m > 0:
+                            kw["launch_tube_diameter_m"] = s.launch_tube_diameter_m * val / s.nozzle_throat_diameter_m
+            try:
+                out.append(replace(s, **kw))
+            except FieldError:
+                return None
+        return tuple(out)
+
+    n_eval = 0
+    cache: dict[tuple[float, ...], float] = {}
+
+    def apogee_of(x) -> float:
+        nonlocal n_eval
+        key = tuple(round(float(v), 12) for v in x)
+        if key in cache:
+            return cache[key]
+        design = build(x)
+        if design is None:
+            val = -math.inf
+        else:
+            try:
+                veh = water_vehicle(design, payload_mass_kg, ambient_pressure_pa=ambient_pressure_pa)
+                val = float(fly(veh, site))
+            except FieldError:
+                val = -math.inf
+        n_eval += 1
+        cache[key] = val
+        return val
+
+    def start_vector(s_list, fills=None):
+        x = []
+        for i, s in enumerate(s_list):
+            for v in _VARY:
+                if v in vary:
+                    if v == "fill":
+                        x.append(s.water_fill_fraction if fills is None else fills[i])
+                    elif v == "pressure":
+                        x.append(p_hi[i] if fills is not None else min(s.initial_gauge_pressure_pa, p_hi[i]))
+                    else:
+                        x.append(float(np.clip(s.nozzle_throat_diameter_m, lo_d, hi_d)))
+        return np.array(x, dtype=float)
+
+    x0 = start_vector(stack)
+    initial = apogee_of(x0)
+    best_x, best = x0, initial
+    if "fill" in vary:
+        grid = np.linspace(lo_f, hi_f, max(int(n_grid), 2))
+        for fills in _grid_product(grid, len(stack)):
+            x = start_vector(stack, fills)
+            val = apogee_of(x)
+            if val > best:
+                best_x, best = x, val
+
+    scale = np.array([b[1] - b[0] for b in bounds])
+    lo = np.array([b[0] for b in bounds])
+
+    def objective(z):
+        return -apogee_of(lo + z * scale) / 1.0
+
+    z0 = (best_x - lo) / scale
+    res = optimize.minimize(
+        objective, z0, method="Powell", bounds=[(0.0, 1.0)] * len(bounds),
+        options={"xtol": 1e-4, "ftol": 1e-7, "maxfev": int(max_evaluations)},
+    )
+    x_res = lo + np.clip(res.x, 0.0, 1.0) * scale
+    val = apogee_of(x_res)
+    if val > best:
+        best_x, best = x_res, val
+    design = build(best_x)
+    if design is None or not math.isfinite(best):
+        return WaterOptimum(False, "no design in the bounds could be flown.", stack, math.nan, initial,
+                            n_eval, vary)
+    ok = bool(res.success)
+    msg = "optimum found" if ok else f"Powell stopped: {res.message}"
+    if not ok:
+        import warnings
+
+        warnings.warn(f"optimise_water_stage: {msg}. Raise max_evaluations.", SizingConvergenceWarning,
+                      stacklevel=2)
+    return WaterOptimum(ok, msg, design, best, initial, n_eval, vary)
+
+
+def _grid_product(grid: np.ndarray, n: int):
+    """All n-tuples of grid values (n = number of stages; small)."""
+    if n == 1:
+        for g in grid:
+            yield (float(g),)
+        return
+    for g in grid:
+        for rest in _grid_product(grid, n - 1):
+            yield (float(g),) + rest
