@@ -101,3 +101,18 @@ class SizingConvergenceWarning(UserWarning):
 
 class DesignReviewWarning(UserWarning):
     """Something a design reviewer would flag (low thrust-to-weight, slow rail exit, ...)."""
+
+
+class StudyOutputConflictError(SizingError, ValueError):
+    """A study output folder that holds results of a different study file."""
+
+    def __init__(self, folder: str, message: str) -> None:
+        self.folder = str(folder)
+        self.message = message
+        super().__init__(f"{self.folder}: {message}")
+
+    def __reduce__(self):
+        return (type(self), (self.folder, self.message))
+
+
+__all__ += ["StudyOutputConflictError"]
