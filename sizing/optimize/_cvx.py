@@ -53,7 +53,10 @@ def _build(problem: Problem, objective: SolveFor, *, drop_target: bool = False):
     eps = np.array([s.structural_coefficient for s in st])
     x = cp.Variable(N, name="log_mass_ratio")
     g = x + np.log1p(-eps) - cp.log(1 - cp.multiply(eps, cp.exp(x)))
-    dv = c @ x
+    # delta-v in units of the scale below keeps every row of the program near 1
+    dv_scale = problem.delta_v_m_s if problem.delta_v_m_s else float(np.mean(c))
+    c_scaled = c / dv_scale
+    dv = c_scaled @ x
     cons = [x >= 0]
     named: list = []
     y = None
@@ -66,12 +69,12 @@ def _build(problem: Problem, objective: SolveFor, *, drop_target: bool = False):
     if objective == SolveFor.GROSS_MASS:
         obj = cp.Minimize(cp.sum(g))
         if not drop_target:
-            cons.append(dv == problem.delta_v_m_s)
+            cons.append(dv == 1.0)
     elif objective == SolveFor.PAYLOAD_MASS:
         obj = cp.Maximize(y)
         cons.append(y + cp.sum(g) <= math.log(problem.gross_mass_kg))
         if not drop_target:
-            cons.append(dv == problem.delta_v_m_s)
+            cons.append(dv == 1.0)
     else:
         obj = cp.Maximize(dv)
         growth = math.log(problem.gross_mass_kg / problem.payload_mass_kg)
@@ -93,10 +96,10 @@ def _build(problem: Problem, objective: SolveFor, *, drop_target: bool = False):
             add(f"{s.name}.max_mass_ratio", x[i] <= math.log(b), b, "-", -1.0 / b)
         if s.min_delta_v_share is not None:
             b = s.min_delta_v_share
-            add(f"{s.name}.min_delta_v_share", b * dv - c[i] * x[i] <= 0, b, "-", "dv")
+            add(f"{s.name}.min_delta_v_share", b * dv - c_scaled[i] * x[i] <= 0, b, "-", "dv")
         if s.max_delta_v_share is not None:
             b = s.max_delta_v_share
-            add(f"{s.name}.max_delta_v_share", c[i] * x[i] - b * dv <= 0, b, "-", "-dv")
+            add(f"{s.name}.max_delta_v_share", c_scaled[i] * x[i] - b * dv <= 0, b, "-", "-dv")
         if s.max_ignition_mass_kg is not None:
             b = s.max_ignition_mass_kg
             add(f"{s.name}.max_ignition_mass", ln_pl + cp.sum(g[i:]) <= math.log(b), b, "kg", -1.0 / b)
@@ -104,7 +107,9 @@ def _build(problem: Problem, objective: SolveFor, *, drop_target: bool = False):
         b = problem.max_gross_mass_kg
         add("max_gross_mass", ln_pl + cp.sum(g) <= math.log(b), b, "kg", -1.0 / b)
     del dv_now
-    return cp.Problem(obj, cons), x, y, named
+    prob = cp.Problem(obj, cons)
+    prob._dv_scale = dv_scale  # d(constraint)/d(share) is in these units
+    return prob, x, y, named
 
 
 def _run(prob, problem: Problem):
@@ -113,12 +118,23 @@ def _run(prob, problem: Problem):
     opts = {}
     if problem.max_iterations is not None:
         opts["max_iter"] = problem.max_iterations
-    tol = problem.tolerance if problem.tolerance is not None else 1e-10
-    try:
-        prob.solve(solver=cp.CLARABEL, tol_gap_abs=tol, tol_gap_rel=tol, tol_feas=tol, **opts)
-    except cp.error.SolverError as exc:  # pragma: no cover - solver-specific
-        return "solver_error", str(exc)
-    return prob.status, ""
+    # Tight tolerances: the optimum is flat to first order in the split, so mass
+    # ratios are only as good as the square root of the duality gap.
+    tol = problem.tolerance if problem.tolerance is not None else 1e-12
+    status, err = "solver_error", ""
+    for t in (tol, max(tol, 1e-9)):
+        try:
+            with warnings.catch_warnings():
+                warnings.simplefilter("ignore")
+                prob.solve(solver=cp.CLARABEL, tol_gap_abs=t, tol_gap_rel=t, tol_feas=t,
+                           tol_ktratio=t, **opts)
+        except cp.error.SolverError as exc:  # pragma: no cover - solver-specific
+            status, err = "solver_error", str(exc)
+            continue
+        status = prob.status
+        if status != cp.OPTIMAL_INACCURATE:
+            break
+    return status, err
 
 
 def solve_cvxpy(problem: Problem) -> SizingResult:
@@ -166,12 +182,14 @@ def _resolve_quiet(p: Problem) -> SizingResult:
 
 def _constraint_reports(problem: Problem, result: SizingResult, named) -> list[ConstraintReport]:
     m0, mpl, dv = result.gross_mass_kg, result.payload_mass_kg, result.delta_v_m_s
+    dv_scale = problem.delta_v_m_s if problem.delta_v_m_s else float(np.mean(
+        [s.exhaust_velocity_m_s for s in problem.stages]))
     if problem.solve_for == SolveFor.GROSS_MASS:
         scale, unit, sign = m0, "kg gross mass", 1.0
     elif problem.solve_for == SolveFor.PAYLOAD_MASS:
         scale, unit, sign = mpl, "kg payload", -1.0
     else:
-        scale, unit, sign = 1.0, "m/s delta-v", -1.0
+        scale, unit, sign = dv_scale, "m/s delta-v", -1.0
     values = {}
     for sd, sr in zip(problem.stages, result.stages):
         values[f"{sd.name}.min_mass_ratio"] = sr.mass_ratio
@@ -185,9 +203,9 @@ def _constraint_reports(problem: Problem, result: SizingResult, named) -> list[C
         lam = float(np.sum(con.dual_value)) if con.dual_value is not None else 0.0
         lam = max(lam, 0.0)
         if dfdb == "dv":
-            dfdb_v = dv
+            dfdb_v = dv / dv_scale
         elif dfdb == "-dv":
-            dfdb_v = -dv
+            dfdb_v = -dv / dv_scale
         else:
             dfdb_v = dfdb
         # minimise J: dJ*/db = lam * df/db; J = ln m0 (scale m0), -ln m_PL (scale m_PL), -dv

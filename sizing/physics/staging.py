@@ -100,19 +100,22 @@ def _solve_u(fun, u_hi: float) -> tuple[float, int]:
     """Root of a decreasing function on (0, u_hi) by Newton's method kept in a bracket."""
     lo, hi = 0.0, u_hi
     u = 0.5 * u_hi
+    tol = _REL_TOL * u_hi
     for it in range(1, _MAX_ITER + 1):
         g, dg = fun(u)
+        if g == 0.0:
+            return u, it
         if g > 0.0:
             lo = u
         else:
             hi = u
-        if g == 0.0 or hi - lo <= _REL_TOL * u_hi:
-            return u, it
-        step = g / dg if dg != 0.0 else 0.0
+        step = g / dg if dg != 0.0 else math.inf
+        if abs(step) <= tol:
+            return u - step, it
         u_new = u - step
-        if not (lo < u_new < hi) or dg == 0.0:
+        if not (lo < u_new < hi):
             u_new = 0.5 * (lo + hi)
-        if abs(u_new - u) <= _REL_TOL * max(u, 1e-300):
+        if hi - lo <= tol:
             return u_new, it
         u = u_new
     return u, _MAX_ITER
@@ -275,11 +278,13 @@ def optimal_mass_ratios_batch(c_m_s, eps, delta_v_m_s, *, max_iter: int = 100):
         lo_i = np.where(pos, u_i, lo_i)
         hi_i = np.where(pos, hi_i, u_i)
         with np.errstate(divide="ignore", invalid="ignore"):
-            un = u_i - g / dg
-        bad = ~((un > lo_i) & (un < hi_i)) | (dg == 0)
+            step = g / dg
+        fin = (np.abs(step) <= tol) | (hi_i - lo_i <= tol) | (g == 0)
+        un = u_i - step
+        bad = ~((un > lo_i) & (un < hi_i)) | ~np.isfinite(un)
         un = np.where(bad, 0.5 * (lo_i + hi_i), un)
-        fin = (np.abs(un - u_i) <= tol) | (hi_i - lo_i <= tol) | (g == 0)
-        u_i = un
+        # a converged row keeps its last point (|g| is already at round-off there)
+        u_i = np.where(fin, np.where(np.isfinite(u_i - step), u_i - step, u_i), un)
         if fin.any():
             u[idx[fin]] = u_i[fin]
             done[idx[fin]] = True

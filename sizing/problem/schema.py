@@ -9,12 +9,12 @@ from __future__ import annotations
 
 from typing import Literal, Union
 
-from pydantic import BaseModel, ConfigDict, Field
+from pydantic import BaseModel, ConfigDict, Field, StrictFloat, StrictInt, StrictStr
 
 __all__ = ["MissionTable", "StageTable", "SolverTable", "LaunchTable", "ProblemFile", "Quantity"]
 
 #: A plain number (SI) or a string with its unit, e.g. "11000 lb".
-Quantity = Union[float, int, str]
+Quantity = Union[StrictFloat, StrictInt, StrictStr]
 
 
 class _Strict(BaseModel):
