@@ -323,7 +323,9 @@ class WaterThrust:
     def propellant_mass_kg(self) -> np.ndarray:
         """Water + air still to be expelled [kg]: runs down to 0 at `end_s`."""
         rest = self.water_mass_kg + self.air_mass_kg - self.water_mass_kg[-1] - self.air_mass_kg[-1]
-        return np.minimum.accumulate(np.maximum(rest, 0.0))  # remove round-off upticks
+        out = np.minimum.accumulate(np.maximum(rest, 0.0))  # remove round-off upticks
+        out[-1] = 0.0
+        return out
 
     @property
     def residual_mass_kg(self) -> float:
