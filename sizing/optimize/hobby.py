@@ -94,6 +94,7 @@ REJECT_REASONS: tuple[str, ...] = (
     "max_acceleration",   # too hard, and ballast cannot fix it within the other limits
     "overshoot",          # match_target: cannot ballast down to the target
     "flight_error",       # the flight could not be built or simulated
+    "worse_than_best",    # flown and feasible, but a better stack was found
     "objective_bound",    # never flown: cannot beat the optimum found
     "not_evaluated",      # never flown: the simulation cap was reached
 )
@@ -187,7 +188,7 @@ class HobbyStackResult:
     cost : float or None
         Sum of motor costs (None if a chosen motor has no cost).
     target_apogee_m, apogee_m : float
-        [m] (apogee as returned by the flight function).
+        Target and simulated apogee above the launch site [m].
     liftoff_thrust_to_weight : float
         Bottom motor average thrust / liftoff weight [-].
     rail_exit_speed_m_s, max_acceleration_m_s2 : float
@@ -233,6 +234,15 @@ class HobbyStackResult:
 
 
 # ---------------------------------------------------------------- helpers
+@dataclass(frozen=True, slots=True)
+class _Flown:
+    """What the search reads from a flight: apogee above the site, rail exit, max acceleration."""
+
+    apogee_m: float
+    rail_exit_speed_m_s: float
+    max_acceleration_m_s2: float
+
+
 def apogee_energy_bound(delta_v_ideal_m_s: float, *, launch_radius_m: float = R_EARTH_EQ_M) -> float:
     """Upper bound of the apogee height of a vertical flight with this ideal delta-v [m].
 
@@ -288,7 +298,7 @@ def build_motor_vehicle(
 def _default_flight(vehicle: Vehicle, site: LaunchSite):
     from sizing.physics.trajectory import fly_vertical
 
-    return fly_vertical(vehicle, site)
+    return fly_vertical(vehicle, site, record_history=False)
 
 
 def _pareto(cands: list[Motor]) -> list[Motor]:
@@ -348,7 +358,7 @@ def search_hobby_stack(
     payload_mass_kg : float
         Mass above the top stage [kg], >= 0.
     target_apogee_m : float
-        Apogee to reach [m], > 0 (as measured by the flight function).
+        Apogee to reach, above the launch site [m], > 0.
     site : LaunchSite or None
         None: sea level, vertical, 1.0 m rail (an assumption; give your own).
     objective : str
@@ -369,9 +379,11 @@ def search_hobby_stack(
     payload_diameter_m : float or None
         Payload diameter if wider than the stages [m].
     flight : callable or None
-        ``flight(vehicle, site)`` returning an object with ``apogee_m``,
-        ``rail_exit_speed_m_s`` and ``max_acceleration_m_s2``; None uses
-        `sizing.physics.trajectory.fly_vertical`.
+        ``flight(vehicle, site)`` returning an object with ``apogee_m``
+        (above mean sea level), ``rail_exit_speed_m_s`` and
+        ``max_acceleration_m_s2``; None uses
+        `sizing.physics.trajectory.fly_vertical` (flat Earth, drag on).
+        With ``site.rail_length_m == 0`` the rail-exit check is skipped.
     max_combinations : int
         Above this, dominance pruning (heuristic) is applied first.
     max_simulations : int
@@ -461,7 +473,9 @@ def search_hobby_stack(
         n_sim += 1
         veh = build_motor_vehicle(combo, stages, payload_mass_kg=payload_mass_kg, ballast_mass_kg=ballast,
                                   payload_diameter_m=payload_diameter_m)
-        return fly(veh, site)
+        r = fly(veh, site)
+        rail = float(r.rail_exit_speed_m_s) if site.rail_length_m > 0 else math.inf
+        return _Flown(float(r.apogee_m) - site.altitude_m, rail, float(r.max_acceleration_m_s2))
 
     status = "optimal"
     for idx, (key, combo, m0, tw) in enumerate(cands):
@@ -487,7 +501,11 @@ def search_hobby_stack(
         total = m0 + ballast
         full_key = (key[0], total) if objective == "cost" else (total, 0.0)
         if best is None or full_key < best[0]:
+            if best is not None:
+                rejected["worse_than_best"] += 1
             best = (full_key, combo, ballast, res, combo[0].average_thrust_n / (total * g0))
+        else:
+            rejected["worse_than_best"] += 1
 
     rej = MappingProxyType({r: int(rejected.get(r, 0)) for r in REJECT_REASONS})
     if best is None:
@@ -508,9 +526,9 @@ def search_hobby_stack(
         for m, s in zip(combo, stages)
     )
     cost = None if any(m.cost is None for m in combo) else float(sum(m.cost for m in combo))
-    apogee = float(res.apogee_m)
-    rail = float(res.rail_exit_speed_m_s)
-    acc = float(res.max_acceleration_m_s2)
+    apogee = res.apogee_m
+    rail = res.rail_exit_speed_m_s if site.rail_length_m > 0 else math.nan
+    acc = res.max_acceleration_m_s2
     margins = {
         "apogee_m": apogee - target_apogee_m,
         "thrust_to_weight": tw - min_thrust_to_weight,

@@ -670,7 +670,7 @@ _VARY = ("fill", "pressure", "nozzle")
 def _default_flight(vehicle: Vehicle, site: LaunchSite) -> float:
     from sizing.physics.trajectory import fly_vertical  # physics layer, imported late (heavy)
 
-    return float(fly_vertical(vehicle, site).apogee_m)
+    return float(fly_vertical(vehicle, site, record_history=False).apogee_m)
 
 
 def optimise_water_stage(
