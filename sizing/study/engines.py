@@ -24,6 +24,7 @@ from __future__ import annotations
 import multiprocessing as mp
 import os
 import signal
+import sys
 import time
 from collections.abc import Callable, Mapping, Sequence
 from multiprocessing.connection import wait
@@ -46,8 +47,14 @@ def _worker_main(conn, current, ctx: EvalContext, fn: CaseFunction) -> None:
     """Loop of one local worker process: receive a task, stream its outcomes."""
     signal.signal(signal.SIGINT, signal.SIG_IGN)  # the runner handles Ctrl-C
     parent = os.getppid()
+    _die_with_parent()
     while True:
         try:
+            # siblings forked later hold copies of this pipe's other end, so EOF alone
+            # does not reveal a dead runner: also watch the parent id
+            while not conn.poll(1.0):
+                if os.getppid() != parent:
+                    return
             msg = conn.recv()
         except (EOFError, OSError):
             return
@@ -81,6 +88,19 @@ def _worker_main(conn, current, ctx: EvalContext, fn: CaseFunction) -> None:
             return
         if os.getppid() != parent:  # the runner is gone
             return
+
+
+def _die_with_parent() -> None:
+    """Ask Linux to kill this worker when the runner dies (prctl PR_SET_PDEATHSIG)."""
+    if not sys.platform.startswith("linux"):
+        return
+    try:
+        import ctypes
+
+        libc = ctypes.CDLL(None, use_errno=True)
+        libc.prctl(1, signal.SIGKILL, 0, 0, 0)  # PR_SET_PDEATHSIG = 1
+    except (OSError, AttributeError):
+        pass
 
 
 class _Slot:
