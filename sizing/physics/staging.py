@@ -121,6 +121,20 @@ def _solve_u(fun, u_hi: float) -> tuple[float, int]:
     return u, _MAX_ITER
 
 
+def _initial_u(c, log_inv_e, dv: float, u_hi: float) -> float:
+    """Start for the root of sum c_i ln((1 - u/c_i)/eps_i) = dv.
+
+    Exact when every exhaust velocity is the same: with c_h the harmonic mean
+    of the c_i and D = sum c_i ln(1/eps_i) - dv, u0 = c_h (1 - exp(-D/(N c_h))).
+    Typically within 1 % of the root for mixed stages.
+    """
+    n = len(c)
+    d = sum(ci * li for ci, li in zip(c, log_inv_e)) - dv
+    ch = n / sum(1.0 / ci for ci in c)
+    u0 = ch * -math.expm1(-d / (n * ch))
+    return min(max(u0, 1e-12 * u_hi), u_hi * (1.0 - 1e-12))
+
+
 def optimal_mass_ratios(c_m_s, eps, delta_v_m_s: float) -> StagingSolution:
     """Mass ratios that minimise gross mass for an ideal delta-v (Lagrange method).
 
@@ -142,6 +156,11 @@ def optimal_mass_ratios(c_m_s, eps, delta_v_m_s: float) -> StagingSolution:
     ValueError
         If the target is at or beyond `max_ideal_delta_v` or negative.
 
+    Notes
+    -----
+    Halley's method on u = 1/eta from the start of `_initial_u`, kept inside a
+    shrinking bracket (bisection when a step leaves it); typically 2-3 steps.
+
     References
     ----------
     .. [1] H. D. Curtis, Orbital Mechanics for Engineering Students, 3rd ed., 2014,
@@ -158,29 +177,56 @@ def optimal_mass_ratios(c_m_s, eps, delta_v_m_s: float) -> StagingSolution:
     c = [float(x) for x in c_m_s]
     e = [float(x) for x in eps]
     dv = float(delta_v_m_s)
-    if dv < 0:
+    log = math.log
+    le = [-log(ei) for ei in e]
+    dv_max = sum(ci * li for ci, li in zip(c, le))
+    if not dv >= 0:
         raise ValueError(f"delta_v must be >= 0. Got {dv}.")
-    dv_max = max_ideal_delta_v(c, e)
     if dv >= dv_max:
         raise ValueError(f"delta_v {dv:.6g} m/s is at or beyond the supremum {dv_max:.6g} m/s.")
     u_hi = max(ci * (1.0 - ei) for ci, ei in zip(c, e))
     if dv == 0.0:
         return StagingSolution(tuple(1.0 for _ in c), u_hi, 0.0, 0.0, 0)
-
-    def fun(u: float) -> tuple[float, float]:
+    stages = list(zip(c, e, le))
+    u = _initial_u(c, le, dv, u_hi)
+    lo, hi = 0.0, u_hi
+    tol = _REL_TOL * u_hi
+    it = 0
+    while it < _MAX_ITER:
+        it += 1
         g = -dv
         dg = 0.0
-        for ci, ei in zip(c, e):
+        d2g = 0.0
+        for ci, ei, li in stages:
             r = 1.0 - u / ci
             if r > ei:
-                g += ci * math.log(r / ei)
-                dg -= 1.0 / r
-        return g, dg
-
-    u, it = _solve_u(fun, u_hi)
-    n = _ratios(u, c, e)
-    dv_got = sum(ci * math.log(ni) for ci, ni in zip(c, n))
-    growth = sum(stage_log_growth(ni, ei) for ni, ei in zip(n, e))
+                g += ci * (log(r) + li)
+                ir = 1.0 / r
+                dg -= ir
+                d2g -= ir * ir / ci
+        if g > 0.0:
+            lo = u
+        elif g < 0.0:
+            hi = u
+        else:
+            break
+        den = 2.0 * dg * dg - g * d2g
+        step = 2.0 * g * dg / den if den != 0.0 else math.inf
+        if abs(step) <= tol:
+            u -= step
+            break
+        u_new = u - step
+        if not (lo < u_new < hi):
+            u_new = 0.5 * (lo + hi)
+        u = u_new
+        if hi - lo <= tol:
+            break
+    n = [max(1.0, (1.0 - u / ci) / ei) for ci, ei in zip(c, e)]
+    dv_got = 0.0
+    growth = 0.0
+    for ci, ni, ei in zip(c, n, e):
+        dv_got += ci * log(ni)
+        growth += log(ni * (1.0 - ei) / (1.0 - ni * ei))
     return StagingSolution(tuple(n), u, dv_got, growth, it)
 
 
@@ -252,52 +298,76 @@ def optimal_mass_ratios_batch(c_m_s, eps, delta_v_m_s, *, max_iter: int = 100):
     c = np.atleast_2d(np.asarray(c_m_s, dtype=float))
     e = np.atleast_2d(np.asarray(eps, dtype=float))
     c, e = np.broadcast_arrays(c, e)
-    dv = np.broadcast_to(np.asarray(delta_v_m_s, dtype=float), c.shape[:1]).copy()
-    m = c.shape[0]
+    m, n_st = c.shape
+    dv = np.broadcast_to(np.asarray(delta_v_m_s, dtype=float), (m,))
     inv_c = 1.0 / c
-    log_inv_e = np.log(1.0 / e)
-    feasible = (dv < np.sum(c * log_inv_e, axis=1)) & (dv >= 0)
+    log_inv_e = -np.log(e)
+    d = np.einsum("ij,ij->i", c, log_inv_e) - dv  # sup delta-v minus target
+    feasible = (d > 0) & (dv >= 0)
     hi = np.max(c * (1.0 - e), axis=1)
     lo = np.zeros(m)
-    u = 0.5 * hi
+    # start: exact for equal exhaust velocities (see _initial_u)
+    ch = n_st / inv_c.sum(axis=1)
+    with np.errstate(invalid="ignore", over="ignore"):
+        u = np.clip(ch * -np.expm1(-d / (n_st * ch)), 1e-12 * hi, hi * (1.0 - 1e-12))
+    u[~feasible] = np.nan
+    tol = _REL_TOL * 4 * hi
     done = ~feasible | (dv == 0)
     u[dv == 0] = hi[dv == 0]
-    idx = np.flatnonzero(~done)
-    lo_i, hi_i, u_i = lo[idx], hi[idx], u[idx]
-    c_i, ic_i, le_i, dv_i = c[idx], inv_c[idx], log_inv_e[idx], dv[idx]
-    tol = _REL_TOL * 4 * hi[idx]
+    # Phase 1: a few plain Halley steps on every row at once (no bracketing, no
+    # fancy indexing); from the start above nearly every row converges here.
+    work = feasible & (dv > 0)
+    uw = np.where(work, u, 0.5 * hi)
+    for _ in range(3):
+        g, step = _halley_terms(uw, c, inv_c, log_inv_e, dv)
+        un = uw - step
+        uw = np.where(np.isfinite(un) & (un > 0) & (un < hi), un, uw)
+    g, step = _halley_terms(uw, c, inv_c, log_inv_e, dv)
+    ok = work & np.isfinite(step) & (np.abs(step) <= tol)
+    u[ok] = (uw - step)[ok]
+    done |= ok
+    # Phase 2: the few rows left get the safeguarded (bracketed) iteration.
+    active_rows = np.flatnonzero(work & ~ok)
+    u[active_rows] = uw[active_rows]
     for _ in range(max_iter):
-        if idx.size == 0:
+        if active_rows.size == 0:
             break
-        r = 1.0 - u_i[:, None] * ic_i
-        lr = np.log(np.maximum(r, 1e-300)) + le_i  # ln(r/eps)
-        act = lr > 0.0
-        g = np.sum(np.where(act, c_i * lr, 0.0), axis=1) - dv_i
-        dg = -np.sum(np.where(act, 1.0 / r, 0.0), axis=1)
+        a = active_rows
+        ui = u[a]
+        g, step = _halley_terms(ui, c[a], inv_c[a], log_inv_e[a], dv[a])
         pos = g > 0
-        lo_i = np.where(pos, u_i, lo_i)
-        hi_i = np.where(pos, hi_i, u_i)
-        with np.errstate(divide="ignore", invalid="ignore"):
-            step = g / dg
-        fin = (np.abs(step) <= tol) | (hi_i - lo_i <= tol) | (g == 0)
-        un = u_i - step
-        bad = ~((un > lo_i) & (un < hi_i)) | ~np.isfinite(un)
-        un = np.where(bad, 0.5 * (lo_i + hi_i), un)
-        # a converged row keeps its last point (|g| is already at round-off there)
-        u_i = np.where(fin, np.where(np.isfinite(u_i - step), u_i - step, u_i), un)
-        if fin.any():
-            u[idx[fin]] = u_i[fin]
-            done[idx[fin]] = True
-            keep = ~fin
-            idx, lo_i, hi_i, u_i = idx[keep], lo_i[keep], hi_i[keep], u_i[keep]
-            c_i, ic_i, le_i, dv_i, tol = c_i[keep], ic_i[keep], le_i[keep], dv_i[keep], tol[keep]
+        lo_i = np.where(pos, ui, lo[active_rows])
+        hi_i = np.where(pos | (g == 0), hi[active_rows], ui)
+        fin = (np.abs(step) <= tol[active_rows]) | (g == 0) | (hi_i - lo_i <= tol[active_rows])
+        un = ui - step
+        bad = ~((un > lo_i) & (un < hi_i))
+        un = np.where(bad & ~fin, 0.5 * (lo_i + hi_i), un)
+        # a converged row takes its last (tiny) step and stops
+        un = np.where(fin & ~np.isfinite(un), ui, un)
+        u[active_rows] = un
+        lo[active_rows] = lo_i
+        hi[active_rows] = hi_i
+        done[active_rows[fin]] = True
+        active_rows = active_rows[~fin]
     converged = done & feasible
-    if idx.size:
-        u[idx] = u_i
     n = np.maximum(1.0, (1.0 - u[:, None] * inv_c) / e)
     n[~feasible] = np.nan
-    u = np.where(feasible, u, np.nan)
     return n, u, converged
+
+
+def _halley_terms(u, c, inv_c, log_inv_e, dv):
+    """g(u) = sum_active c_i ln((1 - u/c_i)/eps_i) - dv and the Halley step g-correction."""
+    r = 1.0 - u[:, None] * inv_c
+    with np.errstate(invalid="ignore", divide="ignore"):
+        lr = np.log(r) + log_inv_e
+    act = lr > 0.0
+    g = np.einsum("ij,ij->i", c, np.where(act, lr, 0.0)) - dv
+    ir = np.where(act, 1.0 / r, 0.0)
+    dg = -ir.sum(axis=1)
+    d2g = -np.einsum("ij,ij->i", ir * ir, inv_c)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        step = 2.0 * g * dg / (2.0 * dg * dg - g * d2g)
+    return g, step
 
 
 def identical_stages_payload_fraction(n_stages: int, c_m_s: float, eps: float, delta_v_m_s: float) -> float:
