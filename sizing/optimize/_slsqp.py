@@ -50,7 +50,25 @@ def slsqp_min_gross_log_growth(c, eps, delta_v_m_s, *, x0=None, tol=1e-12, maxit
 
 
 def solve_slsqp(problem: Problem) -> SizingResult:
-    """Solve with scipy SLSQP (all `solve_for` modes, mass-ratio and share limits, caps)."""
+    """Solve with scipy SLSQP (all `solve_for` modes, mass-ratio and share limits, caps).
+
+    Trade factors come from central differences of quiet re-solves.
+    """
+    from dataclasses import replace
+
+    result = _solve(problem)
+    if not result.success:
+        return result
+    return replace(result, trade_factors=numeric_trade_factors(problem, result, _quiet))
+
+
+def _quiet(p: Problem) -> SizingResult:
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")
+        return _solve(p)
+
+
+def _solve(problem: Problem) -> SizingResult:
     st = problem.stages
     c = np.array([s.exhaust_velocity_m_s for s in st])
     eps = np.array([s.structural_coefficient for s in st])
@@ -106,25 +124,4 @@ def solve_slsqp(problem: Problem) -> SizingResult:
                              message=f"slsqp: {res.message}")
     x = np.maximum(res.x, 0.0)
     payload = math.exp(ln_payload(x))
-    result = build_result(problem, np.exp(x), payload, method="slsqp", n_iterations=int(res.nit))
-    from dataclasses import replace
-
-    return replace(result, trade_factors=numeric_trade_factors(problem, result, _quiet))
-
-
-def _quiet(p: Problem) -> SizingResult:
-    with warnings.catch_warnings():
-        warnings.simplefilter("ignore")
-        r = _bare(p)
-    return r
-
-
-def _bare(p: Problem) -> SizingResult:
-    c = [s.exhaust_velocity_m_s for s in p.stages]
-    eps = [s.structural_coefficient for s in p.stages]
-    if p.has_constraints:
-        from ._cvx import _resolve_quiet
-
-        return _resolve_quiet(p)
-    res = slsqp_min_gross_log_growth(c, eps, p.delta_v_m_s)
-    return build_result(p, np.exp(np.maximum(res.x, 0)), p.payload_mass_kg, method="slsqp", n_iterations=int(res.nit))
+    return build_result(problem, np.exp(x), payload, method="slsqp", n_iterations=int(res.nit))
