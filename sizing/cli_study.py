@@ -142,7 +142,7 @@ def cmd_study(args: argparse.Namespace) -> int:
         if summary.counts.get(k):
             t.add_row(f"status {k}", f"{summary.counts[k]:,}")
     rate = summary.ran / summary.elapsed_s if summary.elapsed_s > 0 else 0.0
-    t.add_row("wall time [s]", f"{summary.elapsed_s:,.2f}")
+    t.add_row(escape("wall time [s]"), f"{summary.elapsed_s:,.2f}")
     t.add_row("cases per second", f"{rate:,.0f}")
     t.add_row("engine (workers)", f"{summary.engine} ({summary.workers})")
     con.print(t)

@@ -31,6 +31,7 @@ from multiprocessing.connection import wait
 from typing import Any
 
 from .evaluate import EvalContext, evaluate_cases
+from .store import encode_outcome
 
 __all__ = ["LocalEngine", "DaskEngine", "SerialEngine", "FLUSH_S", "CaseFunction"]
 
@@ -61,6 +62,7 @@ def _worker_main(conn, current, ctx: EvalContext, fn: CaseFunction) -> None:
         if msg is None:
             return
         task_id, cases = msg
+        inputs = {c["case_id"]: c["inputs"] for c in cases}
         buf: list[dict] = []
         last = [time.monotonic()]
 
@@ -72,7 +74,7 @@ def _worker_main(conn, current, ctx: EvalContext, fn: CaseFunction) -> None:
 
         def on_result(outcome: dict) -> None:
             current.value = _IDLE
-            buf.append(outcome)
+            buf.append(encode_outcome(outcome, inputs.get(outcome["case_id"])))
             if time.monotonic() - last[0] >= FLUSH_S:
                 flush()
 
@@ -259,7 +261,8 @@ class SerialEngine:
 
 
 def _dask_task(cases: list, ctx: EvalContext, fn: CaseFunction) -> list:
-    return fn(cases, ctx)
+    inputs = {c["case_id"]: c["inputs"] for c in cases}
+    return [encode_outcome(o, inputs.get(o["case_id"])) for o in fn(cases, ctx)]
 
 
 class DaskEngine:

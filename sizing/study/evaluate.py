@@ -66,6 +66,7 @@ class EvalContext:
     method: str = "auto"
     solver: str = "auto"
     source: str = "<study>"
+    study: Any = None
 
     @classmethod
     def from_study(cls, study) -> "EvalContext":
@@ -83,7 +84,17 @@ class EvalContext:
             method=spec.study.method,
             solver=spec.study.solver,
             source=study.source,
+            study=study,
         )
+
+    def problem_data(self, case: Mapping[str, Any]) -> dict[str, Any]:
+        """The case's raw problem structure (built from its inputs when not attached)."""
+        data = case.get("problem")
+        if data is None:
+            from .spec import apply_case
+
+            data = apply_case(self.study, case["inputs"])
+        return data
 
 
 def _one_line(text: str) -> str:
@@ -199,7 +210,7 @@ def evaluate_case(case: Mapping[str, Any], ctx: EvalContext) -> dict[str, Any]:
         from ..optimize.api import solve
         from ..problem.load import problem_from_dict
 
-        problem = problem_from_dict(case["problem"], source=f"{ctx.source} case {case['case_id']}")
+        problem = problem_from_dict(ctx.problem_data(case), source=f"{ctx.source} case {case['case_id']}")
         res = solve(problem, method=ctx.method)
         d = res.to_dict()
         if not res.success:
@@ -239,7 +250,7 @@ def _evaluate_batch(cases: Sequence[Mapping[str, Any]], ctx: EvalContext,
     for case in cases:
         t0 = time.perf_counter()
         try:
-            problem = problem_from_dict(case["problem"], source=f"{ctx.source} case {case['case_id']}")
+            problem = problem_from_dict(ctx.problem_data(case), source=f"{ctx.source} case {case['case_id']}")
         except ProblemDefinitionError as exc:
             on_result(_outcome(case, "error", "; ".join(exc.faults), t0))
             continue

@@ -119,7 +119,7 @@ def _preflight(study: Study, case: Case, ctx: EvalContext) -> tuple[dict, bool]:
     from ..problem.load import problem_from_dict
 
     try:
-        problem = problem_from_dict(case.problem, source=f"{study.source} [base]")
+        problem = problem_from_dict(ctx.problem_data(_as_dict(case)), source=f"{study.source} [base]")
     except ProblemDefinitionError as exc:
         inputs = ", ".join(f"{k} = {v!r}" for k, v in case.inputs.items()) or "no axes"
         raise StudyDefinitionError(
@@ -133,7 +133,10 @@ def _preflight(study: Study, case: Case, ctx: EvalContext) -> tuple[dict, bool]:
 
 
 def _as_dict(case: Case) -> dict[str, Any]:
-    return {"case_id": case.case_id, "key": case.key, "inputs": case.inputs, "problem": case.problem}
+    d = {"case_id": case.case_id, "key": case.key, "inputs": case.inputs}
+    if case.problem is not None:
+        d["problem"] = case.problem
+    return d
 
 
 def run_study(study: Study | str | Path, out: str | Path, *, engine: str = "local",
@@ -183,7 +186,7 @@ def run_study(study: Study | str | Path, out: str | Path, *, engine: str = "loca
         study = load_study(study)
     t_start = time.perf_counter()
     folder = Path(out)
-    cases = expand_cases(study)
+    cases = expand_cases(study, with_problems=False)
     ctx = EvalContext.from_study(study)
     if store == "none":
         db: Any = NullStore()

@@ -255,14 +255,15 @@ class Case:
         Hash of `inputs`; the same inputs always give the same key.
     inputs : dict
         Axis label or choice name -> value (None where it does not apply).
-    problem : dict
-        The raw problem structure for `problem_from_dict`.
+    problem : dict or None
+        The raw problem structure for `problem_from_dict` (None when expanded
+        with ``with_problems=False``; workers then build it with `apply_case`).
     """
 
     case_id: int
     key: str
     inputs: dict[str, Any]
-    problem: dict[str, Any] = field(repr=False)
+    problem: dict[str, Any] | None = field(default=None, repr=False)
 
 
 @dataclass(frozen=True)
@@ -618,6 +619,15 @@ def _choice_combos(study: Study) -> list[dict[str, Any]]:
     return combos
 
 
+def _copy_tree(obj: Any) -> Any:
+    """Copy of a TOML structure (dicts, lists, scalars); faster than copy.deepcopy."""
+    if isinstance(obj, dict):
+        return {k: _copy_tree(v) for k, v in obj.items()}
+    if isinstance(obj, list):
+        return [_copy_tree(v) for v in obj]
+    return obj
+
+
 def apply_case(study: Study, inputs: Mapping[str, Any]) -> dict[str, Any]:
     """Build a case's raw problem structure: base, then choices, then axes.
 
@@ -626,7 +636,7 @@ def apply_case(study: Study, inputs: Mapping[str, Any]) -> dict[str, Any]:
     applied last, so an axis on a stage field overrides its propellant.
     """
     spec = study.spec
-    data = copy.deepcopy(study.base)
+    data = _copy_tree(study.base)
     count = inputs.get("stage_count")
     if count is not None:
         data["stage"] = data["stage"][: int(count)]
@@ -664,7 +674,7 @@ def apply_case(study: Study, inputs: Mapping[str, Any]) -> dict[str, Any]:
     return data
 
 
-def expand_cases(study: Study) -> list[Case]:
+def expand_cases(study: Study, *, with_problems: bool = True) -> list[Case]:
     """All cases of a study in a stable order (choices, then grid levels, then samples).
 
     Returns
@@ -696,7 +706,8 @@ def expand_cases(study: Study) -> list[Case]:
                 if key in seen:
                     continue
                 seen.add(key)
-                cases.append(Case(len(cases), key, inputs, apply_case(study, inputs)))
+                cases.append(Case(len(cases), key, inputs,
+                                  apply_case(study, inputs) if with_problems else None))
     return cases
 
 

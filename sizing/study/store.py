@@ -21,7 +21,7 @@ from typing import Any, Iterable, Mapping
 
 from ..errors import StudyOutputConflictError
 
-__all__ = ["StudyStore", "DB_NAME", "MSG_OTHER_STUDY"]
+__all__ = ["StudyStore", "NullStore", "DB_NAME", "MSG_OTHER_STUDY", "encode_outcome"]
 
 DB_NAME = "study.sqlite"
 MSG_OTHER_STUDY = "holds results of a different study file"
@@ -44,6 +44,11 @@ CREATE TABLE IF NOT EXISTS cases (
 
 
 def _json(obj: Any) -> str:
+    try:
+        return json.dumps(obj, separators=(",", ":"), allow_nan=False)
+    except (ValueError, TypeError):
+        pass
+
     def clean(o: Any) -> Any:
         if isinstance(o, float):
             return o if math.isfinite(o) else None
@@ -54,6 +59,25 @@ def _json(obj: Any) -> str:
         return o
 
     return json.dumps(clean(obj), separators=(",", ":"), allow_nan=False, default=str)
+
+
+def encode_outcome(outcome: dict[str, Any], inputs: Any = None) -> dict[str, Any]:
+    """JSON-encode an outcome's metrics, result (and inputs) where it is produced.
+
+    Workers call this so the runner, the one serial part of a study, only
+    inserts rows. `StudyStore.record` accepts encoded and plain outcomes alike.
+    """
+    for k in ("metrics", "result"):
+        v = outcome.get(k)
+        if v is not None and not isinstance(v, str):
+            outcome[k] = _json(v)
+    if inputs is not None and "inputs_json" not in outcome:
+        outcome["inputs_json"] = _json(inputs)
+    return outcome
+
+
+def _enc(v: Any) -> str:
+    return v if isinstance(v, str) else _json(v)
 
 
 class StudyStore:
@@ -129,9 +153,10 @@ class StudyStore:
             case_id -> the case's inputs.
         """
         now = datetime.now(timezone.utc).isoformat(timespec="milliseconds")
-        rows = [(o["case_id"], o["key"], o["status"], o["message"], _json(inputs[o["case_id"]]),
-                 _json(o.get("metrics") or {}),
-                 None if o.get("result") is None else _json(o["result"]),
+        rows = [(o["case_id"], o["key"], o["status"], o["message"],
+                 o.get("inputs_json") or _json(inputs[o["case_id"]]),
+                 _enc(o.get("metrics") or {}),
+                 None if o.get("result") is None else _enc(o["result"]),
                  float(o.get("elapsed_s", 0.0)), int(o.get("attempts", 1)), now)
                 for o in outcomes]
         if not rows:

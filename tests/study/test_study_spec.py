@@ -183,3 +183,13 @@ def test_expand_sampled_designs_cover_bounds(design):
         assert sorted(bins) == list(range(16))
     again = expand_cases(study_from_dict(copy.deepcopy(data)))
     assert [c.inputs for c in again] == [c.inputs for c in cases]
+
+
+@pytest.mark.parametrize("name, n", [("jackdaw_quick.toml", 324), ("heron_sobol.toml", 2304),
+                                     ("jackdaw_limits_lhs.toml", 512)])
+def test_demo_studies_load(name, n):
+    """The shipped demo studies (invented scenario) validate and expand."""
+    from pathlib import Path
+
+    study = load_study(Path(__file__).resolve().parents[2] / "studies" / name)
+    assert len(expand_cases(study, with_problems=False)) == n
