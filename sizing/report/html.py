@@ -146,7 +146,7 @@ _JS = r"""
   // header text
   document.getElementById("title").textContent = D.title;
   document.getElementById("vehicle").textContent = D.vehicle ? "vehicle: " + D.vehicle : "";
-  document.getElementById("description").textContent = D.description || "";
+  document.getElementById("description").textContent = D.description ? (D.vehicle ? " | " : "") + D.description : "";
   var counts = {};
   D.cases.forEach(function (c) { counts[c.status] = (counts[c.status] || 0) + 1; });
   var facts = document.getElementById("facts");
@@ -246,7 +246,8 @@ _JS = r"""
       marker: {color: palette[i % palette.length]}, hovertemplate: "%{y:,.1f} kg<extra>" + esc(n) + " propellant</extra>"});
     bars.push({type: "bar", name: esc(n) + " structure",
       x: labels, y: front.map(function (c) { var d = D.designs[String(c.case_id)]; var s = d && d.stages.filter(function (q) { return q.name === n; })[0]; return s ? s.structural_mass_kg : 0; }),
-      marker: {color: palette[i % palette.length], pattern: {shape: "/", fgcolor: "#ffffff"}},
+      marker: {color: palette[i % palette.length], opacity: 0.45,
+               line: {color: palette[i % palette.length], width: 1}},
       hovertemplate: "%{y:,.1f} kg<extra>" + esc(n) + " structure</extra>"});
   });
   bars.push({type: "bar", name: "payload", x: labels,
