@@ -177,6 +177,8 @@ def write_outputs(folder: str | Path, *, report: bool = True) -> dict[str, Path]
     """
     res = load_results(folder)
     folder = Path(folder)
+    with StudyStore(folder) as store:
+        store.set_meta("pareto_case_ids", [r["case_id"] for r in res.pareto])
     out: dict[str, Path] = {}
     pf = res.frame(res.pareto)
     pf.to_csv(folder / PARETO_CSV, index=False)

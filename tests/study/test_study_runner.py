@@ -175,6 +175,20 @@ def test_study_worker_death_retried_once_then_crashed(tmp_path, monkeypatch):
     assert summary.counts == {"ok": 8, "crashed": 1}
 
 
+def _toml_of_small_study() -> str:
+    """small_study() written as TOML (inline base problem)."""
+    lines = ['[study]', 'name = "dask cli"', '[base.mission]']
+    lines += [f"{k} = {v!r}" if isinstance(v, float) else f'{k} = "{v}"'
+              for k, v in CURTIS_11_6["mission"].items()]
+    for st in CURTIS_11_6["stage"]:
+        lines += ["[[base.stage]]"] + [f"{k} = {v!r}" if isinstance(v, float) else f'{k} = "{v}"'
+                                       for k, v in st.items()]
+    lines += ['[[axis]]', 'field = "mission.payload_mass"', 'values = [4000.0, 5000.0, 6000.0]',
+              '[[axis]]', 'field = "mission.delta_v"', 'start = 9000.0', 'stop = 10000.0', 'num = 3',
+              '[[objective]]', 'metric = "gross_mass_kg"', '[[objective]]', 'metric = "payload_mass_kg"']
+    return "\n".join(lines) + "\n"
+
+
 def test_study_dask_engine_local_cluster(tmp_path, monkeypatch):
     """Dask engine on a loopback LocalCluster: same results as the local engine; a worker
     killed mid-task has its cases rerun one by one and finished."""
@@ -195,6 +209,14 @@ def test_study_dask_engine_local_cluster(tmp_path, monkeypatch):
             with distributed.Client(cluster) as client:
                 summary = run_study(study, tmp_path / "dask", engine="dask", scheduler=client,
                                     case_function=dying_cases, write_outputs=False)
+            # the command line path: a scheduler address
+            from sizing.cli import main
+
+            spec = tmp_path / "s.toml"
+            spec.write_text(_toml_of_small_study())
+            assert main(["study", str(spec), "--out", str(tmp_path / "cli"), "--quiet", "--no-report",
+                         "--engine", "dask", "--scheduler", cluster.scheduler_address]) == 0
+    assert len(_rows(tmp_path / "cli")) == 9
     assert summary.counts == {"ok": 9}
     a, b = _rows(tmp_path / "local"), _rows(tmp_path / "dask")
     assert sorted(a) == sorted(b)
