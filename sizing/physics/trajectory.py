@@ -1,0 +1,1221 @@
+"""Point-mass trajectory simulation with changing mass, events and a loss budget.
+
+Equations of motion
+-------------------
+In an inertial frame (Earth-centred for a round Earth, a local frame for the
+flat-Earth option) the vehicle is a point of mass m(t):
+
+    dr/dt = V,
+    m dV/dt = F u_T - D v_hat_rel + m g(r),
+    dm/dt = -mdot(t),
+
+where F is the delivered thrust (momentum flux of the exhaust plus the
+pressure thrust, F = F_vac - p_a A_e), u_T the thrust direction, D = q C_D(M) S
+the drag along the Earth-relative velocity v_rel = V - omega x r, and g the
+gravity (inverse-square GM r / r^3, or a constant g0 on the flat Earth). The
+exhaust carries its momentum away: there is no "v dm/dt" term (Tsiolkovsky
+rocket equation; Sutton & Biblarz, Rocket Propulsion Elements, 9th ed., 2017,
+Sec. 4.1 and eq. 4-6; Curtis, Orbital Mechanics for Engineering Students, 3rd
+ed., 2014, Sec. 11.3). In free space this integrates to dv = c ln(m0/mf).
+
+Integration is classical fixed-step fourth-order Runge-Kutta on plain Python
+floats (no per-step array allocation). The flight is cut into phases at every
+time where the right-hand side is not smooth (ignition, burnout, staging,
+thrust-curve knots, end of vertical rise and pitch kick), so each RK4 step sees
+a smooth right-hand side. Events that depend on the state (rail exit, apogee,
+impact) are located inside a step by regula falsi (Illinois) on a single RK4
+step of variable length.
+
+Loss budget
+-----------
+The speed equation in the Earth-fixed (rotating) frame, projected on
+v_hat = v_rel / |v_rel|, is (Coriolis does no work)
+
+    d|v_rel|/dt = F_vac/m - (F_vac - F)/m - F/m (1 - u_T . v_hat)
+                  - D/m + g . v_hat + a_cf . v_hat,
+
+with the centrifugal acceleration a_cf = omega^2 (x, y, 0). Integrating each
+term over a stage's interval (from the previous burnout, or liftoff, to its
+burnout; coasts before ignition belong to the stage that follows) gives
+
+    ideal delta-v (int F_vac/m dt, = c ln(m0/mf) for constant c)
+      = gain in |v_rel| + gravity + drag + steering + pressure - centrifugal,
+
+with gravity = int -g . v_hat dt, drag = int D/m dt, steering =
+int F/m (1 - cos(angle between thrust and v_rel)) dt, pressure =
+int p_a A_e / m dt. The rotation bonus is defined so that the budget closes in
+the inertial speed at the final event:
+
+    sum(ideal) = |V_final (inertial)| - rotation_bonus + sum(losses),
+    rotation_bonus = (|V_final| - |v_rel,final|) + int a_cf . v_hat dt.
+
+On a non-rotating Earth the bonus is 0. While the vehicle sits held on the pad
+or rail (thrust below weight) the thrust acceleration is booked as gravity
+loss. `FlightResult.budget_residual_m_s` reports how well the identity closes
+(integration error only).
+
+Every result carries `warnings` (strings) that a design reviewer would flag;
+they are never raised. These are preliminary estimates only: they are not a
+flight-safety analysis or a flight clearance. Follow local law, the applicable
+safety code, range and aviation rules and licensed practice.
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Mapping
+from dataclasses import dataclass, field, replace
+from types import MappingProxyType
+
+import numpy as np
+
+from sizing.errors import FieldError
+from sizing.physics.atmosphere import pressure_density_sound_speed
+from sizing.physics.gravity import OrbitElements, orbit_elements
+from sizing.physics.vehicle import LaunchSite, Vehicle
+from sizing.units import G0_M_S2, GM_EARTH_M3_S2, OMEGA_EARTH_RAD_S, R_EARTH_EQ_M
+
+__all__ = [
+    "LOSS_KEYS",
+    "HOBBY_MIN_LIFTOFF_TW",
+    "DTEG_MIN_RAIL_EXIT_SPEED_M_S",
+    "HOBBY_MIN_RAIL_EXIT_SPEED_M_S",
+    "AscentProfile",
+    "StageBurnout",
+    "FlightHistory",
+    "FlightResult",
+    "fly_vertical",
+    "fly_ascent",
+    "simulate",
+]
+
+#: Names of the loss terms in every ``losses_m_s`` mapping.
+LOSS_KEYS = ("gravity", "drag", "steering", "pressure")
+#: Minimum liftoff thrust-to-weight, Spaceport America Cup DTEG req. 5.18.2
+#: (also the common hobby rule of thumb).
+HOBBY_MIN_LIFTOFF_TW = 5.0
+#: Minimum rail-exit speed [m/s], 100 ft/s, Spaceport America Cup DTEG 10.2.1.
+DTEG_MIN_RAIL_EXIT_SPEED_M_S = 30.48
+#: Common hobby practice for rail-exit speed [m/s] (about 50 ft/s; from memory).
+HOBBY_MIN_RAIL_EXIT_SPEED_M_S = 15.0
+
+_ATMOSPHERE_TOP_M = 300e3  # above this, p and rho are taken as 0 (drag < 1e-6 of weight)
+_MAX_FLIGHT_TIME_S = 2.0e5
+
+# steering modes
+_RAIL, _UP, _KICK, _PRO, _LTG, _PRATE = range(6)
+
+
+@dataclass(frozen=True, slots=True)
+class AscentProfile:
+    """Steering programme of a gravity-turn ascent.
+
+    Parameters
+    ----------
+    vertical_rise_s : float
+        Time from liftoff with thrust along the local vertical [s], >= 0.
+    pitch_kick_deg : float
+        Tilt of the thrust from the local vertical towards the launch azimuth
+        during the kick [deg], in [0, 90).
+    kick_duration_s : float
+        Duration of the kick [s], > 0. After it the thrust follows the
+        Earth-relative velocity (zero-lift gravity turn).
+    steering : str
+        Upper-stage law from ignition of `steer_from_stage` to final burnout:
+        ``"linear_tangent"`` (tan of pitch above the local horizontal varies
+        linearly in time; Bryson & Ho, Applied Optimal Control, 1975, Sec. 2.7,
+        from memory), ``"pitch_rate"`` (pitch varies linearly in time) or
+        ``"gravity_turn"`` (no steering: zero-lift all the way).
+    steer_from_stage : str, optional
+        Name of the first steered stage; default the top stage.
+    final_pitch_deg : float
+        Pitch above the local horizontal at final burnout [deg]. The law starts
+        from the inertial flight-path angle at steering start (no jump).
+    target_altitude_m : float, optional
+        If given, `fly_ascent` solves pitch_kick_deg (and final_pitch_deg when
+        steering) so that final burnout happens at this altitude with zero
+        inertial flight-path angle.
+    """
+
+    vertical_rise_s: float = 10.0
+    pitch_kick_deg: float = 2.0
+    kick_duration_s: float = 10.0
+    steering: str = "linear_tangent"
+    steer_from_stage: str | None = None
+    final_pitch_deg: float = 0.0
+    target_altitude_m: float | None = None
+
+    def __post_init__(self) -> None:
+        if self.steering not in ("linear_tangent", "pitch_rate", "gravity_turn"):
+            raise FieldError(
+                "profile.steering",
+                "must be one of 'linear_tangent', 'pitch_rate', 'gravity_turn'.",
+                self.steering,
+            )
+        if not self.vertical_rise_s >= 0:
+            raise FieldError("profile.vertical_rise_s", "must be >= 0.", self.vertical_rise_s)
+        if not self.kick_duration_s > 0:
+            raise FieldError("profile.kick_duration_s", "must be > 0.", self.kick_duration_s)
+        if not 0 <= self.pitch_kick_deg < 90:
+            raise FieldError("profile.pitch_kick_deg", "must be in [0, 90).", self.pitch_kick_deg)
+        if not -89 < self.final_pitch_deg < 89:
+            raise FieldError("profile.final_pitch_deg", "must be in (-89, 89).", self.final_pitch_deg)
+
+
+@dataclass(frozen=True, slots=True)
+class StageBurnout:
+    """State at burnout of one stage and the delta-v budget of its interval.
+
+    The interval runs from the previous stage's burnout (or liftoff) to this
+    burnout, so coasts before ignition are included.
+
+    Attributes
+    ----------
+    stage : str
+    time_s : float
+        Time of burnout since first motion command (t = 0) [s].
+    altitude_m : float
+        Above mean sea level [m].
+    downrange_m : float
+        Ground distance from the launch site [m].
+    speed_m_s : float
+        Earth-relative speed [m/s].
+    inertial_speed_m_s : float
+        Speed in the inertial frame [m/s].
+    flight_path_angle_deg : float
+        Earth-relative velocity above the local horizontal [deg].
+    mass_kg : float
+        Mass just before separation [kg].
+    ideal_delta_v_m_s : float
+        int F_vac/m dt over the interval [m/s].
+    speed_gain_m_s : float
+        Gain in Earth-relative speed over the interval [m/s].
+    losses_m_s : Mapping[str, float]
+        gravity, drag, steering, pressure [m/s].
+    centrifugal_m_s : float
+        int a_cf . v_hat dt over the interval [m/s] (0 without rotation).
+    """
+
+    stage: str
+    time_s: float
+    altitude_m: float
+    downrange_m: float
+    speed_m_s: float
+    inertial_speed_m_s: float
+    flight_path_angle_deg: float
+    mass_kg: float
+    ideal_delta_v_m_s: float
+    speed_gain_m_s: float
+    losses_m_s: Mapping[str, float]
+    centrifugal_m_s: float
+
+
+@dataclass(frozen=True, slots=True)
+class FlightHistory:
+    """Time history sampled at every integration step and event (1-D arrays).
+
+    Columns: t_s [s], altitude_m [m above MSL], downrange_m [m], speed_m_s
+    (Earth-relative) [m/s], inertial_speed_m_s [m/s], flight_path_angle_deg
+    [deg], mach [-], dynamic_pressure_pa [Pa], acceleration_m_s2 (thrust plus
+    drag over mass, i.e. sensed) [m/s^2], mass_kg [kg], thrust_n [N], drag_n
+    [N], stage_index (lowest attached stage, 0 = bottom) [-].
+    """
+
+    t_s: np.ndarray
+    altitude_m: np.ndarray
+    downrange_m: np.ndarray
+    speed_m_s: np.ndarray
+    inertial_speed_m_s: np.ndarray
+    flight_path_angle_deg: np.ndarray
+    mach: np.ndarray
+    dynamic_pressure_pa: np.ndarray
+    acceleration_m_s2: np.ndarray
+    mass_kg: np.ndarray
+    thrust_n: np.ndarray
+    drag_n: np.ndarray
+    stage_index: np.ndarray
+
+    COLUMNS = (
+        "t_s", "altitude_m", "downrange_m", "speed_m_s", "inertial_speed_m_s",
+        "flight_path_angle_deg", "mach", "dynamic_pressure_pa", "acceleration_m_s2",
+        "mass_kg", "thrust_n", "drag_n", "stage_index",
+    )
+
+    def as_columns(self) -> dict[str, np.ndarray]:
+        """Column name (unit-suffixed) -> array, in a stable order for CSV output."""
+        return {k: getattr(self, k) for k in self.COLUMNS}
+
+
+@dataclass(frozen=True, slots=True)
+class FlightResult:
+    """Outcome of one simulated flight. Read `warnings` and `terminated_by` first.
+
+    Attributes
+    ----------
+    profile : str
+        ``"vertical"`` or ``"ascent"``.
+    terminated_by : str
+        Event that ended the simulation: ``"apogee"``, ``"impact"``,
+        ``"burnout"`` (final burnout; orbit insertion for an ascent) or
+        ``"time_limit"``.
+    apogee_m : float
+        Highest altitude above mean sea level reached [m] (vertical profile;
+        nan for an ascent).
+    time_to_apogee_s : float
+        Time of apogee [s] (nan if not reached).
+    rail_exit_speed_m_s, rail_exit_time_s : float
+        Speed and time when the vehicle leaves the rail (nan without a rail).
+    max_dynamic_pressure_pa, max_q_time_s, max_q_altitude_m : float
+        Max-q [Pa], its time [s] and altitude [m].
+    max_acceleration_m_s2 : float
+        Largest sensed acceleration (thrust plus drag over mass) [m/s^2].
+    liftoff_thrust_to_weight : float
+        First-stage thrust at the site pressure over m0 g0 [-] (mean thrust
+        of a thrust curve).
+    impact_time_s, impact_downrange_m : float
+        Return to site altitude (nan unless flown to impact).
+    orbit : OrbitElements or None
+        Osculating orbit at final burnout (ascent profile).
+    burnouts : tuple of StageBurnout
+        One per stage that burned out.
+    ideal_delta_v_m_s : float
+        Sum of stage ideal delta-v [m/s].
+    losses_m_s : Mapping[str, float]
+        Total gravity, drag, steering, pressure losses [m/s].
+    rotation_bonus_m_s : float
+        See module docstring [m/s].
+    final_inertial_speed_m_s : float
+        |V| at the last event [m/s].
+    budget_residual_m_s : float
+        ideal - (final inertial speed - initial... ) closure error [m/s];
+        sum(ideal) - (|V_final| - rotation_bonus + sum(losses)).
+    ascent_profile : AscentProfile or None
+        Steering programme actually flown (with solved kick/pitch when targeted).
+    targeting_residual : tuple of float
+        (altitude error [m], flight-path angle error [deg]) at final burnout
+        when an ascent was targeted; empty otherwise.
+    warnings : tuple of str
+        Design-review flags, each naming its rule and source.
+    history : FlightHistory
+    """
+
+    profile: str
+    terminated_by: str
+    apogee_m: float
+    time_to_apogee_s: float
+    rail_exit_speed_m_s: float
+    rail_exit_time_s: float
+    max_dynamic_pressure_pa: float
+    max_q_time_s: float
+    max_q_altitude_m: float
+    max_acceleration_m_s2: float
+    liftoff_thrust_to_weight: float
+    impact_time_s: float
+    impact_downrange_m: float
+    orbit: OrbitElements | None
+    burnouts: tuple[StageBurnout, ...]
+    ideal_delta_v_m_s: float
+    losses_m_s: Mapping[str, float]
+    rotation_bonus_m_s: float
+    final_inertial_speed_m_s: float
+    budget_residual_m_s: float
+    ascent_profile: AscentProfile | None
+    targeting_residual: tuple[float, ...]
+    warnings: tuple[str, ...]
+    history: FlightHistory = field(repr=False)
+
+    @property
+    def total_loss_m_s(self) -> float:
+        """Sum of the four loss terms [m/s]."""
+        return float(sum(self.losses_m_s.values()))
+
+
+# ---------------------------------------------------------------------------
+# phase schedule
+# ---------------------------------------------------------------------------
+@dataclass(slots=True)
+class _Phase:
+    t0: float
+    t1: float
+    stage: int  # lowest attached stage
+    burning: bool
+    f_a: float = 0.0  # F_vac = f_a + f_b (t - t0)
+    f_b: float = 0.0
+    m_a: float = 0.0  # mdot = m_a + m_b (t - t0)
+    m_b: float = 0.0
+    burnout_of: int = -1  # stage index burning out at t1
+    steer: int = _PRO
+
+
+def _stage_windows(vehicle: Vehicle, *, ignore_first_coast: bool):
+    out = []
+    t = 0.0
+    for i, st in enumerate(vehicle.stages):
+        coast = st.coast_before_ignition_s
+        if i == 0 and ignore_first_coast:
+            coast = 0.0
+        if i > 0:
+            coast += vehicle.staging_delay_s
+        t_ign = t + coast
+        t_bo = t_ign + st.burn_time_s
+        out.append((t_ign, t_bo))
+        t = t_bo
+    return out
+
+
+def _build_phases(vehicle: Vehicle, windows, extra_times) -> list[_Phase]:
+    """Split the flight into smooth phases, up to final burnout."""
+    times = {0.0}
+    for i, (t_ign, t_bo) in enumerate(windows):
+        times.add(t_ign)
+        times.add(t_bo)
+        st = vehicle.stages[i]
+        if st.thrust_curve is not None:
+            times.update(t_ign + tk for tk in st.thrust_curve[0] if 0 < tk < st.burn_time_s)
+        if st.propellant_mass_curve is not None:
+            times.update(
+                t_ign + tk for tk in st.propellant_mass_curve[0] if 0 < tk < st.burn_time_s
+            )
+    t_end = windows[-1][1]
+    times.update(t for t in extra_times if 0 < t < t_end)
+    ts = sorted(times)
+    # merge near-duplicates
+    merged = [ts[0]]
+    for t in ts[1:]:
+        if t - merged[-1] > 1e-9 * max(1.0, t):
+            merged.append(t)
+    phases = []
+    for a, b in zip(merged, merged[1:]):
+        mid = 0.5 * (a + b)
+        stage = next(i for i, (_, tb) in enumerate(windows) if mid < tb)
+        t_ign, t_bo = windows[stage]
+        st = vehicle.stages[stage]
+        ph = _Phase(a, b, stage, burning=t_ign <= mid < t_bo)
+        if ph.burning:
+            tau0, tau1 = a - t_ign, b - t_ign
+            f0, f1 = st.thrust_vac_at(tau0), st.thrust_vac_at(tau1)
+            if st.thrust_curve is None:
+                f0 = f1 = st.thrust_vac_n
+            ph.f_a = f0
+            ph.f_b = (f1 - f0) / (b - a)
+            if st.thrust_curve is None:
+                ph.m_a = st.thrust_vac_n / (st.isp_vac_s * st.g0_m_s2)
+            elif st.propellant_mass_curve is None:
+                k = st.propellant_mass_kg / st.total_impulse_vac_n_s
+                ph.m_a, ph.m_b = k * f0, k * ph.f_b
+            else:
+                tm, mm = st.propellant_mass_curve
+                m0 = float(np.interp(tau0, tm, mm))
+                m1 = float(np.interp(tau1, tm, mm))
+                ph.m_a = (m0 - m1) / (b - a)
+        if abs(b - t_bo) <= 1e-9 * max(1.0, b):
+            ph.burnout_of = stage
+        phases.append(ph)
+    return phases
+
+
+# ---------------------------------------------------------------------------
+# the simulator
+# ---------------------------------------------------------------------------
+def simulate(
+    vehicle: Vehicle,
+    site: LaunchSite,
+    *,
+    profile: str,
+    ascent: AscentProfile | None = None,
+    earth: str = "round",
+    rotating: bool = False,
+    with_drag: bool = True,
+    with_gravity: bool = True,
+    stop_at: str = "apogee",
+    max_step_s: float | None = None,
+    record_history: bool = True,
+    acceleration_limit_m_s2: float | None = None,
+) -> FlightResult:
+    """Integrate one flight; `fly_vertical` and `fly_ascent` are the public entry points.
+
+    Parameters are those of `fly_vertical` / `fly_ascent`; `profile` is
+    ``"vertical"`` or ``"ascent"``.
+    """
+    if earth not in ("round", "flat"):
+        raise FieldError("earth", "must be 'round' or 'flat'.", earth)
+    if stop_at not in ("apogee", "impact", "burnout"):
+        raise FieldError("stop_at", "must be 'apogee', 'impact' or 'burnout'.", stop_at)
+    round_ = earth == "round"
+    rot = bool(rotating) and round_
+    is_ascent = profile == "ascent"
+    stages = vehicle.stages
+    n_st = len(stages)
+    warn: list[str] = []
+
+    mu = GM_EARTH_M3_S2
+    R = R_EARTH_EQ_M
+    w = OMEGA_EARTH_RAD_S if rot else 0.0
+    g_flat = G0_M_S2
+    h0 = site.altitude_m
+    lat = math.radians(site.latitude_deg)
+    az = math.radians(site.azimuth_deg)
+
+    # frame and unit vectors at the site
+    if round_:
+        cl, sl = math.cos(lat), math.sin(lat)
+        r0 = ((R + h0) * cl, 0.0, (R + h0) * sl)
+        up0 = (cl, 0.0, sl)
+        east0 = (0.0, 1.0, 0.0)
+        north0 = (-sl, 0.0, cl)
+    else:
+        r0 = (0.0, 0.0, h0)
+        up0 = (0.0, 0.0, 1.0)
+        east0 = (1.0, 0.0, 0.0)
+        north0 = (0.0, 1.0, 0.0)
+    ca, sa = math.cos(az), math.sin(az)
+    azd = tuple(ca * n + sa * e for n, e in zip(north0, east0))
+    rail_ang = math.radians(site.rail_angle_deg) if not is_ascent else 0.0
+    rail_u = tuple(math.cos(rail_ang) * u + math.sin(rail_ang) * a for u, a in zip(up0, azd))
+    rail_len = site.rail_length_m if not is_ascent else 0.0
+
+    # liftoff checks
+    st0 = stages[0]
+    p_site = pressure_density_sound_speed(h0)[0] if with_drag or st0.exit_area_m2 > 0 else 0.0
+    p_site = pressure_density_sound_speed(h0)[0]
+    m0 = vehicle.gross_mass_kg
+    weight0 = m0 * G0_M_S2
+    if st0.thrust_curve is None:
+        f_lift = st0.thrust_at(0.0, p_site)
+        f_peak = f_lift
+    else:
+        f_lift = max(0.0, st0.total_impulse_vac_n_s / st0.burn_time_s - p_site * st0.exit_area_m2)
+        f_peak = max(st0.thrust_at(t, p_site) for t in st0.thrust_curve[0])
+    tw_lift = f_lift / weight0
+    if with_gravity and f_peak * math.cos(rail_ang) <= weight0:
+        raise FieldError(
+            f"stages.{st0.name}.thrust",
+            "liftoff thrust-to-weight must be > 1 (peak thrust at the site over m0 g0).",
+            round(f_peak / weight0, 4),
+        )
+    if profile == "vertical" and tw_lift < HOBBY_MIN_LIFTOFF_TW:
+        warn.append(
+            f"liftoff thrust-to-weight {tw_lift:.2f} is below {HOBBY_MIN_LIFTOFF_TW:g} "
+            "(Spaceport America Cup DTEG req. 5.18.2; also common hobby practice)."
+        )
+    if is_ascent and st0.coast_before_ignition_s > 0:
+        warn.append(
+            f"stages.{st0.name}.coast_before_ignition_s is ignored for an ascent "
+            "(the clock starts at first-stage ignition)."
+        )
+
+    windows = _stage_windows(vehicle, ignore_first_coast=is_ascent)
+    t_final_bo = windows[-1][1]
+    extra = []
+    steer_law = _PRO
+    t_vert = t_kick_end = None
+    steer_start = None
+    if is_ascent:
+        ascent = ascent or AscentProfile()
+        t_vert = ascent.vertical_rise_s
+        t_kick_end = t_vert + ascent.kick_duration_s
+        extra += [t_vert, t_kick_end]
+        if ascent.steering != "gravity_turn":
+            names = [s.name for s in stages]
+            k = n_st - 1 if ascent.steer_from_stage is None else None
+            if k is None:
+                if ascent.steer_from_stage not in names:
+                    raise FieldError(
+                        "profile.steer_from_stage", f"must be one of {names}.", ascent.steer_from_stage
+                    )
+                k = names.index(ascent.steer_from_stage)
+            steer_start = windows[k][0]
+            steer_law = _LTG if ascent.steering == "linear_tangent" else _PRATE
+            extra.append(steer_start)
+    phases = _build_phases(vehicle, windows, extra)
+    for ph in phases:
+        mid = 0.5 * (ph.t0 + ph.t1)
+        if is_ascent:
+            if mid < t_vert:
+                ph.steer = _UP
+            elif mid < t_kick_end:
+                ph.steer = _KICK
+            elif steer_start is not None and mid >= steer_start:
+                ph.steer = steer_law
+            else:
+                ph.steer = _PRO
+        else:
+            ph.steer = _PRO
+
+    if max_step_s is None:
+        if is_ascent:
+            max_step_s = 1.0
+        else:
+            total_burn = sum(st.burn_time_s for st in stages)
+            max_step_s = min(0.5, max(1e-3, total_burn / 100.0))
+    dt_max = float(max_step_s)
+
+    # --- closure state (phase parameters) --------------------------------
+    P_fa = P_fb = P_ma = P_mb = P_t0 = 0.0
+    P_burn = False
+    P_ae = 0.0
+    P_aref = vehicle.reference_area_m2(0)
+    P_mach: tuple = stages[0].drag.mach
+    P_cd: tuple = stages[0].drag.cd
+    P_steer = _PRO
+    on_rail = not is_ascent
+    kick_s = math.sin(math.radians(ascent.pitch_kick_deg)) if is_ascent else 0.0
+    kick_c = math.cos(math.radians(ascent.pitch_kick_deg)) if is_ascent else 1.0
+    L_tan0 = L_tanf = L_th0 = L_thf = 0.0
+    L_ts = 0.0
+    L_span = 1.0
+    if is_ascent and steer_start is not None:
+        L_thf = math.radians(ascent.final_pitch_deg)
+        L_tanf = math.tan(L_thf)
+        L_ts = steer_start
+        L_span = max(t_final_bo - steer_start, 1e-9)
+    rux, ruy, ruz = rail_u
+    w2 = w * w
+    drag_on = with_drag
+    grav_on = with_gravity
+    ctab_bisect = __import__("bisect").bisect_right
+    sqrt = math.sqrt
+    pds = pressure_density_sound_speed
+    atm_top = _ATMOSPHERE_TOP_M
+
+    def rhs(t, s, diag=False):
+        x, y, z, vx, vy, vz, m = s[0], s[1], s[2], s[3], s[4], s[5], s[6]
+        if round_:
+            r2 = x * x + y * y + z * z
+            r = sqrt(r2)
+            ir = 1.0 / r
+            upx, upy, upz = x * ir, y * ir, z * ir
+            alt = r - R
+            if grav_on:
+                gk = -mu / (r2 * r)
+                gx, gy, gz = gk * x, gk * y, gk * z
+            else:
+                gx = gy = gz = 0.0
+        else:
+            upx, upy, upz = 0.0, 0.0, 1.0
+            alt = z
+            gx = gy = 0.0
+            gz = -g_flat if grav_on else 0.0
+        if w != 0.0:
+            vrx, vry, vrz = vx + w * y, vy - w * x, vz
+        else:
+            vrx, vry, vrz = vx, vy, vz
+        vrel2 = vrx * vrx + vry * vry + vrz * vrz
+        vrel = sqrt(vrel2)
+        if alt < atm_top:
+            p_a, rho, a_s = pds(alt)
+        else:
+            p_a, rho, a_s = 0.0, 0.0, 1.0
+        if P_burn:
+            dtp = t - P_t0
+            fv = P_fa + P_fb * dtp
+            f = fv - p_a * P_ae
+            if f < 0.0:
+                f = 0.0
+            mdot = P_ma + P_mb * dtp
+        else:
+            fv = f = mdot = 0.0
+        if drag_on and rho > 0.0 and vrel > 0.0:
+            mach = vrel / a_s
+            if mach <= P_mach[0]:
+                cd = P_cd[0]
+            elif mach >= P_mach[-1]:
+                cd = P_cd[-1]
+            else:
+                i = ctab_bisect(P_mach, mach)
+                x0 = P_mach[i - 1]
+                cd = P_cd[i - 1] + (P_cd[i] - P_cd[i - 1]) * (mach - x0) / (P_mach[i] - x0)
+            dmag = 0.5 * rho * vrel2 * cd * P_aref
+        else:
+            mach = vrel / a_s if a_s > 0 else 0.0
+            dmag = 0.0
+        # thrust direction
+        st_mode = P_steer
+        if on_rail:
+            tx, ty, tz = rux, ruy, ruz
+        elif st_mode == _PRO:
+            if vrel > 1e-6:
+                tx, ty, tz = vrx / vrel, vry / vrel, vrz / vrel
+            else:
+                tx, ty, tz = rux, ruy, ruz
+        elif st_mode == _UP:
+            tx, ty, tz = upx, upy, upz
+        elif st_mode == _KICK:
+            # azimuth direction at the current position: rotate the site's
+            # azimuth vector into the local horizontal
+            ax_, ay_, az_ = azd
+            dd = ax_ * upx + ay_ * upy + az_ * upz
+            hx, hy, hz = ax_ - dd * upx, ay_ - dd * upy, az_ - dd * upz
+            hn = sqrt(hx * hx + hy * hy + hz * hz)
+            tx = kick_c * upx + kick_s * hx / hn
+            ty = kick_c * upy + kick_s * hy / hn
+            tz = kick_c * upz + kick_s * hz / hn
+        else:
+            frac = (t - L_ts) / L_span
+            if st_mode == _LTG:
+                th = math.atan(L_tan0 + (L_tanf - L_tan0) * frac)
+            else:
+                th = L_th0 + (L_thf - L_th0) * frac
+            vu = vx * upx + vy * upy + vz * upz
+            hx, hy, hz = vx - vu * upx, vy - vu * upy, vz - vu * upz
+            hn = sqrt(hx * hx + hy * hy + hz * hz)
+            if hn > 0.0:
+                hx, hy, hz = hx / hn, hy / hn, hz / hn
+            else:
+                hx, hy, hz = azd
+            c_, s_ = math.cos(th), math.sin(th)
+            tx, ty, tz = c_ * hx + s_ * upx, c_ * hy + s_ * upy, c_ * hz + s_ * upz
+        im = 1.0 / m
+        if vrel > 1e-6:
+            vhx, vhy, vhz = vrx / vrel, vry / vrel, vrz / vrel
+        else:
+            vhx, vhy, vhz = tx, ty, tz
+        fm = f * im
+        dm = dmag * im
+        ax = fm * tx - dm * vhx + gx
+        ay = fm * ty - dm * vhy + gy
+        az = fm * tz - dm * vhz + gz
+        d_grav = -(gx * vhx + gy * vhy + gz * vhz)
+        d_steer = fm * (1.0 - (tx * vhx + ty * vhy + tz * vhz))
+        if on_rail:
+            vhx, vhy, vhz = rux, ruy, ruz
+            a_al = ax * rux + ay * ruy + az * ruz
+            d_steer = 0.0
+            d_grav = -(gx * rux + gy * ruy + gz * ruz)
+            if a_al < 0.0 and (vx * rux + vy * ruy + vz * ruz) <= 0.0:
+                a_al = 0.0
+                d_grav = fm - dm
+            ax, ay, az = a_al * rux, a_al * ruy, a_al * ruz
+        d_cf = w2 * (x * vhx + y * vhy) if w != 0.0 else 0.0
+        der = [vx, vy, vz, ax, ay, az, -mdot, d_grav, dm, d_steer, (fv - f) * im, fv * im, d_cf]
+        if diag:
+            sens = sqrt((fm * tx - dm * vhx) ** 2 + (fm * ty - dm * vhy) ** 2 + (fm * tz - dm * vhz) ** 2)
+            q = 0.5 * rho * vrel2
+            fpa = math.degrees(math.asin(max(-1.0, min(1.0, (vrx * upx + vry * upy + vrz * upz) / vrel)))) if vrel > 0 else 90.0
+            return der, (alt, vrel, mach, q, sens, f, dmag, fpa)
+        return der
+
+    def rk4(t, s, h, k1=None):
+        if k1 is None:
+            k1 = rhs(t, s)
+        hh = 0.5 * h
+        k2 = rhs(t + hh, [a + hh * b for a, b in zip(s, k1)])
+        k3 = rhs(t + hh, [a + hh * b for a, b in zip(s, k2)])
+        k4 = rhs(t + h, [a + h * b for a, b in zip(s, k3)])
+        h6 = h / 6.0
+        return [a + h6 * (b + 2.0 * (c + d) + e) for a, b, c, d, e in zip(s, k1, k2, k3, k4)]
+
+    def radial_speed(s):
+        if round_:
+            x, y, z = s[0], s[1], s[2]
+            return (x * s[3] + y * s[4] + z * s[5]) / sqrt(x * x + y * y + z * z)
+        return s[5]
+
+    def altitude(s):
+        if round_:
+            return sqrt(s[0] * s[0] + s[1] * s[1] + s[2] * s[2]) - R
+        return s[2]
+
+    def rail_dist(s):
+        return (s[0] - r0[0]) * rux + (s[1] - r0[1]) * ruy + (s[2] - r0[2]) * ruz
+
+    def downrange(t, s):
+        if round_:
+            if w != 0.0:
+                c, sn = math.cos(w * t), math.sin(w * t)
+                sx, sy, sz = c * r0[0] - sn * r0[1], sn * r0[0] + c * r0[1], r0[2]
+            else:
+                sx, sy, sz = r0
+            x, y, z = s[0], s[1], s[2]
+            cx, cy, cz = y * sz - z * sy, z * sx - x * sz, x * sy - y * sx
+            ang = math.atan2(sqrt(cx * cx + cy * cy + cz * cz), x * sx + y * sy + z * sz)
+            return R * ang
+        return math.hypot(s[0] - r0[0], s[1] - r0[1])
+
+    def locate(t, s, h, fun, target=0.0):
+        """Time tau in (0, h] where fun(state) crosses `target` (Illinois)."""
+        a, b = 0.0, h
+        fa = fun(s) - target
+        sb = rk4(t, s, h)
+        fb = fun(sb) - target
+        side = 0
+        sc = sb
+        c = b
+        for _ in range(60):
+            if fb == fa:
+                break
+            c = (a * fb - b * fa) / (fb - fa)
+            sc = rk4(t, s, c)
+            fc = fun(sc) - target
+            if abs(fc) < 1e-12 * (1.0 + abs(target)) or (b - a) < 1e-10 * max(h, 1e-12):
+                break
+            if (fc > 0) == (fb > 0):
+                b, fb = c, fc
+                if side == -1:
+                    fa *= 0.5
+                side = -1
+            else:
+                a, fa = c, fc
+                if side == 1:
+                    fb *= 0.5
+                side = 1
+        return c, sc
+
+    # --- initial state ----------------------------------------------------
+    s = [r0[0], r0[1], r0[2], -w * r0[1], w * r0[0], 0.0, m0, 0.0, 0.0, 0.0, 0.0, 0.0, 0.0]
+    v_inertial0 = sqrt(s[3] ** 2 + s[4] ** 2 + s[5] ** 2)
+    t = 0.0
+    ground = h0
+
+    H = {k: [] for k in FlightHistory.COLUMNS}
+    stage_now = 0
+    maxq = (0.0, 0.0, h0)
+    max_acc = 0.0
+
+    def record(t, s):
+        nonlocal maxq, max_acc
+        _, dg = rhs(t, s, True)
+        alt, vrel, mach, q, sens, f, dmag, fpa = dg
+        if q > maxq[0]:
+            maxq = (q, t, alt)
+        if sens > max_acc:
+            max_acc = sens
+        if record_history:
+            H["t_s"].append(t)
+            H["altitude_m"].append(alt)
+            H["downrange_m"].append(downrange(t, s))
+            H["speed_m_s"].append(vrel)
+            H["inertial_speed_m_s"].append(sqrt(s[3] ** 2 + s[4] ** 2 + s[5] ** 2))
+            H["flight_path_angle_deg"].append(fpa)
+            H["mach"].append(mach)
+            H["dynamic_pressure_pa"].append(q)
+            H["acceleration_m_s2"].append(sens)
+            H["mass_kg"].append(s[6])
+            H["thrust_n"].append(f)
+            H["drag_n"].append(dmag)
+            H["stage_index"].append(stage_now)
+        return dg
+
+    def set_phase(ph):
+        nonlocal P_fa, P_fb, P_ma, P_mb, P_t0, P_burn, P_ae, P_aref, P_mach, P_cd, P_steer
+        nonlocal stage_now
+        st = stages[ph.stage]
+        stage_now = ph.stage
+        P_fa, P_fb, P_ma, P_mb, P_t0 = ph.f_a, ph.f_b, ph.m_a, ph.m_b, ph.t0
+        P_burn = ph.burning
+        P_ae = st.exit_area_m2
+        P_aref = vehicle.reference_area_m2(ph.stage)
+        P_mach, P_cd = st.drag.mach, st.drag.cd
+        P_steer = ph.steer
+
+    # --- bookkeeping -----------------------------------------------------
+    events: dict[str, tuple] = {}
+    burnouts: list[StageBurnout] = []
+    acc_prev = (0.0,) * 6
+    speed_rel_prev = 0.0
+    apogee = (h0, math.nan)
+    terminated = "time_limit"
+    lifted = False
+
+    def check_events(t, s, h, s1, skip):
+        """Return (kind, tau, state) of the first event in this step, or None.
+
+        `skip` names an event just handled at the step start (not re-detected).
+        """
+        found = []
+        if on_rail and rail_len > 0.0 and skip != "rail_exit":
+            if rail_dist(s1) >= rail_len:
+                tau, se = locate(t, s, h, rail_dist, rail_len)
+                found.append(("rail_exit", tau, se))
+        if not is_ascent:
+            vr0, vr1 = radial_speed(s), radial_speed(s1)
+            if lifted and vr0 > 0.0 >= vr1 and skip != "apogee":
+                tau, se = locate(t, s, h, radial_speed)
+                found.append(("apogee", tau, se))
+        a1 = altitude(s1)
+        if lifted and a1 < ground and altitude(s) >= ground and radial_speed(s1) < 0 and skip != "impact":
+            tau, se = locate(t, s, h, altitude, ground)
+            found.append(("impact", tau, se))
+        if not found:
+            return None
+        return min(found, key=lambda e: e[1])
+
+    def finish_stage(i, t, s):
+        nonlocal acc_prev, speed_rel_prev
+        _, dg = rhs(t, s, True)
+        acc = tuple(s[7:13])
+        d = [a - b for a, b in zip(acc, acc_prev)]
+        vrel = dg[1]
+        burnouts.append(
+            StageBurnout(
+                stage=stages[i].name,
+                time_s=t,
+                altitude_m=dg[0],
+                downrange_m=downrange(t, s),
+                speed_m_s=vrel,
+                inertial_speed_m_s=sqrt(s[3] ** 2 + s[4] ** 2 + s[5] ** 2),
+                flight_path_angle_deg=dg[7],
+                mass_kg=s[6],
+                ideal_delta_v_m_s=d[4],
+                speed_gain_m_s=vrel - speed_rel_prev,
+                losses_m_s=MappingProxyType(dict(zip(LOSS_KEYS, d[:4]))),
+                centrifugal_m_s=d[5],
+            )
+        )
+        acc_prev = acc
+        speed_rel_prev = vrel
+
+    # --- main loop ---------------------------------------------------------
+    final_coast = _Phase(t_final_bo, math.inf, n_st - 1, burning=False, steer=_PRO)
+    all_phases = list(phases)
+    if not (is_ascent or stop_at == "burnout"):
+        all_phases.append(final_coast)
+    record(t, s)
+    done = False
+    just = None
+    budget_state = None
+    for ph in all_phases:
+        if done:
+            break
+        set_phase(ph)
+        if P_steer in (_LTG, _PRATE) and abs(t - L_ts) < 1e-9:
+            # start the law from the current inertial flight-path angle
+            rr = sqrt(s[0] ** 2 + s[1] ** 2 + s[2] ** 2)
+            vv = sqrt(s[3] ** 2 + s[4] ** 2 + s[5] ** 2)
+            gam = math.asin(max(-1.0, min(1.0, (s[0] * s[3] + s[1] * s[4] + s[2] * s[5]) / (rr * vv))))
+            L_th0 = gam
+            L_tan0 = math.tan(gam)
+        t1 = ph.t1
+        t1_stop = t1 - 1e-12 * max(1.0, t1) if math.isfinite(t1) else math.inf
+        while t < t1_stop:
+            if t > _MAX_FLIGHT_TIME_S:
+                done = True
+                break
+            remaining = t1 - t
+            if math.isinf(remaining):
+                h = dt_max
+            else:
+                nsteps = max(1, math.ceil(remaining / dt_max - 1e-9))
+                h = remaining / nsteps
+            s1 = rk4(t, s, h)
+            if not lifted and (s1[3] - s[3]) ** 2 + (s1[4] - s[4]) ** 2 + (s1[5] - s[5]) ** 2 > 0:
+                lifted_now = True
+            else:
+                lifted_now = lifted
+            ev = check_events(t, s, h, s1, just) if lifted_now or on_rail else None
+            just = None
+            if ev is not None:
+                kind, tau, se = ev
+                t = t + tau
+                s = se
+                dg = record(t, s)
+                if kind == "rail_exit":
+                    events["rail_exit"] = (t, dg[1])
+                    on_rail = False
+                elif kind == "apogee":
+                    if dg[0] > apogee[0]:
+                        apogee = (dg[0], t)
+                    if stop_at == "apogee" and ph is final_coast:
+                        terminated = "apogee"
+                        done = True
+                        break
+                elif kind == "impact":
+                    events["impact"] = (t, downrange(t, s))
+                    terminated = "impact"
+                    done = True
+                    break
+                lifted = lifted or lifted_now
+                just = kind
+                continue
+            lifted = lifted_now
+            t += h
+            s = s1
+            if on_rail and rail_len == 0.0 and lifted:
+                on_rail = False
+                events["rail_exit"] = (t, math.nan)
+            record(t, s)
+            if not is_ascent and altitude(s) > apogee[0] and radial_speed(s) > 0:
+                pass
+        if done:
+            break
+        if ph.burnout_of >= 0:
+            i = ph.burnout_of
+            finish_stage(i, t, s)
+            if i == n_st - 1:
+                budget_state = list(s)
+            if i < n_st - 1:
+                s[6] = vehicle.ignition_mass_kg(i + 1)
+            else:
+                s[6] = vehicle.payload_mass_kg + stages[i].structural_mass_kg
+                if is_ascent or stop_at == "burnout":
+                    terminated = "burnout"
+                    done = True
+
+    # --- results ---------------------------------------------------------
+    if not is_ascent:
+        hist_alt = H["altitude_m"]
+        if record_history and hist_alt:
+            k = int(np.argmax(hist_alt))
+            if hist_alt[k] > apogee[0]:
+                apogee = (hist_alt[k], H["t_s"][k] if terminated != "apogee" else apogee[1])
+    # the budget is closed at final burnout (or at the last state if the
+    # flight ended earlier); coasts after final burnout are not in it
+    sb = budget_state if budget_state is not None else s
+    acc = sb[7:13]
+    v_in = sqrt(sb[3] ** 2 + sb[4] ** 2 + sb[5] ** 2)
+    if w != 0.0:
+        vrx, vry, vrz = sb[3] + w * sb[1], sb[4] - w * sb[0], sb[5]
+        v_rel = sqrt(vrx * vrx + vry * vry + vrz * vrz)
+        bonus = (v_in - v_rel) + acc[5]
+    else:
+        bonus = v_inertial0
+    losses = dict(zip(LOSS_KEYS, acc[:4]))
+    ideal = acc[4]
+    residual = ideal - (v_in - bonus + sum(losses.values()))
+
+    orbit = None
+    if is_ascent or round_:
+        r = sqrt(s[0] ** 2 + s[1] ** 2 + s[2] ** 2)
+        v_s = sqrt(s[3] ** 2 + s[4] ** 2 + s[5] ** 2)
+        if v_s > 0:
+            gam = math.asin(max(-1.0, min(1.0, (s[0] * s[3] + s[1] * s[4] + s[2] * s[5]) / (r * v_s))))
+            hx = s[1] * s[5] - s[2] * s[4]
+            hy = s[2] * s[3] - s[0] * s[5]
+            hz = s[0] * s[4] - s[1] * s[3]
+            hn = sqrt(hx * hx + hy * hy + hz * hz)
+            inc = math.degrees(math.acos(max(-1.0, min(1.0, hz / hn)))) if hn > 0 else math.nan
+            if is_ascent:
+                orbit = orbit_elements(r, v_s, gam, inclination_deg=inc)
+    if is_ascent and terminated == "impact":
+        warn.append("the vehicle fell back to the ground before final burnout.")
+
+    rail_exit_t, rail_exit_v = events.get("rail_exit", (math.nan, math.nan))
+    if profile == "vertical" and rail_len > 0:
+        if not math.isnan(rail_exit_v):
+            if rail_exit_v < HOBBY_MIN_RAIL_EXIT_SPEED_M_S:
+                warn.append(
+                    f"rail-exit speed {rail_exit_v:.1f} m/s is below {HOBBY_MIN_RAIL_EXIT_SPEED_M_S:g} m/s "
+                    "(common hobby practice, from memory) and below "
+                    f"{DTEG_MIN_RAIL_EXIT_SPEED_M_S:g} m/s (Spaceport America Cup DTEG 10.2.1)."
+                )
+            elif rail_exit_v < DTEG_MIN_RAIL_EXIT_SPEED_M_S:
+                warn.append(
+                    f"rail-exit speed {rail_exit_v:.1f} m/s is below {DTEG_MIN_RAIL_EXIT_SPEED_M_S:g} m/s "
+                    "(100 ft/s, Spaceport America Cup DTEG 10.2.1)."
+                )
+        else:
+            warn.append("the vehicle never left the rail.")
+    if acceleration_limit_m_s2 is not None and max_acc > acceleration_limit_m_s2:
+        warn.append(
+            f"max acceleration {max_acc:.1f} m/s^2 ({max_acc / G0_M_S2:.1f} g0) exceeds the stated "
+            f"limit {acceleration_limit_m_s2:.1f} m/s^2."
+        )
+
+    hist = FlightHistory(
+        **{
+            k: np.asarray(v, dtype=(np.int64 if k == "stage_index" else float))
+            for k, v in H.items()
+        }
+    )
+    impact_t, impact_x = events.get("impact", (math.nan, math.nan))
+    return FlightResult(
+        profile=profile,
+        terminated_by=terminated,
+        apogee_m=apogee[0] if not is_ascent else math.nan,
+        time_to_apogee_s=apogee[1] if not is_ascent else math.nan,
+        rail_exit_speed_m_s=rail_exit_v,
+        rail_exit_time_s=rail_exit_t,
+        max_dynamic_pressure_pa=maxq[0],
+        max_q_time_s=maxq[1],
+        max_q_altitude_m=maxq[2],
+        max_acceleration_m_s2=max_acc,
+        liftoff_thrust_to_weight=tw_lift,
+        impact_time_s=impact_t,
+        impact_downrange_m=impact_x,
+        orbit=orbit,
+        burnouts=tuple(burnouts),
+        ideal_delta_v_m_s=ideal,
+        losses_m_s=MappingProxyType(losses),
+        rotation_bonus_m_s=bonus,
+        final_inertial_speed_m_s=v_in,
+        budget_residual_m_s=residual,
+        ascent_profile=ascent if is_ascent else None,
+        targeting_residual=(),
+        warnings=tuple(warn),
+        history=hist,
+    )
+
+
+def fly_vertical(
+    vehicle: Vehicle,
+    site: LaunchSite,
+    *,
+    earth: str = "flat",
+    with_drag: bool = True,
+    with_gravity: bool = True,
+    stop_at: str = "apogee",
+    max_step_s: float | None = None,
+    record_history: bool = True,
+    acceleration_limit_m_s2: float | None = None,
+) -> FlightResult:
+    """Near-vertical flight from a launch rail (sounding and hobby rockets).
+
+    The vehicle slides along the rail (length `site.rail_length_m`, tilted
+    `site.rail_angle_deg` from the vertical towards `site.azimuth_deg`),
+    held until thrust exceeds the weight component along the rail; after rail
+    exit the thrust follows the velocity (zero lift, no wind). Earth does not
+    rotate. Flat Earth: constant gravity g0 = 9.80665 m/s^2, altitude along
+    the local vertical. Round Earth: inverse-square gravity.
+
+    Parameters
+    ----------
+    vehicle : Vehicle
+    site : LaunchSite
+    earth : {"flat", "round"}
+    with_drag, with_gravity : bool
+        Switch drag or gravity off (analytic checks).
+    stop_at : {"apogee", "impact", "burnout"}
+        Event that ends the simulation after the last burnout.
+    max_step_s : float, optional
+        Largest RK4 step [s]; default min(0.5, total burn time / 100).
+    record_history : bool
+        Keep the time history (off saves time in optimisation loops).
+    acceleration_limit_m_s2 : float, optional
+        Add a warning when the sensed acceleration exceeds it.
+
+    Returns
+    -------
+    FlightResult
+        With rail-exit speed, per-stage burnouts, apogee and time to apogee
+        (above mean sea level), max-q, max acceleration and the loss budget.
+        `warnings` flags liftoff thrust-to-weight under 5 (Spaceport America
+        Cup DTEG req. 5.18.2) and rail-exit speed under 30.48 m/s (DTEG 10.2.1)
+        or 15 m/s (common practice).
+
+    Raises
+    ------
+    FieldError
+        If the first stage cannot lift the vehicle (peak thrust <= weight).
+
+    References
+    ----------
+    .. [1] G. P. Sutton, O. Biblarz, Rocket Propulsion Elements, 9th ed., 2017, Ch. 4.
+    """
+    return simulate(
+        vehicle, site, profile="vertical", earth=earth, rotating=False,
+        with_drag=with_drag, with_gravity=with_gravity, stop_at=stop_at,
+        max_step_s=max_step_s, record_history=record_history,
+        acceleration_limit_m_s2=acceleration_limit_m_s2,
+    )
+
+
+def fly_ascent(
+    vehicle: Vehicle,
+    site: LaunchSite,
+    profile: AscentProfile | None = None,
+    *,
+    rotating: bool = True,
+    with_drag: bool = True,
+    max_step_s: float | None = None,
+    record_history: bool = True,
+    acceleration_limit_m_s2: float | None = None,
+    max_targeting_evaluations: int = 60,
+) -> FlightResult:
+    """Gravity-turn ascent to orbit over a round, rotating Earth (3-D, inverse-square gravity).
+
+    Vertical rise, pitch kick towards `site.azimuth_deg`, zero-lift gravity
+    turn (thrust along the Earth-relative velocity), then optionally an
+    upper-stage steering law (`AscentProfile.steering`). The flight ends at
+    final burnout; `FlightResult.orbit` holds the osculating orbit there.
+
+    When `profile.target_altitude_m` is set, the pitch kick (and the final
+    pitch of the steering law) are solved with scipy.optimize.least_squares so
+    that final burnout happens at that altitude with zero inertial flight-path
+    angle; the orbit is then circular if the burnout speed equals the circular
+    speed, else perigee (speed too high) or apogee (too low) sits at the target.
+    `targeting_residual` reports what is left of (altitude [m], angle [deg]).
+
+    Raises
+    ------
+    FieldError
+        If the first stage cannot lift the vehicle.
+
+    References
+    ----------
+    .. [1] H. D. Curtis, Orbital Mechanics for Engineering Students, 3rd ed., 2014,
+       Sec. 11.2-11.3 (gravity turn, launch losses).
+    .. [2] A. E. Bryson, Y.-C. Ho, Applied Optimal Control, 1975, Sec. 2.7
+       (linear tangent law; from memory).
+    """
+    profile = profile or AscentProfile()
+
+    def run(p, hist):
+        return simulate(
+            vehicle, site, profile="ascent", ascent=p, earth="round", rotating=rotating,
+            with_drag=with_drag, stop_at="burnout", max_step_s=max_step_s,
+            record_history=hist, acceleration_limit_m_s2=acceleration_limit_m_s2,
+        )
+
+    if profile.target_altitude_m is None:
+        return run(profile, record_history)
+    res, p_best, resid = _target_ascent(run, profile, max_targeting_evaluations)
+    if record_history:
+        res = run(p_best, True)
+    return replace(res, targeting_residual=resid)
+
+
+def _burnout_residual(res: FlightResult, target_alt_m: float) -> tuple[float, float]:
+    o = res.orbit
+    if o is None or res.terminated_by != "burnout":
+        # crashed: a large, still-continuous penalty
+        last_alt = float(res.history.altitude_m[-1]) if len(res.history.t_s) else 0.0
+        return (last_alt - target_alt_m - 1e5, -90.0)
+    return (o.altitude_m - target_alt_m, o.flight_path_angle_deg)
+
+
+def _target_ascent(run, profile: AscentProfile, max_eval: int):
+    """Solve pitch kick (and final pitch) for burnout at the target altitude, gamma = 0."""
+    from scipy.optimize import least_squares
+
+    target = float(profile.target_altitude_m)
+    steer = profile.steering != "gravity_turn"
+    scale_alt = 1.0e4  # 10 km of altitude error ~ 1 deg of flight-path angle
+    cache: dict[tuple, tuple] = {}
+
+    def evaluate(x):
+        key = tuple(float(v) for v in x)
+        if key in cache:
+            return cache[key]
+        kick = min(max(key[0], 0.0), 60.0)
+        p = replace(profile, pitch_kick_deg=kick,
+                    final_pitch_deg=min(max(key[1], -60.0), 60.0) if steer else profile.final_pitch_deg)
+        res = run(p, False)
+        ra, rg = _burnout_residual(res, target)
+        out = (np.array([ra / scale_alt, rg]), res, p)
+        cache[key] = out
+        return out
+
+    # coarse scan of the kick for a starting point
+    best = None
+    kicks = (0.5, 1.0, 2.0, 4.0, 8.0)
+    fp0 = profile.final_pitch_deg if steer else 0.0
+    for k in kicks:
+        r, res, p = evaluate((k, fp0) if steer else (k,))
+        if steer:
+            val = abs(r[0]) if res.terminated_by == "burnout" else 1e9 + abs(r[0])
+        else:
+            val = float(np.sum(r * r))
+        if best is None or val < best[0]:
+            best = (val, k)
+    x0 = np.array([best[1], fp0]) if steer else np.array([best[1]])
+    lb = np.array([0.0, -60.0]) if steer else np.array([0.0])
+    ub = np.array([60.0, 60.0]) if steer else np.array([60.0])
+    sol = least_squares(
+        lambda x: evaluate(x)[0], x0, bounds=(lb, ub), x_scale=np.array([1.0, 5.0])[: x0.size],
+        diff_step=1e-6, xtol=1e-10, ftol=1e-12, gtol=1e-12, max_nfev=max_eval,
+    )
+    r, res, p = evaluate(sol.x)
+    # pick the best evaluated point (least_squares returns it, but be safe)
+    best_key = min(cache, key=lambda k: float(np.sum(cache[k][0] ** 2)))
+    r, res, p = cache[best_key]
+    return res, p, (float(r[0] * scale_alt), float(r[1]))
