@@ -665,6 +665,7 @@ class WaterOptimum:
 
 
 _VARY = ("fill", "pressure", "nozzle")
+_PENALTY_M = 1.0e6
 
 
 def _default_flight(vehicle: Vehicle, site: LaunchSite) -> float:
@@ -833,7 +834,10 @@ def optimise_water_stage(
     lo = np.array([b[0] for b in bounds])
 
     def objective(z):
-        return -apogee_of(lo + z * scale) / 1.0
+        val = apogee_of(lo + z * scale)
+        # a design that cannot be flown (e.g. thrust below weight) gets a finite penalty:
+        # Powell's line searches misbehave on infinite values
+        return -val if math.isfinite(val) else _PENALTY_M
 
     z0 = (best_x - lo) / scale
     res = optimize.minimize(
