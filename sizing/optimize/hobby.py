@@ -252,8 +252,8 @@ def apogee_energy_bound(delta_v_ideal_m_s: float, *, launch_radius_m: float = R_
 
     Examples
     --------
-    >>> round(apogee_energy_bound(100.0), 1)  # ~ dv^2/(2 g) = 509.7 m
-    509.9
+    >>> round(apogee_energy_bound(100.0), 1)  # dv^2/(2 GM/R^2) = 510.3 m; with g0: 509.9 m
+    510.3
     """
     e = GM_EARTH_M3_S2 / launch_radius_m - 0.5 * delta_v_ideal_m_s**2
     if e <= 0:
