@@ -129,8 +129,10 @@ class AscentProfile:
     steer_from_stage : str, optional
         Name of the first steered stage; default the top stage.
     final_pitch_deg : float
-        Pitch above the local horizontal at final burnout [deg]. The law starts
-        from the inertial flight-path angle at steering start (no jump).
+        Pitch above the local horizontal at final burnout [deg].
+    initial_pitch_deg : float, optional
+        Pitch above the local horizontal at steering start [deg]; default the
+        inertial flight-path angle there (no jump in thrust direction).
     target_altitude_m : float, optional
         If given, `fly_ascent` solves pitch_kick_deg (and final_pitch_deg when
         steering) so that final burnout happens at this altitude with zero
@@ -143,6 +145,7 @@ class AscentProfile:
     steering: str = "linear_tangent"
     steer_from_stage: str | None = None
     final_pitch_deg: float = 0.0
+    initial_pitch_deg: float | None = None
     target_altitude_m: float | None = None
 
     def __post_init__(self) -> None:
@@ -158,6 +161,8 @@ class AscentProfile:
             raise FieldError("profile.kick_duration_s", "must be > 0.", self.kick_duration_s)
         if not 0 <= self.pitch_kick_deg < 90:
             raise FieldError("profile.pitch_kick_deg", "must be in [0, 90).", self.pitch_kick_deg)
+        if self.initial_pitch_deg is not None and not -89 < self.initial_pitch_deg < 89:
+            raise FieldError("profile.initial_pitch_deg", "must be in (-89, 89).", self.initial_pitch_deg)
         if not -89 < self.final_pitch_deg < 89:
             raise FieldError("profile.final_pitch_deg", "must be in (-89, 89).", self.final_pitch_deg)
 
@@ -883,6 +888,8 @@ def simulate(
             rr = sqrt(s[0] ** 2 + s[1] ** 2 + s[2] ** 2)
             vv = sqrt(s[3] ** 2 + s[4] ** 2 + s[5] ** 2)
             gam = math.asin(max(-1.0, min(1.0, (s[0] * s[3] + s[1] * s[4] + s[2] * s[5]) / (rr * vv))))
+            if ascent.initial_pitch_deg is not None:
+                gam = math.radians(ascent.initial_pitch_deg)
             L_th0 = gam
             L_tan0 = math.tan(gam)
         t1 = ph.t1
@@ -1120,6 +1127,7 @@ def fly_ascent(
     record_history: bool = True,
     acceleration_limit_m_s2: float | None = None,
     max_targeting_evaluations: int = 60,
+    optimize_kick: bool = True,
 ) -> FlightResult:
     """Gravity-turn ascent to orbit over a round, rotating Earth (3-D, inverse-square gravity).
 
@@ -1134,6 +1142,9 @@ def fly_ascent(
     angle; the orbit is then circular if the burnout speed equals the circular
     speed, else perigee (speed too high) or apogee (too low) sits at the target.
     `targeting_residual` reports what is left of (altitude [m], angle [deg]).
+    For steered profiles the kick is also chosen for the highest burnout speed
+    unless `optimize_kick` is False (then the given kick is kept and
+    `initial_pitch_deg`/`final_pitch_deg` serve as the starting guess).
 
     Raises
     ------
@@ -1158,7 +1169,7 @@ def fly_ascent(
 
     if profile.target_altitude_m is None:
         return run(profile, record_history)
-    res, p_best, resid = _target_ascent(run, profile, max_targeting_evaluations)
+    res, p_best, resid = _target_ascent(run, profile, max_targeting_evaluations, optimize_kick)
     if record_history:
         res = run(p_best, True)
     return replace(res, targeting_residual=resid)
@@ -1173,49 +1184,110 @@ def _burnout_residual(res: FlightResult, target_alt_m: float) -> tuple[float, fl
     return (o.altitude_m - target_alt_m, o.flight_path_angle_deg)
 
 
-def _target_ascent(run, profile: AscentProfile, max_eval: int):
-    """Solve pitch kick (and final pitch) for burnout at the target altitude, gamma = 0."""
-    from scipy.optimize import least_squares
+def _target_ascent(run, profile: AscentProfile, max_eval: int, optimize_kick: bool = True):
+    """Solve the steering programme for burnout at the target altitude with gamma = 0.
+
+    Steered profiles: for a given pitch kick, the steering law's initial and
+    final pitch are solved with scipy.optimize.least_squares for the two
+    end conditions (altitude, zero inertial flight-path angle). The kick is
+    then chosen to maximise the inertial burnout speed: a coarse scan, then
+    a bounded Brent search (scipy.optimize.minimize_scalar) between the
+    neighbours of the best scanned kick. Gravity-turn-only profiles have one
+    free parameter (the kick), fitted in the least-squares sense.
+    `max_eval` bounds the trajectories of each inner solve. With
+    `optimize_kick` False the given kick is kept when the inner solve succeeds.
+    """
+    from scipy.optimize import least_squares, minimize_scalar
 
     target = float(profile.target_altitude_m)
     steer = profile.steering != "gravity_turn"
     scale_alt = 1.0e4  # 10 km of altitude error ~ 1 deg of flight-path angle
-    cache: dict[tuple, tuple] = {}
 
-    def evaluate(x):
-        key = tuple(float(v) for v in x)
-        if key in cache:
-            return cache[key]
-        kick = min(max(key[0], 0.0), 60.0)
-        p = replace(profile, pitch_kick_deg=kick,
-                    final_pitch_deg=min(max(key[1], -60.0), 60.0) if steer else profile.final_pitch_deg)
+    def evaluate(p):
         res = run(p, False)
         ra, rg = _burnout_residual(res, target)
-        out = (np.array([ra / scale_alt, rg]), res, p)
-        cache[key] = out
+        return np.array([ra / scale_alt, rg]), res
+
+    if not steer:
+        cache = {}
+
+        def f1(x):
+            k = float(x[0])
+            if k not in cache:
+                cache[k] = evaluate(replace(profile, pitch_kick_deg=min(max(k, 0.0), 60.0)))
+            return cache[k][0]
+
+        best = min((0.5, 1.0, 2.0, 4.0, 8.0), key=lambda k: float(np.sum(f1([k]) ** 2)))
+        sol = least_squares(f1, [best], bounds=([0.0], [60.0]), diff_step=1e-6, max_nfev=max_eval)
+        k = min(cache, key=lambda kk: float(np.sum(cache[kk][0] ** 2)))
+        r, res = cache[k]
+        return res, replace(profile, pitch_kick_deg=k), (float(r[0] * scale_alt), float(r[1]))
+
+    solved: dict[float, tuple] = {}
+
+    def inner(kick: float):
+        """(speed or None, residual, result, profile) for a fixed kick."""
+        kick = float(kick)
+        if kick in solved:
+            return solved[kick]
+        base = replace(profile, pitch_kick_deg=kick)
+        # warm start from the nearest solved kick, else from a history run
+        near = [v for v in solved.values() if v[0] is not None]
+        if not solved and profile.initial_pitch_deg is not None:
+            x0 = np.array([profile.initial_pitch_deg, profile.final_pitch_deg])
+        elif near:
+            pk = min(near, key=lambda v: abs(v[3].pitch_kick_deg - kick))[3]
+            x0 = np.array([pk.initial_pitch_deg, pk.final_pitch_deg])
+        else:
+            h = run(replace(base, initial_pitch_deg=None), True).history
+            idx = np.flatnonzero(h.stage_index == h.stage_index[-1])
+            th0 = float(h.flight_path_angle_deg[idx[0]]) if idx.size else 20.0
+            x0 = np.array([min(max(th0, -50.0), 80.0), 0.0])
+        cache = {}
+
+        def fun(x):
+            key = (float(x[0]), float(x[1]))
+            if key not in cache:
+                p = replace(base, initial_pitch_deg=key[0], final_pitch_deg=key[1])
+                cache[key] = evaluate(p) + (p,)
+            return cache[key][0]
+
+        least_squares(fun, x0, bounds=([-60.0, -60.0], [85.0, 60.0]), diff_step=1e-6,
+                      x_scale=[5.0, 5.0], xtol=1e-9, ftol=1e-10, gtol=1e-10, max_nfev=max_eval)
+        key = min(cache, key=lambda kk: float(np.sum(cache[kk][0] ** 2)))
+        r, res, p = cache[key]
+        ok = res.terminated_by == "burnout" and abs(r[0]) * scale_alt < 1.0 and abs(r[1]) < 1e-3
+        out = (res.final_inertial_speed_m_s if ok else None, r, res, p)
+        solved[kick] = out
         return out
 
-    # coarse scan of the kick for a starting point
-    best = None
-    kicks = (0.5, 1.0, 2.0, 4.0, 8.0)
-    fp0 = profile.final_pitch_deg if steer else 0.0
-    for k in kicks:
-        r, res, p = evaluate((k, fp0) if steer else (k,))
-        if steer:
-            val = abs(r[0]) if res.terminated_by == "burnout" else 1e9 + abs(r[0])
-        else:
-            val = float(np.sum(r * r))
-        if best is None or val < best[0]:
-            best = (val, k)
-    x0 = np.array([best[1], fp0]) if steer else np.array([best[1]])
-    lb = np.array([0.0, -60.0]) if steer else np.array([0.0])
-    ub = np.array([60.0, 60.0]) if steer else np.array([60.0])
-    sol = least_squares(
-        lambda x: evaluate(x)[0], x0, bounds=(lb, ub), x_scale=np.array([1.0, 5.0])[: x0.size],
-        diff_step=1e-6, xtol=1e-10, ftol=1e-12, gtol=1e-12, max_nfev=max_eval,
-    )
-    r, res, p = evaluate(sol.x)
-    # pick the best evaluated point (least_squares returns it, but be safe)
-    best_key = min(cache, key=lambda k: float(np.sum(cache[k][0] ** 2)))
-    r, res, p = cache[best_key]
+    k0 = profile.pitch_kick_deg if profile.pitch_kick_deg > 0 else 1.0
+    if not optimize_kick:
+        out = inner(k0)
+        if out[0] is not None:
+            return out[2], out[3], (float(out[1][0] * scale_alt), float(out[1][1]))
+    scan = [0.5 * k0, k0, 2.0 * k0]
+    for k in scan:
+        inner(k)
+    if all(solved[k][0] is None for k in scan):
+        scan = sorted(set(scan) | {0.25, 0.5, 1.0, 2.0, 4.0, 8.0, 16.0})
+        for k in scan:
+            inner(k)
+    good = [k for k in scan if solved[k][0] is not None]
+    if good:
+        kb = max(good, key=lambda k: solved[k][0])
+        j = scan.index(kb)
+        lo = scan[j - 1] if j > 0 else 0.5 * kb
+        hi = scan[j + 1] if j + 1 < len(scan) else min(2.0 * kb, 45.0)
+
+        def negspeed(k):
+            v = inner(k)[0]
+            return -v if v is not None else 0.0
+
+        minimize_scalar(negspeed, bounds=(lo, hi), method="bounded",
+                        options={"xatol": 2e-3 * kb, "maxiter": 8})
+        kbest = max((k for k, v in solved.items() if v[0] is not None), key=lambda k: solved[k][0])
+    else:
+        kbest = min(solved, key=lambda k: float(np.sum(solved[k][1] ** 2)))
+    _, r, res, p = solved[kbest]
     return res, p, (float(r[0] * scale_alt), float(r[1]))
