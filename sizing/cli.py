@@ -108,9 +108,13 @@ def _cmd_check(args) -> int:
 
 def _cmd_solve(args) -> int:
     from .optimize.api import solve
-    from .problem.load import load_problem
+    from .problem.load import load_problem, read_toml
     from .report.export import result_json, write_stage_table
 
+    if "hobby" in read_toml(args.file):  # motor / water stacks have their own file layout
+        from .cli_hobby import run_hobby
+
+        return run_hobby(args)
     problem = load_problem(args.file)
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always")
