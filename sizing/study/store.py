@@ -30,7 +30,7 @@ _SCHEMA = """
 CREATE TABLE IF NOT EXISTS meta (key TEXT PRIMARY KEY, value TEXT NOT NULL);
 CREATE TABLE IF NOT EXISTS cases (
     case_id INTEGER PRIMARY KEY,
-    case_key TEXT NOT NULL UNIQUE,
+    case_key TEXT NOT NULL,
     status TEXT NOT NULL,
     message TEXT NOT NULL,
     inputs TEXT NOT NULL,
@@ -109,6 +109,7 @@ class StudyStore:
         self._con = sqlite3.connect(self.path, isolation_level=None, timeout=30.0)
         self._con.execute("PRAGMA journal_mode=WAL")
         self._con.execute("PRAGMA synchronous=NORMAL")
+        self._con.execute("PRAGMA wal_autocheckpoint=8000")  # fewer checkpoints mid-study
         self._con.executescript(_SCHEMA)
         if fingerprint is None:
             return
