@@ -1,6 +1,7 @@
 """Command line: parse arguments, call the API, print. No numerics here.
 
-Exit codes: 0 ok, 1 a well-formed problem that could not be solved, 2 bad input.
+Exit codes: 0 ok, 1 a well-formed problem that could not be solved, 2 bad input,
+3 an internal error (a defect: reported in one line; SIZING_DEBUG=1 shows the traceback).
 Errors go to stderr as one line each, never as a traceback.
 """
 
@@ -8,16 +9,18 @@ from __future__ import annotations
 
 import argparse
 import importlib
+import os
 import sys
 import warnings
 from pathlib import Path
 from typing import Sequence
 
-__all__ = ["main", "EXIT_OK", "EXIT_FAILED", "EXIT_BAD_INPUT"]
+__all__ = ["main", "EXIT_OK", "EXIT_FAILED", "EXIT_BAD_INPUT", "EXIT_INTERNAL"]
 
 EXIT_OK = 0
 EXIT_FAILED = 1
 EXIT_BAD_INPUT = 2
+EXIT_INTERNAL = 3
 
 #: Modules that add sub-commands through `register(subparsers)`, imported lazily.
 _PLUGINS = ("sizing.cli_flight", "sizing.cli_study", "sizing.cli_hobby")
@@ -189,6 +192,12 @@ def main(argv: Sequence[str] | None = None) -> int:
     except KeyboardInterrupt:
         error_line("interrupted.")
         return 130
+    except Exception as exc:  # a defect of ours: say so in one line, keep the exit code distinct
+        error_line(f"internal error ({type(exc).__name__}: {exc}); please report it with the input file. "
+                   "Set SIZING_DEBUG=1 for the traceback.")
+        if os.environ.get("SIZING_DEBUG"):
+            raise
+        return EXIT_INTERNAL
 
 
 if __name__ == "__main__":  # pragma: no cover

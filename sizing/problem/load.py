@@ -225,8 +225,17 @@ def problem_from_dict(data: Mapping[str, Any], *, source: str = "<dict>") -> Pro
     if len(targets) > 1:
         col.fault(f"mission: give one target of delta_v, apogee, orbit_altitude. Got {', '.join(targets)}.")
     has_target = bool(targets)
+    # a design under review (every stage gives its masses) has a known gross mass
+    design_gross = None
+    if (m.gross_mass is None and m.payload_mass is not None and not has_target
+            and all(st.propellant_mass is not None and st.structural_mass is not None for st in pf.stage)):
+        try:
+            design_gross = to_si(m.payload_mass, "mass") + sum(
+                to_si(st.propellant_mass, "mass") + to_si(st.structural_mass, "mass") for st in pf.stage)
+        except ValueError:
+            design_gross = None  # the per-field checks below report it
     given = {"payload_mass": m.payload_mass is not None, "delta_v": has_target,
-             "gross_mass": m.gross_mass is not None}
+             "gross_mass": m.gross_mass is not None or design_gross is not None}
     solve_for: SolveFor | None = None
     if m.solve_for is not None:
         solve_for = SolveFor(m.solve_for)
@@ -247,6 +256,8 @@ def problem_from_dict(data: Mapping[str, Any], *, source: str = "<dict>") -> Pro
     if (apogee is not None or orbit is not None) and solve_for not in (None, SolveFor.GROSS_MASS):
         col.fault("mission: apogee and orbit_altitude targets solve for gross_mass (give payload_mass). "
                   f"Got solve_for = {str(solve_for)!r}.")
+    if gross is None and design_gross is not None:
+        gross = design_gross
     if payload is not None and gross is not None and gross <= payload:
         col.fault(f"mission.gross_mass: must be larger than payload_mass ({payload:g} kg). Got {m.gross_mass!r}.")
 

@@ -1,0 +1,110 @@
+"""`sizing fly`: simulate a design whose stage masses are given (a design under review)."""
+
+from __future__ import annotations
+
+import json
+import math
+import sys
+from pathlib import Path
+
+__all__ = ["register", "run_fly", "write_trajectory_csv"]
+
+
+def register(sub) -> None:
+    p = sub.add_parser("fly", help="simulate a design whose stage masses are given")
+    p.add_argument("file", type=Path, help="problem file with propellant_mass and structural_mass per stage")
+    p.add_argument("--json", action="store_true", help="print one JSON object to stdout")
+    p.add_argument("--out", type=Path, help="write the time history (.csv)")
+    p.set_defaults(func=run_fly)
+
+
+def write_trajectory_csv(history, path: Path) -> Path:
+    """Write the flight's time history; every column name carries its unit."""
+    import csv
+
+    cols = history.as_columns()
+    names = list(cols)
+    n = len(cols[names[0]]) if names else 0
+    with Path(path).open("w", newline="", encoding="utf-8") as fh:
+        w = csv.writer(fh)
+        w.writerow(names)
+        for k in range(n):
+            w.writerow([_cell(cols[c][k]) for c in names])
+    return Path(path)
+
+
+def _cell(v):
+    try:
+        f = float(v)
+    except (TypeError, ValueError):
+        return v
+    if f.is_integer() and abs(f) < 1e15:
+        return int(f)
+    return f"{f:.9g}"
+
+
+def run_fly(args) -> int:
+    from rich.markup import escape
+    from rich.table import Table
+
+    from .cli import EXIT_BAD_INPUT, EXIT_OK, _console, error_line
+    from .optimize.flight_problem import flight_summary, fly_problem
+    from .problem.load import load_problem
+    from .result import CAUTION
+
+    if args.out is not None and Path(args.out).suffix.lower() != ".csv":
+        error_line(f"--out {args.out}: the time history is written as .csv. Got {Path(args.out).suffix or 'none'!r}.")
+        return EXIT_BAD_INPUT
+    problem = load_problem(args.file)
+    vehicle, fr = fly_problem(problem)
+    summary = flight_summary(fr, problem.launch.altitude_m)
+    summary["problem"] = problem.name
+    summary["gross_mass_kg"] = vehicle.gross_mass_kg
+    summary["payload_mass_kg"] = vehicle.payload_mass_kg
+    summary["warnings"] = list(fr.warnings)
+    summary["caution"] = CAUTION
+    if args.json:
+        print(json.dumps(_finite(summary), indent=2))
+    else:
+        con = _console()
+        con.print(f"[bold]flight[/] {escape(problem.name)}: {fr.profile} profile, ended at {fr.terminated_by}, "
+                  f"gross mass {vehicle.gross_mass_kg:,.6g} kg")
+        t = Table(title="Burnout states (bottom stage first)", title_justify="left")
+        for h in ("stage", "t [s]", "alt. [m]", "v [m/s]", "path [deg]", "m [kg]",
+                  "ideal [m/s]", "loss [m/s]"):
+            t.add_column(escape(h), justify="left" if h == "stage" else "right", no_wrap=True)
+        for b in summary["burnouts"]:
+            t.add_row(escape(b["stage"]), f"{b['time_s']:.1f}", f"{b['altitude_m']:,.0f}", f"{b['speed_m_s']:,.1f}",
+                      f"{b['flight_path_angle_deg']:.1f}", f"{b['mass_kg']:,.4g}", f"{b['ideal_delta_v_m_s']:,.1f}",
+                      f"{sum(b['losses_m_s'].values()):,.1f}")
+        con.print(t)
+        from .report.tables import FLIGHT_QUANTITIES
+
+        t = Table(title="Flight", title_justify="left")
+        t.add_column("quantity")
+        t.add_column("value", justify="right")
+        t.add_column("unit")
+        for key, label, unit, spec in FLIGHT_QUANTITIES:
+            v = summary.get(key)
+            if isinstance(v, (int, float)) and math.isfinite(v):
+                t.add_row(label, format(v, spec), escape(unit))
+        for k, v in summary["delta_v_budget_m_s"].items():
+            t.add_row(f"budget: {k}", f"{v:,.1f}", "m/s")
+        con.print(t)
+        for w in fr.warnings:
+            con.print(f"[yellow]review note:[/] {escape(w)}")
+        con.print(f"[dim]{escape(CAUTION)}[/]")
+    if args.out is not None:
+        path = write_trajectory_csv(fr.history, args.out)
+        print(f"wrote {path}", file=sys.stderr if args.json else sys.stdout)
+    return EXIT_OK
+
+
+def _finite(obj):
+    if isinstance(obj, float):
+        return obj if math.isfinite(obj) else None
+    if isinstance(obj, dict):
+        return {k: _finite(v) for k, v in obj.items()}
+    if isinstance(obj, list):
+        return [_finite(v) for v in obj]
+    return obj
