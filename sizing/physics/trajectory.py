@@ -127,7 +127,8 @@ class AscentProfile:
         from memory), ``"pitch_rate"`` (pitch varies linearly in time) or
         ``"gravity_turn"`` (no steering: zero-lift all the way).
     steer_from_stage : str, optional
-        Name of the first steered stage; default the top stage.
+        Name of the first steered stage; default the second stage (the only
+        stage of a single-stage vehicle, after the kick).
     final_pitch_deg : float
         Pitch above the local horizontal at final burnout [deg].
     initial_pitch_deg : float, optional
@@ -436,11 +437,15 @@ def simulate(
     max_step_s: float | None = None,
     record_history: bool = True,
     acceleration_limit_m_s2: float | None = None,
+    detect_impact: bool = True,
 ) -> FlightResult:
     """Integrate one flight; `fly_vertical` and `fly_ascent` are the public entry points.
 
     Parameters are those of `fly_vertical` / `fly_ascent`; `profile` is
-    ``"vertical"`` or ``"ascent"``.
+    ``"vertical"`` or ``"ascent"``. With `detect_impact` False an ascent that
+    falls below the ground flies on to final burnout (through a vacuum below
+    ground), which keeps the end state continuous in the steering parameters
+    for the targeting solver; the result then carries a warning.
     """
     if earth not in ("round", "flat"):
         raise FieldError("earth", "must be 'round' or 'flat'.", earth)
@@ -522,7 +527,7 @@ def simulate(
         extra += [t_vert, t_kick_end]
         if ascent.steering != "gravity_turn":
             names = [s.name for s in stages]
-            k = n_st - 1 if ascent.steer_from_stage is None else None
+            k = min(1, n_st - 1) if ascent.steer_from_stage is None else None
             if k is None:
                 if ascent.steer_from_stage not in names:
                     raise FieldError(
@@ -608,7 +613,10 @@ def simulate(
         vrel2 = vrx * vrx + vry * vry + vrz * vrz
         vrel = sqrt(vrel2)
         if alt < atm_top:
-            p_a, rho, a_s = pds(alt)
+            if alt > 0.0 or detect_impact:
+                p_a, rho, a_s = pds(alt)
+            else:
+                p_a, rho, a_s = 0.0, 0.0, 1.0
         else:
             p_a, rho, a_s = 0.0, 0.0, 1.0
         if P_burn:
@@ -776,11 +784,14 @@ def simulate(
     stage_now = 0
     maxq = (0.0, 0.0, h0)
     max_acc = 0.0
+    went_below = False
 
     def record(t, s):
-        nonlocal maxq, max_acc
+        nonlocal maxq, max_acc, went_below
         _, dg = rhs(t, s, True)
         alt, vrel, mach, q, sens, f, dmag, fpa = dg
+        if alt < ground - 1.0:
+            went_below = True
         if q > maxq[0]:
             maxq = (q, t, alt)
         if sens > max_acc:
@@ -838,7 +849,8 @@ def simulate(
                 tau, se = locate(t, s, h, radial_speed)
                 found.append(("apogee", tau, se))
         a1 = altitude(s1)
-        if lifted and a1 < ground and altitude(s) >= ground and radial_speed(s1) < 0 and skip != "impact":
+        if (detect_impact and lifted and a1 < ground and altitude(s) >= ground
+                and radial_speed(s1) < 0 and skip != "impact"):
             tau, se = locate(t, s, h, altitude, ground)
             found.append(("impact", tau, se))
         if not found:
@@ -993,6 +1005,8 @@ def simulate(
             inc = math.degrees(math.acos(max(-1.0, min(1.0, hz / hn)))) if hn > 0 else math.nan
             if is_ascent:
                 orbit = orbit_elements(r, v_s, gam, inclination_deg=inc)
+    if is_ascent and went_below:
+        terminated = "impact"
     if is_ascent and terminated == "impact":
         warn.append("the vehicle fell back to the ground before final burnout.")
 
@@ -1160,11 +1174,12 @@ def fly_ascent(
     """
     profile = profile or AscentProfile()
 
-    def run(p, hist):
+    def run(p, hist, impact=True):
         return simulate(
             vehicle, site, profile="ascent", ascent=p, earth="round", rotating=rotating,
             with_drag=with_drag, stop_at="burnout", max_step_s=max_step_s,
             record_history=hist, acceleration_limit_m_s2=acceleration_limit_m_s2,
+            detect_impact=impact,
         )
 
     if profile.target_altitude_m is None:
@@ -1177,117 +1192,119 @@ def fly_ascent(
 
 def _burnout_residual(res: FlightResult, target_alt_m: float) -> tuple[float, float]:
     o = res.orbit
-    if o is None or res.terminated_by != "burnout":
+    if o is None:
         # crashed: a large, still-continuous penalty
         last_alt = float(res.history.altitude_m[-1]) if len(res.history.t_s) else 0.0
         return (last_alt - target_alt_m - 1e5, -90.0)
     return (o.altitude_m - target_alt_m, o.flight_path_angle_deg)
 
 
+_PITCH0_BOUNDS_DEG = (-5.0, 75.0)
+_PITCHF_BOUNDS_DEG = (-30.0, 45.0)
+
+
 def _target_ascent(run, profile: AscentProfile, max_eval: int, optimize_kick: bool = True):
     """Solve the steering programme for burnout at the target altitude with gamma = 0.
 
     Steered profiles: for a given pitch kick, the steering law's initial and
-    final pitch are solved with scipy.optimize.least_squares for the two
-    end conditions (altitude, zero inertial flight-path angle). The kick is
-    then chosen to maximise the inertial burnout speed: a coarse scan, then
-    a bounded Brent search (scipy.optimize.minimize_scalar) between the
-    neighbours of the best scanned kick. Gravity-turn-only profiles have one
-    free parameter (the kick), fitted in the least-squares sense.
-    `max_eval` bounds the trajectories of each inner solve. With
-    `optimize_kick` False the given kick is kept when the inner solve succeeds.
+    final pitch are solved with scipy.optimize.least_squares for the two end
+    conditions (altitude, zero inertial flight-path angle). Without a warm
+    start (`profile.initial_pitch_deg` None) a few kicks around the given one
+    are tried and the fastest feasible kept. With `optimize_kick`, the three
+    parameters are then polished with SLSQP (scipy.optimize.minimize),
+    maximising the inertial burnout speed subject to the two end conditions.
+    Gravity-turn-only profiles have one free parameter (the kick), fitted in
+    the least-squares sense. `max_eval` bounds the trajectories of each solve.
     """
-    from scipy.optimize import least_squares, minimize_scalar
+    from scipy.optimize import least_squares, minimize
 
     target = float(profile.target_altitude_m)
     steer = profile.steering != "gravity_turn"
     scale_alt = 1.0e4  # 10 km of altitude error ~ 1 deg of flight-path angle
+    memo: dict[tuple, tuple] = {}
 
-    def evaluate(p):
-        res = run(p, False)
+    def evaluate(kick, th0=None, thf=None):
+        key = (float(kick), th0 if th0 is None else float(th0), thf if thf is None else float(thf))
+        if key in memo:
+            return memo[key]
+        kw = {"pitch_kick_deg": min(max(key[0], 0.0), 60.0)}
+        if steer:
+            kw["initial_pitch_deg"] = key[1]
+            kw["final_pitch_deg"] = key[2]
+        p = replace(profile, **kw)
+        res = run(p, False, False)
         ra, rg = _burnout_residual(res, target)
-        return np.array([ra / scale_alt, rg]), res
-
-    if not steer:
-        cache = {}
-
-        def f1(x):
-            k = float(x[0])
-            if k not in cache:
-                cache[k] = evaluate(replace(profile, pitch_kick_deg=min(max(k, 0.0), 60.0)))
-            return cache[k][0]
-
-        best = min((0.5, 1.0, 2.0, 4.0, 8.0), key=lambda k: float(np.sum(f1([k]) ** 2)))
-        sol = least_squares(f1, [best], bounds=([0.0], [60.0]), diff_step=1e-6, max_nfev=max_eval)
-        k = min(cache, key=lambda kk: float(np.sum(cache[kk][0] ** 2)))
-        r, res = cache[k]
-        return res, replace(profile, pitch_kick_deg=k), (float(r[0] * scale_alt), float(r[1]))
-
-    solved: dict[float, tuple] = {}
-
-    def inner(kick: float):
-        """(speed or None, residual, result, profile) for a fixed kick."""
-        kick = float(kick)
-        if kick in solved:
-            return solved[kick]
-        base = replace(profile, pitch_kick_deg=kick)
-        # warm start from the nearest solved kick, else from a history run
-        near = [v for v in solved.values() if v[0] is not None]
-        if not solved and profile.initial_pitch_deg is not None:
-            x0 = np.array([profile.initial_pitch_deg, profile.final_pitch_deg])
-        elif near:
-            pk = min(near, key=lambda v: abs(v[3].pitch_kick_deg - kick))[3]
-            x0 = np.array([pk.initial_pitch_deg, pk.final_pitch_deg])
-        else:
-            h = run(replace(base, initial_pitch_deg=None), True).history
-            idx = np.flatnonzero(h.stage_index == h.stage_index[-1])
-            th0 = float(h.flight_path_angle_deg[idx[0]]) if idx.size else 20.0
-            x0 = np.array([min(max(th0, -50.0), 80.0), 0.0])
-        cache = {}
-
-        def fun(x):
-            key = (float(x[0]), float(x[1]))
-            if key not in cache:
-                p = replace(base, initial_pitch_deg=key[0], final_pitch_deg=key[1])
-                cache[key] = evaluate(p) + (p,)
-            return cache[key][0]
-
-        least_squares(fun, x0, bounds=([-60.0, -60.0], [85.0, 60.0]), diff_step=1e-6,
-                      x_scale=[5.0, 5.0], xtol=1e-9, ftol=1e-10, gtol=1e-10, max_nfev=max_eval)
-        key = min(cache, key=lambda kk: float(np.sum(cache[kk][0] ** 2)))
-        r, res, p = cache[key]
-        ok = res.terminated_by == "burnout" and abs(r[0]) * scale_alt < 1.0 and abs(r[1]) < 1e-3
-        out = (res.final_inertial_speed_m_s if ok else None, r, res, p)
-        solved[kick] = out
+        out = (np.array([ra / scale_alt, rg]), res, p)
+        memo[key] = out
         return out
 
+    def feasible(out) -> bool:
+        r, res, _ = out
+        return res.terminated_by == "burnout" and abs(r[0]) * scale_alt < 1.0 and abs(r[1]) < 1e-3
+
+    def norm2(out) -> float:
+        return float(np.sum(out[0] ** 2))
+
+    def pack(out):
+        r, res, p = out
+        return res, p, (float(r[0] * scale_alt), float(r[1]))
+
+    if not steer:
+        best = min((0.5, 1.0, 2.0, 4.0, 8.0), key=lambda k: norm2(evaluate(k)))
+        least_squares(lambda x: evaluate(x[0])[0], [best], bounds=([0.0], [60.0]),
+                      diff_step=1e-6, max_nfev=max_eval)
+        return pack(min(memo.values(), key=norm2))
+
+    lb = [_PITCH0_BOUNDS_DEG[0], _PITCHF_BOUNDS_DEG[0]]
+    ub = [_PITCH0_BOUNDS_DEG[1], _PITCHF_BOUNDS_DEG[1]]
+
+    def inner(kick: float, x0) -> tuple:
+        x0 = np.clip(np.asarray(x0, dtype=float), lb, ub)
+        least_squares(lambda x: evaluate(kick, x[0], x[1])[0], x0, bounds=(lb, ub),
+                      diff_step=1e-6, x_scale=[5.0, 5.0], xtol=1e-9, ftol=1e-10, gtol=1e-10,
+                      max_nfev=max_eval)
+        cands = [v for k, v in memo.items() if k[0] == float(kick) and k[1] is not None]
+        return min(cands, key=norm2)
+
+    def guess_pitch0(kick: float) -> float:
+        h = run(replace(profile, pitch_kick_deg=kick, initial_pitch_deg=None), True).history
+        idx = np.flatnonzero(h.stage_index == h.stage_index[-1])
+        return float(h.flight_path_angle_deg[idx[0]]) if idx.size else 20.0
+
     k0 = profile.pitch_kick_deg if profile.pitch_kick_deg > 0 else 1.0
-    if not optimize_kick:
-        out = inner(k0)
-        if out[0] is not None:
-            return out[2], out[3], (float(out[1][0] * scale_alt), float(out[1][1]))
-    scan = [0.5 * k0, k0, 2.0 * k0]
-    for k in scan:
-        inner(k)
-    if all(solved[k][0] is None for k in scan):
-        scan = sorted(set(scan) | {0.25, 0.5, 1.0, 2.0, 4.0, 8.0, 16.0})
-        for k in scan:
-            inner(k)
-    good = [k for k in scan if solved[k][0] is not None]
-    if good:
-        kb = max(good, key=lambda k: solved[k][0])
-        j = scan.index(kb)
-        lo = scan[j - 1] if j > 0 else 0.5 * kb
-        hi = scan[j + 1] if j + 1 < len(scan) else min(2.0 * kb, 45.0)
+    best = None
+    if profile.initial_pitch_deg is not None:
+        out = inner(k0, (profile.initial_pitch_deg, profile.final_pitch_deg))
+        if feasible(out):
+            best = out
+    if best is None:
+        kicks = [0.5 * k0, k0, 2.0 * k0]
+        for attempt in range(2):
+            for k in kicks:
+                out = inner(k, (guess_pitch0(k), 0.0))
+                if feasible(out) and (best is None or
+                                      out[1].final_inertial_speed_m_s > best[1].final_inertial_speed_m_s):
+                    best = out
+            if best is not None:
+                break
+            kicks = [k for k in (0.25, 1.0, 4.0, 8.0, 16.0) if k not in kicks]
+    if best is None:
+        return pack(min(memo.values(), key=norm2))
+    if optimize_kick:
+        p = best[2]
+        x1 = np.array([p.pitch_kick_deg, p.initial_pitch_deg, p.final_pitch_deg])
 
-        def negspeed(k):
-            v = inner(k)[0]
-            return -v if v is not None else 0.0
+        def obj(x):
+            out = evaluate(*x)
+            return -out[1].final_inertial_speed_m_s / 1000.0 if out[1].terminated_by == "burnout" else 10.0
 
-        minimize_scalar(negspeed, bounds=(lo, hi), method="bounded",
-                        options={"xatol": 2e-3 * kb, "maxiter": 8})
-        kbest = max((k for k, v in solved.items() if v[0] is not None), key=lambda k: solved[k][0])
-    else:
-        kbest = min(solved, key=lambda k: float(np.sum(solved[k][1] ** 2)))
-    _, r, res, p = solved[kbest]
-    return res, p, (float(r[0] * scale_alt), float(r[1]))
+        try:
+            minimize(obj, x1, method="SLSQP",
+                     constraints=[{"type": "eq", "fun": lambda x: evaluate(*x)[0]}],
+                     bounds=[(0.0, 45.0), tuple(_PITCH0_BOUNDS_DEG), tuple(_PITCHF_BOUNDS_DEG)],
+                     options={"maxiter": 30, "ftol": 1e-9, "eps": 1e-6})
+        except (ValueError, FloatingPointError):  # pragma: no cover - keep the inner answer
+            pass
+        feas = [v for v in memo.values() if v[2].initial_pitch_deg is not None and feasible(v)]
+        best = max(feas, key=lambda v: v[1].final_inertial_speed_m_s)
+    return pack(best)
