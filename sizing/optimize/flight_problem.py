@@ -286,8 +286,17 @@ def solve_flight_problem(problem: Problem, *, method: str = "auto") -> SizingRes
             acceleration_limit_m_s2=problem.max_acceleration_m_s2,
         )
     except InfeasibleProblemError as exc:
+        best = dict(exc.best)
+        message = str(exc)
+        if problem.apogee_m is not None and "apogee_m" in best:
+            best["apogee_m"] = best["apogee_m"] - site.altitude_m  # report above the site, as stated
+            dv_txt = (f" at ideal delta-v {best['ideal_delta_v_m_s']:,.0f} m/s"
+                      if "ideal_delta_v_m_s" in best else "")
+            message = (f"mission.apogee: {problem.apogee_m:,.0f} m above the site is beyond what these stages "
+                       f"can reach; the best is {best['apogee_m']:,.0f} m{dv_txt}. Raise Isp, lower structural "
+                       "coefficients, add a stage or lower the target.")
         return failed_result(problem, status=Status.INFEASIBLE, method="lagrange+flight",
-                             message=str(exc), best=exc.best)
+                             message=message, best=best)
     except FieldError as exc:
         raise ProblemDefinitionError(problem.source, [str(exc)]) from None
     status = Status.OPTIMAL if fs.converged else Status.MAX_ITERATIONS
