@@ -6,7 +6,6 @@ All faults in a file are collected and raised together as one
 
 from __future__ import annotations
 
-import copy
 import difflib
 import tomllib
 from pathlib import Path
@@ -389,6 +388,6 @@ def problem_from_dict(data: Mapping[str, Any], *, source: str = "<dict>") -> Pro
         orbit_altitude_m=orbit, inclination_deg=incl, max_gross_mass_kg=cap,
         max_acceleration_m_s2=amax, target_tolerance_m=tol_m, g0_m_s2=g0,
         method=pf.solver.method, max_iterations=pf.solver.max_iterations,
-        tolerance=pf.solver.tolerance, launch=launch, raw=copy.deepcopy(dict(data)),
+        tolerance=pf.solver.tolerance, launch=launch, raw=data,
     )
 

@@ -86,6 +86,9 @@ class Problem:
         Given quantities [kg, m/s, kg]; the one solved for is None.
     apogee_m, orbit_altitude_m : float or None
         Flight targets replacing `delta_v_m_s` [m].
+    raw : Mapping
+        The structure the problem was validated from (as read from TOML); the
+        study layer copies it to make variants. Treat it as read-only.
     """
 
     name: str
