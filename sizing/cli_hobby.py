@@ -1,0 +1,231 @@
+"""`sizing hobby FILE`: motor stacks and water rockets from a hobby problem file.
+
+`sizing solve FILE` hands any file with a top-level [hobby] table to `run_hobby`.
+Exit codes: 0 ok, 1 no stack / design reaches the target, 2 bad input.
+Errors go to stderr, one line each, never a traceback. No numerics here.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import math
+from pathlib import Path
+from typing import Any
+
+__all__ = ["register", "run_hobby", "hobby_rows", "limit_rows"]
+
+
+def register(subparsers) -> None:
+    """Add the ``hobby`` sub-command to the `sizing` parser."""
+    p = subparsers.add_parser(
+        "hobby", help="choose motors or water-rocket settings to reach an apogee (hobby problem file)",
+        description="Solve a hobby problem file ([hobby] table): the lightest or cheapest motor stack "
+                    "reaching a target apogee, or the water fill, pressure and nozzle for the highest "
+                    "apogee. Preliminary estimates only, not clearance to fly.")
+    p.add_argument("file", type=Path, help="hobby problem file (TOML)")
+    p.add_argument("--json", action="store_true", help="print one JSON object to stdout")
+    p.add_argument("--out", type=Path, help="also write the stage table: .csv .md .json .xlsx")
+    p.set_defaults(func=run_hobby)
+
+
+def _f(value: Any, spec: str) -> str:
+    if value is None or (isinstance(value, float) and not math.isfinite(value)):
+        return "n/a"
+    return format(value, spec)
+
+
+def hobby_rows(result) -> tuple[str, list[str], list[list[str]]]:
+    """(title, header, rows) of the chosen motors or water settings and the stage masses in grams.
+
+    One row per quantity (unit in brackets), one column per stage, so that a
+    terminal of 80 columns holds up to three stages.
+    """
+    f = result.flight or {}
+    h = f.get("hobby") or {}
+    stages = h.get("stages") or []
+    if not stages:
+        return "", [], []
+    header = ["quantity [unit]"] + [s["stage"] for s in stages]
+    if h.get("kind") == "water":
+        def tube(s):
+            if not s["launch_tube_length_m"]:
+                return "none"
+            return f"{s['launch_tube_length_m'] * 1e3:.0f} x {s['launch_tube_diameter_m'] * 1e3:.1f}"
+
+        spec = [
+            ("fill fraction [-]", lambda s: _f(s["fill_fraction"], ".3f")),
+            ("  as given [-]", lambda s: _f(s["given"]["fill_fraction"], ".3f")),
+            ("water [g]", lambda s: _f(s["water_mass_kg"] * 1e3, ",.0f")),
+            ("pressure [bar gauge]", lambda s: _f(s["pressure_pa"] / 1e5, ".2f")),
+            ("  as given [bar gauge]", lambda s: _f(s["given"]["pressure_pa"] / 1e5, ".2f")),
+            ("allowed = rated / factor [bar]", lambda s: f"{s['allowed_pressure_pa'] / 1e5:.2f} = "
+             f"{s['rated_pressure_pa'] / 1e5:g} / {s['safety_factor']:g}"),
+            ("nozzle diameter [mm]", lambda s: _f(s["nozzle_diameter_m"] * 1e3, ".1f")),
+            ("  as given [mm]", lambda s: _f(s["given"]["nozzle_diameter_m"] * 1e3, ".1f")),
+            ("launch tube length x dia. [mm]", tube),
+        ]
+        title = "Water settings (bottom stage first; pressures are gauge)"
+    else:
+        spec = [
+            ("motor", lambda s: s["motor"]),
+            ("impulse class", lambda s: s["impulse_class"]),
+            ("designation", lambda s: s["designation"]),
+            ("total impulse [N s]", lambda s: _f(s["total_impulse_n_s"], ",.1f")),
+            ("average thrust [N]", lambda s: _f(s["average_thrust_n"], ",.1f")),
+            ("burn time [s]", lambda s: _f(s["burn_time_s"], ".2f")),
+            ("motor loaded mass [g]", lambda s: _f(s["motor_loaded_mass_kg"] * 1e3, ",.1f")),
+            ("effective Isp [s]", lambda s: _f(s["effective_isp_s"], ".1f")),
+            ("cost [list currency]", lambda s: "" if s["cost"] is None else f"{s['cost']:g}"),
+        ]
+        title = "Chosen motors (bottom stage first)"
+    rows = [[label] + [fn(s) for s in stages] for label, fn in spec]
+    # stage masses in grams: the core table rounds to 0.1 kg, too coarse for hobby rockets
+    for label, key in (("ignition mass [g]", "ignition_mass_kg"), ("propellant mass [g]", "propellant_mass_kg"),
+                       ("structural (dry) mass [g]", "structural_mass_kg"), ("burnout mass [g]", "burnout_mass_kg")):
+        rows.append([label] + [_f(getattr(st, key) * 1e3, ",.1f") for st in result.stages])
+    blank = [""] * (len(stages) - 1)
+    rows.append(["payload mass [g]"] + blank + [_f(result.payload_mass_kg * 1e3, ",.1f")])
+    rows.append(["liftoff (gross) mass [g]"] + blank + [_f(result.gross_mass_kg * 1e3, ",.1f")])
+    return title, header, rows
+
+
+def limit_rows(result) -> list[list[str]]:
+    """(check, value with unit, limit with unit) rows of the hobby limits; empty when nothing flew."""
+    f = result.flight or {}
+    lim = (f.get("hobby") or {}).get("limits") or {}
+    if f.get("apogee_m") is None or not lim:
+        return []
+    rule = {"hobby": " (hobby practice)", "dteg": " (DTEG 10.2.1)"}.get(lim.get("rail_rule"), "")
+    rows = []
+    if f.get("target_apogee_m") is not None:
+        rows.append(["apogee above site", f"{_f(f['apogee_m'], ',.1f')} m", f">= {f['target_apogee_m']:,.1f} m"])
+    rows.append(["liftoff thrust-to-weight", _f(f.get("liftoff_thrust_to_weight"), ".1f"),
+                 f">= {lim['min_thrust_to_weight']:g}"
+                 + (" (DTEG 5.18.2)" if lim["min_thrust_to_weight"] == 5 else "")])
+    rail_len = f"{lim['rail_length_m']:g} m rail" + (" assumed" if lim.get("rail_length_assumed") else "")
+    rows.append([f"rail-exit speed, {rail_len}", f"{_f(f.get('rail_exit_speed_m_s'), '.1f')} m/s",
+                 f">= {lim['min_rail_exit_speed_m_s']:g} m/s{rule}"])
+    amax = lim.get("max_acceleration_m_s2")
+    rows.append(["max acceleration", f"{_f(f.get('max_acceleration_m_s2'), ',.1f')} m/s^2",
+                 "no limit" if amax is None else f"<= {amax:g} m/s^2"])
+    return rows
+
+
+def _search_line(result) -> str | None:
+    h = (result.flight or {}).get("hobby") or {}
+    if h.get("kind") == "motors":
+        rej = ", ".join(f"{k.replace('_', ' ')} {v}" for k, v in (h.get("rejected") or {}).items() if v)
+        line = (f"search: {h.get('search_method')}; {h.get('n_combinations')} combinations, "
+                f"{h.get('n_simulated')} flights; rejected: {rej or 'none'}")
+        if h.get("ballast_mass_kg"):
+            line += f"; nose ballast {h['ballast_mass_kg'] * 1e3:,.0f} g"
+        return line
+    if h.get("kind") == "water" and h.get("varied"):
+        init = h.get("initial_apogee_m")
+        return (f"optimiser: varied {', '.join(h['varied'])}; {h.get('n_evaluations')} flights; apogee of the "
+                f"design as given {_f(init, ',.1f')} m")
+    return None
+
+
+def _print_hobby(result) -> None:
+    from rich.markup import escape
+    from rich.table import Table
+
+    from .cli import _console, print_result
+
+    con = _console()
+    caution = [w for w in result.warnings if w == (result.flight or {}).get("hobby", {}).get("caution")]
+    shown = dataclasses.replace(result, warnings=tuple(w for w in result.warnings if w not in caution))
+    print_result(shown, console=con)
+    title, header, rows = hobby_rows(result)
+    if rows:
+        t = Table(title=title, title_justify="left")
+        for i, hd in enumerate(header):
+            t.add_column(escape(hd), justify="left" if i == 0 else "right", no_wrap=True)
+        for r in rows:
+            t.add_row(*map(escape, r))
+        con.print(t)
+    lr = limit_rows(result)
+    if lr:
+        t = Table(title="Hobby limits", title_justify="left")
+        for i, hd in enumerate(("check", "value", "limit")):
+            t.add_column(hd, no_wrap=True, justify="right" if i == 1 else "left")
+        for r in lr:
+            t.add_row(*map(escape, r))
+        con.print(t)
+    line = _search_line(result)
+    if line:
+        con.print(escape(line))
+    for c in caution:
+        con.print(f"[bold yellow]caution:[/] {escape(c)}")
+
+
+def _markdown_section(result) -> str:
+    title, header, rows = hobby_rows(result)
+    out = []
+    if rows:
+        out += [f"### {title}", "", "| " + " | ".join(header) + " |", "|:---|" + "---:|" * (len(header) - 1)]
+        out += ["| " + " | ".join(r) + " |" for r in rows]
+        out.append("")
+    lr = limit_rows(result)
+    if lr:
+        out += ["### Hobby limits", "", "| check | value | limit |", "|:---|---:|:---|"]
+        out += ["| " + " | ".join(r) + " |" for r in lr]
+        out.append("")
+    line = _search_line(result)
+    if line:
+        out += [line, ""]
+    return "\n".join(out)
+
+
+def run_hobby(args) -> int:
+    """Load, solve and print a hobby problem; used by `sizing hobby` and `sizing solve`.
+
+    Parameters
+    ----------
+    args : argparse.Namespace
+        ``file`` (Path), ``json`` (bool), ``out`` (Path or None); other
+        attributes (e.g. ``method`` of `sizing solve`) are ignored.
+
+    Returns
+    -------
+    int
+        0 ok, 1 no stack or design reaches the target, 2 bad input.
+    """
+    import sys
+
+    from .cli import EXIT_BAD_INPUT, EXIT_FAILED, EXIT_OK, error_line
+    from .errors import SizingError
+    from .optimize.hobby_problem import solve_hobby
+    from .problem.hobby import load_hobby_problem
+    from .report.export import EXPORT_FORMATS, result_json, write_stage_table
+
+    out = getattr(args, "out", None)
+    if out is not None and Path(out).suffix.lower() not in EXPORT_FORMATS:
+        error_line(f"--out {out}: the extension must be one of {', '.join(EXPORT_FORMATS)}. "
+                   f"Got {Path(out).suffix or 'none'!r}.")
+        return EXIT_BAD_INPUT
+    try:
+        problem = load_hobby_problem(args.file)
+    except SizingError as exc:
+        error_line(str(exc))
+        return EXIT_BAD_INPUT
+    try:
+        result = solve_hobby(problem)
+    except SizingError as exc:  # a limit the search itself refuses, named by field
+        error_line(f"{problem.source}: {exc}")
+        return EXIT_BAD_INPUT
+    if getattr(args, "json", False):
+        print(result_json(result))
+    else:
+        _print_hobby(result)
+    if out is not None:
+        if not result.success:
+            error_line(f"--out {out}: not written, no stack or design reaches the target.")
+        else:
+            path = write_stage_table(result, out)
+            if path.suffix.lower() == ".md":
+                with path.open("a", encoding="utf-8") as fh:
+                    fh.write("\n" + _markdown_section(result))
+            print(f"wrote {path}", file=sys.stderr if args.json else sys.stdout)
+    return EXIT_OK if result.success else EXIT_FAILED
