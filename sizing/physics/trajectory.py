@@ -99,7 +99,8 @@ DTEG_MIN_RAIL_EXIT_SPEED_M_S = 30.48
 #: Common hobby practice for rail-exit speed [m/s] (about 50 ft/s; from memory).
 HOBBY_MIN_RAIL_EXIT_SPEED_M_S = 15.0
 
-_ATMOSPHERE_TOP_M = 300e3  # above this, p and rho are taken as 0 (drag < 1e-6 of weight)
+_ATMOSPHERE_TOP_M = 300e3
+_VACUUM_ALT_M = 100e3  # ascent steps lengthen above this altitude
 _MAX_FLIGHT_TIME_S = 2.0e5
 
 # steering modes
@@ -438,6 +439,7 @@ def simulate(
     record_history: bool = True,
     acceleration_limit_m_s2: float | None = None,
     detect_impact: bool = True,
+    vacuum_step_factor: float = 8.0,
 ) -> FlightResult:
     """Integrate one flight; `fly_vertical` and `fly_ascent` are the public entry points.
 
@@ -554,11 +556,14 @@ def simulate(
 
     if max_step_s is None:
         if is_ascent:
-            max_step_s = 1.0
+            max_step_s = 0.5
         else:
             total_burn = sum(st.burn_time_s for st in stages)
             max_step_s = min(0.5, max(1e-3, total_burn / 100.0))
     dt_max = float(max_step_s)
+    # above the sensible atmosphere the right-hand side is smooth (no drag-table
+    # or layer kinks): take longer steps there
+    dt_vac = dt_max * (vacuum_step_factor if is_ascent else 1.0)
 
     # --- closure state (phase parameters) --------------------------------
     P_fa = P_fb = P_ma = P_mb = P_t0 = 0.0
@@ -708,9 +713,14 @@ def simulate(
             return der, (alt, vrel, mach, q, sens, f, dmag, fpa)
         return der
 
+    k1_cache = [None, None, None]  # (t, state object, derivative) of the last record()
+
     def rk4(t, s, h, k1=None):
         if k1 is None:
-            k1 = rhs(t, s)
+            if k1_cache[1] is s and k1_cache[0] == t:
+                k1 = k1_cache[2]
+            else:
+                k1 = rhs(t, s)
         hh = 0.5 * h
         k2 = rhs(t + hh, [a + hh * b for a, b in zip(s, k1)])
         k3 = rhs(t + hh, [a + hh * b for a, b in zip(s, k2)])
@@ -788,7 +798,8 @@ def simulate(
 
     def record(t, s):
         nonlocal maxq, max_acc, went_below
-        _, dg = rhs(t, s, True)
+        der, dg = rhs(t, s, True)
+        k1_cache[0], k1_cache[1], k1_cache[2] = t, s, der
         alt, vrel, mach, q, sens, f, dmag, fpa = dg
         if alt < ground - 1.0:
             went_below = True
@@ -895,6 +906,7 @@ def simulate(
         if done:
             break
         set_phase(ph)
+        k1_cache[1] = None
         if P_steer in (_LTG, _PRATE) and abs(t - L_ts) < 1e-9:
             # start the law from the current inertial flight-path angle
             rr = sqrt(s[0] ** 2 + s[1] ** 2 + s[2] ** 2)
@@ -911,10 +923,11 @@ def simulate(
                 done = True
                 break
             remaining = t1 - t
+            dt_here = dt_vac if altitude(s) > _VACUUM_ALT_M else dt_max
             if math.isinf(remaining):
-                h = dt_max
+                h = dt_here
             else:
-                nsteps = max(1, math.ceil(remaining / dt_max - 1e-9))
+                nsteps = max(1, math.ceil(remaining / dt_here - 1e-9))
                 h = remaining / nsteps
             s1 = rk4(t, s, h)
             if not lifted and (s1[3] - s[3]) ** 2 + (s1[4] - s[4]) ** 2 + (s1[5] - s[5]) ** 2 > 0:
@@ -931,6 +944,7 @@ def simulate(
                 if kind == "rail_exit":
                     events["rail_exit"] = (t, dg[1])
                     on_rail = False
+                    k1_cache[1] = None
                 elif kind == "apogee":
                     if dg[0] > apogee[0]:
                         apogee = (dg[0], t)
@@ -951,6 +965,7 @@ def simulate(
             s = s1
             if on_rail and rail_len == 0.0 and lifted:
                 on_rail = False
+                k1_cache[1] = None
                 events["rail_exit"] = (t, math.nan)
             record(t, s)
             if not is_ascent and altitude(s) > apogee[0] and radial_speed(s) > 0:
@@ -960,6 +975,7 @@ def simulate(
         if ph.burnout_of >= 0:
             i = ph.burnout_of
             finish_stage(i, t, s)
+            k1_cache[1] = None
             if i == n_st - 1:
                 budget_state = list(s)
             if i < n_st - 1:
