@@ -286,8 +286,14 @@ def size_to_target(
                 site.latitude_deg, target.inclination_deg, orbit_speed_m_s=v_target,
                 ascending=target.ascending, altitude_m=site.altitude_m,
             )
+            az_plane = launch_azimuth_deg(
+                site.latitude_deg, target.inclination_deg, ascending=target.ascending,
+            )
             site = replace(site, azimuth_deg=az)
-        profile = replace(target.profile or AscentProfile(), target_altitude_m=h_t)
+            profile = replace(target.profile or AscentProfile(), target_altitude_m=h_t,
+                              plane_azimuth_deg=az_plane)
+        else:
+            profile = replace(target.profile or AscentProfile(), target_altitude_m=h_t)
         tol = 0.5 if tolerance is None else float(tolerance)
         loss0 = 1500.0 if initial_loss_m_s is None else float(initial_loss_m_s)
         from sizing.physics.gravity import site_rotation_speed_m_s

@@ -135,6 +135,12 @@ class AscentProfile:
     initial_pitch_deg : float, optional
         Pitch above the local horizontal at steering start [deg]; default the
         inertial flight-path angle there (no jump in thrust direction).
+    plane_azimuth_deg : float, optional
+        Inertial azimuth at the site of the target orbit plane [deg]
+        (`sizing.physics.gravity.launch_azimuth_deg` without rotation
+        correction). When given, the steering law thrusts in that inertial
+        plane instead of the plane of the current inertial velocity, so the
+        Earth's rotation picked up before steering does not tilt the orbit.
     target_altitude_m : float, optional
         If given, `fly_ascent` solves pitch_kick_deg (and final_pitch_deg when
         steering) so that final burnout happens at this altitude with zero
@@ -149,6 +155,7 @@ class AscentProfile:
     final_pitch_deg: float = 0.0
     initial_pitch_deg: float | None = None
     target_altitude_m: float | None = None
+    plane_azimuth_deg: float | None = None
 
     def __post_init__(self) -> None:
         if self.steering not in ("linear_tangent", "pitch_rate", "gravity_turn"):
@@ -579,6 +586,14 @@ def simulate(
     L_tan0 = L_tanf = L_th0 = L_thf = 0.0
     L_ts = 0.0
     L_span = 1.0
+    plane_n = None
+    if is_ascent and ascent.plane_azimuth_deg is not None and round_:
+        bp = math.radians(ascent.plane_azimuth_deg)
+        dpx, dpy, dpz = (math.cos(bp) * n + math.sin(bp) * e for n, e in zip(north0, east0))
+        ux0, uy0, uz0 = up0
+        nx, ny, nz = uy0 * dpz - uz0 * dpy, uz0 * dpx - ux0 * dpz, ux0 * dpy - uy0 * dpx
+        nn = math.sqrt(nx * nx + ny * ny + nz * nz)
+        plane_n = (nx / nn, ny / nn, nz / nn)
     if is_ascent and steer_start is not None:
         L_thf = math.radians(ascent.final_pitch_deg)
         L_tanf = math.tan(L_thf)
@@ -674,8 +689,12 @@ def simulate(
                 th = math.atan(L_tan0 + (L_tanf - L_tan0) * frac)
             else:
                 th = L_th0 + (L_thf - L_th0) * frac
-            vu = vx * upx + vy * upy + vz * upz
-            hx, hy, hz = vx - vu * upx, vy - vu * upy, vz - vu * upz
+            if plane_n is None:
+                vu = vx * upx + vy * upy + vz * upz
+                hx, hy, hz = vx - vu * upx, vy - vu * upy, vz - vu * upz
+            else:
+                pnx, pny, pnz = plane_n
+                hx, hy, hz = pny * upz - pnz * upy, pnz * upx - pnx * upz, pnx * upy - pny * upx
             hn = sqrt(hx * hx + hy * hy + hz * hz)
             if hn > 0.0:
                 hx, hy, hz = hx / hn, hy / hn, hz / hn

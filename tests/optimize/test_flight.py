@@ -96,7 +96,8 @@ def test_orbit_target_reaches_circular_orbit(launcher):
     assert abs(r.achieved["speed_m_s"] - circular_speed_m_s(200e3)) <= r.tolerance
     assert r.achieved["perigee_alt_m"] == pytest.approx(200e3, abs=3e3)
     assert r.achieved["apogee_alt_m"] == pytest.approx(200e3, abs=3e3)
-    assert r.achieved["inclination_deg"] == pytest.approx(30.0, abs=1.5)
+    # steering holds the target plane; out-of-plane speed from the gravity turn is not removed
+    assert r.achieved["inclination_deg"] == pytest.approx(30.0, abs=0.5)
     assert r.n_iterations <= 12
 
 
