@@ -53,13 +53,14 @@ from .hobby import (
 )
 
 __all__ = ["solve_hobby", "stage_results_from_vehicle", "rail_exit_minimum_m_s", "RAIL_RULES_M_S",
-           "MSG_NO_STACK", "MSG_WATER_SHORT", "MSG_CANNOT_FLY"]
+           "MSG_NO_STACK", "MSG_NO_STACK_YET", "MSG_WATER_SHORT", "MSG_CANNOT_FLY"]
 
 #: Minimum rail-exit speed of each rail rule [m/s]: "hobby" 15 m/s (~50 ft/s, common practice,
 #: from memory); "dteg" 30.48 m/s (100 ft/s, Spaceport America Cup DTEG 10.2.1).
 RAIL_RULES_M_S = {"hobby": HOBBY_RAIL_EXIT_SPEED_M_S, "dteg": DTEG_RAIL_EXIT_SPEED_M_S}
 
 MSG_NO_STACK = "no stack reaches the target apogee within the limits"
+MSG_NO_STACK_YET = "no stack found within the simulation cap"
 MSG_WATER_SHORT = "the best water design found falls short of the target apogee"
 MSG_CANNOT_FLY = "the design as given cannot fly"
 
@@ -123,16 +124,19 @@ def stage_results_from_vehicle(vehicle: Vehicle) -> tuple[tuple[StageResult, ...
 
 
 def _flight_dict(fr, site: LaunchSite, *, target: float | None, tw: float) -> dict[str, Any]:
-    rail = float(fr.rail_exit_speed_m_s) if site.rail_length_m > 0 else math.nan
+    def get(name: str) -> float:  # a stand-in flight function may not give every quantity
+        return float(getattr(fr, name, math.nan))
+
+    rail = get("rail_exit_speed_m_s") if site.rail_length_m > 0 else math.nan
     return {
-        "apogee_m": float(fr.apogee_m) - site.altitude_m,
+        "apogee_m": get("apogee_m") - site.altitude_m,
         "target_apogee_m": target,
-        "time_to_apogee_s": float(fr.time_to_apogee_s),
+        "time_to_apogee_s": get("time_to_apogee_s"),
         "rail_exit_speed_m_s": rail,
-        "max_acceleration_m_s2": float(fr.max_acceleration_m_s2),
-        "max_dynamic_pressure_pa": float(fr.max_dynamic_pressure_pa),
+        "max_acceleration_m_s2": get("max_acceleration_m_s2"),
+        "max_dynamic_pressure_pa": get("max_dynamic_pressure_pa"),
         "liftoff_thrust_to_weight": float(tw),
-        "losses_m_s": {k: float(v) for k, v in fr.losses_m_s.items()},
+        "losses_m_s": {k: float(v) for k, v in (getattr(fr, "losses_m_s", None) or {}).items()},
     }
 
 
@@ -223,8 +227,16 @@ def _solve_motors(problem: HobbyProblem, fly: FlightFn) -> SizingResult:
     if not res.success:
         best = _best_reachable(problem, stages, fly, limits)
         hobby["best_reachable"] = best
-        msg = f"{MSG_NO_STACK} ({problem.target_apogee_m:,.0f} m above the site): {res.message}."
-        best_d: dict[str, float] = {"target_apogee_m": float(problem.target_apogee_m)}
+        rej = ", ".join(f"{k.replace('_', ' ')} {v}" for k, v in res.rejected.items() if v)
+        n = len(stages)
+        if res.status == "max_simulations":
+            msg = (f"{MSG_NO_STACK_YET}: the search stopped after {res.n_simulated} flights before any "
+                   f"{n}-stage stack reaching {problem.target_apogee_m:,.0f} m above the site was found "
+                   f"(combinations rejected: {rej}); raise hobby.max_simulations.")
+        else:
+            msg = (f"{MSG_NO_STACK}: no {n}-stage stack from {len(problem.motors)} motors reaches "
+                   f"{problem.target_apogee_m:,.0f} m above the site (combinations rejected: {rej}).")
+        best_d: dict[str, float] = {}
         if best.get("apogee_m") is not None:
             best_d["apogee_m"] = best["apogee_m"]
             msg += (f" Best reachable apogee within the thrust-to-weight and rail-exit limits: "
@@ -232,6 +244,7 @@ def _solve_motors(problem: HobbyProblem, fly: FlightFn) -> SizingResult:
                     "the airframe or add bigger motors to the list.")
         else:
             msg += " No stack meets the liftoff thrust-to-weight and rail-exit limits at all."
+        best_d["target_apogee_m"] = float(problem.target_apogee_m)
         return SizingResult(
             status=Status.MAX_ITERATIONS if res.status == "max_simulations" else Status.INFEASIBLE,
             success=False, message=msg, problem_name=problem.name, solve_for="motor stack",
