@@ -417,13 +417,25 @@ def hobby_problem_from_dict(data: Mapping[str, Any], *, source: str = "<dict>",
     kind = hob.get("kind") if isinstance(hob, Mapping) else None
     model = {"motors": MotorHobbyFile, "water": WaterHobbyFile}.get(kind, _AnyHobbyFile)
     stage_model = {"motors": MotorStageTable, "water": WaterStageTable}.get(kind)
+    # keys of the other kind are checked on the raw table, so they are reported with schema faults
+    pre: list[str] = []
+    if kind == "water":
+        for k in ("objective", "match_target", "motors", "max_simulations", "max_combinations"):
+            if k in hob:
+                pre.append(f"hobby.{k}: {MSG_MOTORS_ONLY}. Got {hob[k]!r} with kind = 'water'.")
+        if "max_acceleration" in hob:
+            pre.append(f"hobby.max_acceleration: {MSG_MOTORS_ONLY} (the water optimiser has no acceleration "
+                       f"limit; the output reports the maximum). Got {hob['max_acceleration']!r}.")
+    elif kind == "motors" and "optimise" in hob:
+        pre.append(f"hobby.optimise: {MSG_WATER_ONLY}. Got a [hobby.optimise] table with kind = 'motors'.")
     try:
         pf = model.model_validate(data)
     except ValidationError as exc:
-        raise ProblemDefinitionError(source, _render(exc, data, stage_model)) from None
+        raise ProblemDefinitionError(source, _render(exc, data, stage_model) + pre) from None
     assert kind in ("motors", "water")
 
     col = _Collector()
+    col.faults.extend(pre)
     h = pf.hobby
     m = pf.mission
     payload = col.quantity("mission.payload_mass", m.payload_mass, "mass", lo=0.0, lo_open=False)
@@ -440,18 +452,6 @@ def hobby_problem_from_dict(data: Mapping[str, Any], *, source: str = "<dict>",
         col.fault(f"hobby: give rail_rule or min_rail_exit_speed, not both. Got rail_rule = {h.rail_rule!r}, "
                   f"min_rail_exit_speed = {h.min_rail_exit_speed!r}.")
     amax = col.quantity("hobby.max_acceleration", h.max_acceleration, "acceleration", lo=0.0)
-
-    motor_only = {"objective": h.objective, "match_target": h.match_target, "motors": h.motors,
-                  "max_simulations": h.max_simulations, "max_combinations": h.max_combinations}
-    if kind == "water":
-        for k, v in motor_only.items():
-            if v is not None:
-                col.fault(f"hobby.{k}: {MSG_MOTORS_ONLY}. Got {v!r} with kind = 'water'.")
-        if h.max_acceleration is not None:
-            col.fault(f"hobby.max_acceleration: {MSG_MOTORS_ONLY} (the water optimiser has no acceleration "
-                      f"limit; the output reports the maximum). Got {h.max_acceleration!r}.")
-    elif h.optimise is not None:
-        col.fault(f"hobby.optimise: {MSG_WATER_ONLY}. Got a [hobby.optimise] table with kind = 'motors'.")
 
     # -- launch site -------------------------------------------------------------
     L = pf.launch

@@ -1,0 +1,196 @@
+"""`sizing hobby` and `sizing solve` on hobby problem files, through `main(argv)`.
+
+Exit codes 0 ok / 1 no stack or design reaches the target / 2 bad input; errors one line
+each on stderr, no traceback; the hobby cautions are printed. Output checks only (the
+physics is tested in tests/optimize/test_hobby_problem.py and tests/physics/).
+"""
+
+from __future__ import annotations
+
+import csv
+import json
+from pathlib import Path
+
+import pytest
+
+from sizing.cli import EXIT_BAD_INPUT, EXIT_FAILED, EXIT_OK, main
+from sizing.optimize.hobby import HOBBY_CAUTION
+from sizing.physics.water import MSG_PRESSURE_LIMIT, WATER_CAUTION
+
+ROOT = Path(__file__).resolve().parents[1]
+MOTOR_DEMO = ROOT / "problems" / "hobby_motor_two_stage.toml"
+WATER_DEMO = ROOT / "problems" / "hobby_water_rocket.toml"
+
+WATER_FAST = """
+[hobby]
+kind = "water"
+
+[hobby.optimise]
+vary = []
+
+[mission]
+name = "test bottle"
+payload_mass = "50 g"
+
+[launch]
+rail_length = 1.0
+
+[[stage]]
+name = "bottle"
+bottle_volume = "1.5 L"
+dry_mass = "120 g"
+diameter = "90 mm"
+nozzle_diameter = "9 mm"
+pressure = "5 bar"
+fill_fraction = 0.33
+rated_pressure = "10 bar"
+"""
+
+
+def _write(tmp_path, text, name="p.toml"):
+    p = tmp_path / name
+    p.write_text(text, encoding="utf-8")
+    return p
+
+
+def _contract(data):
+    for key in ("gross_mass_kg", "payload_mass_kg", "delta_v_m_s", "stages", "apogee_m", "hobby", "warnings"):
+        assert key in data, key
+    for s in data["stages"]:
+        for key in ("ignition_mass_kg", "propellant_mass_kg", "structural_mass_kg", "mass_ratio", "delta_v_m_s"):
+            assert isinstance(s[key], float), key
+
+
+def test_cli_hobby_motor_demo_prints_tables_units_and_caution(capsys):
+    assert main(["hobby", str(MOTOR_DEMO)]) == EXIT_OK
+    out = capsys.readouterr().out
+    for text in ("Stage mass table", "ignition mass [kg]", "Chosen motors", "total impulse [N s]",
+                 "impulse class", "motor loaded mass [g]", "Hobby limits", "rail-exit speed, 1.5 m rail",
+                 "m/s^2", "apogee above launch site", "search: exhaustive branch and bound",
+                 "caution:", HOBBY_CAUTION):
+        assert text in out, text
+    assert "Traceback" not in out
+
+
+def test_cli_solve_hands_hobby_files_over_and_json_has_contract_keys(capsys):
+    assert main(["solve", str(MOTOR_DEMO), "--json", "--method", "slsqp"]) == EXIT_OK
+    data = json.loads(capsys.readouterr().out)
+    _contract(data)
+    assert [s["name"] for s in data["stages"]] == ["booster", "sustainer"]
+    assert data["hobby"]["kind"] == "motors"
+    for s in data["hobby"]["stages"]:
+        for key in ("motor", "designation", "impulse_class", "total_impulse_n_s"):
+            assert key in s
+    assert HOBBY_CAUTION in data["warnings"]
+    assert data["apogee_m"] >= data["target_apogee_m"] == 1500.0
+
+
+def test_cli_hobby_json_matches_solve_json(capsys):
+    assert main(["hobby", str(MOTOR_DEMO), "--json"]) == EXIT_OK
+    a = json.loads(capsys.readouterr().out)
+    assert main(["solve", str(MOTOR_DEMO), "--json"]) == EXIT_OK
+    b = json.loads(capsys.readouterr().out)
+    assert a == b
+
+
+def test_cli_water_settings_table_and_caution(tmp_path, capsys):
+    assert main(["solve", str(_write(tmp_path, WATER_FAST))]) == EXIT_OK
+    out = capsys.readouterr().out
+    for text in ("Water settings", "fill fraction [-]", "pressure [bar gauge]", "allowed = rated / factor [bar]",
+                 "5.00 = 10 / 2", "nozzle diameter [mm]", "water [g]", WATER_CAUTION):
+        assert text in out, text
+
+
+def test_cli_water_demo_json(capsys):
+    """The shipped water demo (optimises fill and nozzle; a few seconds)."""
+    assert main(["hobby", str(WATER_DEMO), "--json"]) == EXIT_OK
+    data = json.loads(capsys.readouterr().out)
+    _contract(data)
+    s = data["hobby"]["stages"][0]
+    assert s["pressure_pa"] <= s["allowed_pressure_pa"] + 1e-6
+    assert 0.1 <= s["fill_fraction"] <= 0.6 and 0.006 <= s["nozzle_diameter_m"] <= 0.021
+    assert WATER_CAUTION in data["warnings"]
+
+
+def test_cli_pressure_above_rating_is_refused_exit_2(tmp_path, capsys):
+    p = _write(tmp_path, WATER_FAST.replace('pressure = "5 bar"', 'pressure = "7 bar"'))
+    assert main(["hobby", str(p)]) == EXIT_BAD_INPUT
+    cap = capsys.readouterr()
+    assert cap.out == ""
+    lines = cap.err.strip().splitlines()
+    assert len(lines) == 1
+    assert str(p) in lines[0] and "stage[1] (bottle).pressure" in lines[0]
+    assert MSG_PRESSURE_LIMIT in lines[0] and "refuses" in lines[0] and "'7 bar'" in lines[0]
+    assert "Traceback" not in cap.err
+
+
+def test_cli_bad_inputs_exit_2_one_line_per_fault(tmp_path, capsys):
+    text = (WATER_FAST.replace("fill_fraction = 0.33", "fill_fracton = 0.33")
+            .replace('kind = "water"', 'kind = "water"\nobjective = "mass"'))
+    p = _write(tmp_path, text)
+    assert main(["solve", str(p)]) == EXIT_BAD_INPUT
+    err = capsys.readouterr().err
+    assert "Traceback" not in err
+    lines = err.strip().splitlines()
+    assert lines[0] == f"error: {p} has 3 errors"
+    assert any("fill_fracton: unknown key. Did you mean 'fill_fraction'?" in ln for ln in lines)
+    assert any("fill_fraction: required key is missing." in ln for ln in lines)
+    assert any("hobby.objective" in ln for ln in lines)
+
+
+@pytest.mark.parametrize("text, needle", [
+    ("[hobby]\nkind = 'water'\n[[stage]\n", "is not valid TOML"),
+    ("[mission]\npayload_mass = 1\n", "needs a [hobby] table"),
+])
+def test_cli_hobby_malformed_files_exit_2(tmp_path, capsys, text, needle):
+    assert main(["hobby", str(_write(tmp_path, text))]) == EXIT_BAD_INPUT
+    err = capsys.readouterr().err
+    assert needle in err and "Traceback" not in err
+
+
+def test_cli_hobby_missing_file_exit_2(tmp_path, capsys):
+    assert main(["hobby", str(tmp_path / "nope.toml")]) == EXIT_BAD_INPUT
+    assert "file not found" in capsys.readouterr().err
+
+
+def test_cli_unreachable_target_exit_1_with_best_apogee(tmp_path, capsys):
+    text = MOTOR_DEMO.read_text(encoding="utf-8").replace('target_apogee = "1500 m"', 'target_apogee = "40 km"')
+    text = text.replace('motors = "motors/demo_motors.toml"',
+                        f'motors = "{(ROOT / "problems" / "motors" / "demo_motors.toml").as_posix()}"')
+    p = _write(tmp_path, text)
+    out_path = tmp_path / "t.csv"
+    assert main(["hobby", str(p), "--out", str(out_path)]) == EXIT_FAILED
+    cap = capsys.readouterr()
+    assert "infeasible" in cap.out and "Best reachable apogee" in cap.out and "best reachable:" in cap.out
+    assert HOBBY_CAUTION in cap.out
+    assert "not written" in cap.err and not out_path.exists()
+    assert main(["hobby", str(p), "--json"]) == EXIT_FAILED
+    data = json.loads(capsys.readouterr().out)
+    assert data["success"] is False and data["best"]["apogee_m"] < 40_000
+
+
+def test_cli_water_target_out_of_reach_exit_1(tmp_path, capsys):
+    p = _write(tmp_path, WATER_FAST.replace('kind = "water"', 'kind = "water"\ntarget_apogee = "1 km"'))
+    assert main(["hobby", str(p)]) == EXIT_FAILED
+    out = capsys.readouterr().out
+    assert "falls short of the target apogee" in out and WATER_CAUTION in out
+
+
+@pytest.mark.parametrize("ext", [".csv", ".md", ".json", ".xlsx"])
+def test_cli_hobby_out_writes_each_format(tmp_path, capsys, ext):
+    out = tmp_path / f"stack{ext}"
+    assert main(["hobby", str(_write(tmp_path, WATER_FAST)), "--out", str(out)]) == EXIT_OK
+    assert out.exists() and out.stat().st_size > 0
+    if ext == ".md":
+        text = out.read_text(encoding="utf-8")
+        assert "Water settings" in text and "Hobby limits" in text and WATER_CAUTION in text
+    elif ext == ".json":
+        _contract(json.loads(out.read_text(encoding="utf-8")))
+    elif ext == ".csv":
+        rows = list(csv.reader(out.open(encoding="utf-8")))
+        assert rows[0][0] == "stage" and rows[1][0] == "bottle"
+
+
+def test_cli_hobby_out_bad_extension_exit_2(tmp_path, capsys):
+    assert main(["hobby", str(_write(tmp_path, WATER_FAST)), "--out", str(tmp_path / "x.pdf")]) == EXIT_BAD_INPUT
+    assert "extension must be one of" in capsys.readouterr().err
