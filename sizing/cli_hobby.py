@@ -12,7 +12,7 @@ import math
 from pathlib import Path
 from typing import Any
 
-__all__ = ["register", "run_hobby", "hobby_rows", "limit_rows"]
+__all__ = ["register", "run_hobby", "check_hobby", "hobby_rows", "limit_rows"]
 
 
 def register(subparsers) -> None:
@@ -229,3 +229,22 @@ def run_hobby(args) -> int:
                     fh.write("\n" + _markdown_section(result))
             print(f"wrote {path}", file=sys.stderr if args.json else sys.stdout)
     return EXIT_OK if result.success else EXIT_FAILED
+
+
+def check_hobby(args) -> int:
+    """Validate a hobby problem file without solving (for `sizing check`); 0 ok, 2 bad input."""
+    from .cli import EXIT_BAD_INPUT, EXIT_OK, error_line
+    from .errors import SizingError
+    from .problem.hobby import load_hobby_problem
+
+    try:
+        p = load_hobby_problem(args.file)
+    except SizingError as exc:
+        error_line(str(exc))
+        return EXIT_BAD_INPUT
+    n = len(p.stage_names)
+    what = (f"{len(p.motors)} motors, target apogee {p.target_apogee_m:g} m" if p.kind == "motors" else
+            "water stages" + (f", target apogee {p.target_apogee_m:g} m" if p.target_apogee_m else ", maximum apogee"))
+    print(f"ok: {args.file}: {p.name}, hobby {p.kind} stack, {n} stage{'s' if n != 1 else ''} "
+          f"({', '.join(p.stage_names)}), {what}.")
+    return EXIT_OK

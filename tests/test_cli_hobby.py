@@ -194,3 +194,16 @@ def test_cli_hobby_out_writes_each_format(tmp_path, capsys, ext):
 def test_cli_hobby_out_bad_extension_exit_2(tmp_path, capsys):
     assert main(["hobby", str(_write(tmp_path, WATER_FAST)), "--out", str(tmp_path / "x.pdf")]) == EXIT_BAD_INPUT
     assert "extension must be one of" in capsys.readouterr().err
+
+
+def test_check_hobby_validates_without_solving(tmp_path, capsys):
+    """`check_hobby` is what `sizing check` can call for files with a [hobby] table."""
+    import argparse
+
+    from sizing.cli_hobby import check_hobby
+
+    assert check_hobby(argparse.Namespace(file=MOTOR_DEMO)) == EXIT_OK
+    assert "hobby motors stack, 2 stages (booster, sustainer), 15 motors" in capsys.readouterr().out
+    bad = _write(tmp_path, WATER_FAST.replace('pressure = "5 bar"', 'pressure = "9 bar"'))
+    assert check_hobby(argparse.Namespace(file=bad)) == EXIT_BAD_INPUT
+    assert "refuses" in capsys.readouterr().err
