@@ -137,6 +137,19 @@ def main() -> None:
           f"{'ratio ' + format(t_ref / t_ours, '.1f') + 'x':>12s}")
     print(f"  (ours with full time history: {1e3 * t_hist:.2f} ms)")
 
+    print("\n  Accuracy vs cost (errors against solve_ivp rtol 1e-12):")
+    print(f"  {'integration':28s}{'alt err [m]':>12s}{'speed err [m/s]':>17s}{'ms/traj':>10s}")
+    rows = []
+    for dt in (0.25, 0.5, 1.0):
+        t_, r_ = timeit(lambda: fly_ascent(vehicle, site, PROFILE, record_history=False, max_step_s=dt), 10)
+        rows.append((f"ours RK4 {dt:g} s (x8 above 100 km)", r_.orbit.altitude_m - alt_x,
+                     r_.final_inertial_speed_m_s - v_x, 1e3 * t_))
+    for rt in (1e-7, 1e-8, 1e-9, 1e-10):
+        t_, (a_, v_) = timeit(lambda: scipy_ascent(vehicle, site, PROFILE, rtol=rt), 2)
+        rows.append((f"solve_ivp RK45 rtol {rt:g}", a_ - alt_x, v_ - v_x, 1e3 * t_))
+    for name, ea, ev, ms in rows:
+        print(f"  {name:28s}{ea:12.2f}{ev:17.4f}{ms:10.2f}")
+
     print("\nVertical flight of a sounding rocket, rail 8 m, drag, round Earth, to apogee")
     st = FlightStage("motor", 8.0, 4.0, 230.0, diameter_m=0.15, thrust_vac_n=2500.0)
     sv = Vehicle((st,), 4.0)
