@@ -96,8 +96,12 @@ def print_result(result, console=None) -> None:
 
 
 def _cmd_check(args) -> int:
-    from .problem.load import load_problem
+    from .problem.load import load_problem, read_toml
 
+    if "hobby" in read_toml(args.file):  # motor / water stacks have their own file layout
+        from .cli_hobby import check_hobby
+
+        return check_hobby(args)
     problem = load_problem(args.file)
     n = len(problem.stages)
     target = (f"delta-v {problem.delta_v_m_s:g} m/s" if problem.delta_v_m_s is not None

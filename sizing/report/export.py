@@ -6,7 +6,7 @@ import json
 from pathlib import Path
 
 from ..result import CAUTION, SizingResult
-from .tables import STAGE_COLUMNS, result_markdown, total_row, trade_factor_rows
+from .tables import STAGE_COLUMNS, result_markdown, trade_factor_rows
 
 __all__ = ["EXPORT_FORMATS", "write_stage_table", "result_json"]
 
@@ -77,8 +77,11 @@ def _write_csv(result: SizingResult, p: Path) -> None:
         for s in result.stages:
             w.writerow([getattr(s, f) if f != "delta_v_share" else 100.0 * s.delta_v_share
                         for f, _h, _s in STAGE_COLUMNS])
-        tot = total_row(result)
-        w.writerow(tot)
+        totals = {"name": "total", "ignition_mass_kg": result.gross_mass_kg,
+                  "propellant_mass_kg": sum(s.propellant_mass_kg for s in result.stages),
+                  "structural_mass_kg": sum(s.structural_mass_kg for s in result.stages),
+                  "payload_ratio": result.payload_fraction, "delta_v_m_s": result.delta_v_m_s}
+        w.writerow([totals.get(f, "") for f, _h, _s in STAGE_COLUMNS])
         w.writerow([])
         w.writerow(["payload mass [kg]", result.payload_mass_kg])
         w.writerow(["gross mass [kg]", result.gross_mass_kg])

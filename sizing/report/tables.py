@@ -15,10 +15,10 @@ STAGE_COLUMNS: tuple[tuple[str, str, str], ...] = (
     ("name", "stage", "s"),
     ("isp_s", "Isp [s]", ".1f"),
     ("structural_coefficient", "structural coeff. [-]", ".4f"),
-    ("ignition_mass_kg", "ignition mass [kg]", ",.1f"),
-    ("propellant_mass_kg", "propellant mass [kg]", ",.1f"),
-    ("structural_mass_kg", "structural mass [kg]", ",.1f"),
-    ("burnout_mass_kg", "burnout mass [kg]", ",.1f"),
+    ("ignition_mass_kg", "ignition mass [kg]", "mass"),
+    ("propellant_mass_kg", "propellant mass [kg]", "mass"),
+    ("structural_mass_kg", "structural mass [kg]", "mass"),
+    ("burnout_mass_kg", "burnout mass [kg]", "mass"),
     ("mass_ratio", "mass ratio [-]", ".4f"),
     ("payload_ratio", "payload ratio [-]", ".4f"),
     ("delta_v_m_s", "delta-v [m/s]", ",.1f"),
@@ -33,7 +33,23 @@ def _fmt(value: Any, spec: str) -> str:
         return "n/a"
     if spec.endswith("%"):
         return format(value, spec).replace("%", "")
+    if spec == "mass":
+        return _fmt_mass(float(value))
     return format(value, spec)
+
+
+def _fmt_mass(kg: float) -> str:
+    """Masses keep four significant figures down to grams: 8,108.2 / 40.12 / 0.1234 kg."""
+    a = abs(kg)
+    if a >= 1000 or a == 0:
+        return format(kg, ",.1f")
+    if a >= 100:
+        return format(kg, ".1f")
+    if a >= 10:
+        return format(kg, ".2f")
+    if a >= 1:
+        return format(kg, ".3f")
+    return format(kg, ".4f")
 
 
 def stage_rows(result: SizingResult) -> list[list[str]]:
@@ -49,10 +65,10 @@ def total_row(result: SizingResult) -> list[str]:
     tot_p = sum(s.propellant_mass_kg for s in result.stages)
     tot_s = sum(s.structural_mass_kg for s in result.stages)
     cells = {
-        "name": "total (payload " + _fmt(result.payload_mass_kg, ",.1f") + " kg)",
-        "ignition_mass_kg": _fmt(result.gross_mass_kg, ",.1f"),
-        "propellant_mass_kg": _fmt(tot_p, ",.1f"),
-        "structural_mass_kg": _fmt(tot_s, ",.1f"),
+        "name": "total (payload " + _fmt(result.payload_mass_kg, "mass") + " kg)",
+        "ignition_mass_kg": _fmt(result.gross_mass_kg, "mass"),
+        "propellant_mass_kg": _fmt(tot_p, "mass"),
+        "structural_mass_kg": _fmt(tot_s, "mass"),
         "payload_ratio": _fmt(result.payload_fraction, ".4f"),
         "delta_v_m_s": _fmt(result.delta_v_m_s, ",.1f"),
         "delta_v_share": "100.0" if result.success else "",
@@ -71,7 +87,7 @@ def stage_columns_table(result: SizingResult) -> tuple[list[str], list[list[str]
     rows = []
     for (f, h, spec), cells in zip(STAGE_COLUMNS[1:], zip(*[r[1:] for r in stage_rows(result)])):
         rows.append([h] + list(cells) + [totals.get(f, "")])
-    rows.append(["payload mass [kg]"] + [""] * len(result.stages) + [_fmt(result.payload_mass_kg, ",.1f")])
+    rows.append(["payload mass [kg]"] + [""] * len(result.stages) + [_fmt(result.payload_mass_kg, "mass")])
     return header, rows
 
 
@@ -141,6 +157,7 @@ FLIGHT_QUANTITIES: tuple[tuple[str, str, str, str], ...] = (
     ("rail_exit_speed_m_s", "rail-exit speed", "m/s", ".1f"),
     ("max_dynamic_pressure_pa", "max dynamic pressure (max-q)", "Pa", ",.0f"),
     ("max_acceleration_m_s2", "max acceleration", "m/s^2", ".1f"),
+    ("liftoff_thrust_to_weight", "lift-off thrust-to-weight", "-", ".2f"),
     ("perigee_altitude_m", "perigee altitude", "m", ",.0f"),
     ("apogee_altitude_m", "apogee altitude", "m", ",.0f"),
     ("orbit_speed_m_s", "speed at insertion", "m/s", ",.1f"),

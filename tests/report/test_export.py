@@ -56,3 +56,18 @@ def test_result_markdown_has_units_and_caution(result):
 def test_write_stage_table_rejects_unknown_extension(tmp_path, result):
     with pytest.raises(ValueError, match="extension must be one of"):
         write_stage_table(result, tmp_path / "t.docx")
+
+
+def test_write_stage_table_csv_totals_are_plain_numbers(tmp_path, result):
+    rows = list(csv.reader(write_stage_table(result, tmp_path / "t.csv").open()))
+    total = next(r for r in rows if r and r[0] == "total")
+    assert float(total[rows[0].index("ignition mass [kg]")]) == pytest.approx(result.gross_mass_kg, rel=1e-12)
+
+
+def test_stage_table_keeps_small_masses_visible():
+    """A 40 g payload and 120 g of propellant are not rounded to 0.0 kg."""
+    from sizing.report.tables import _fmt
+
+    assert _fmt(0.04, "mass") == "0.0400"
+    assert _fmt(0.123, "mass") == "0.1230"
+    assert _fmt(8108.24, "mass") == "8,108.2"
