@@ -70,7 +70,7 @@ from types import MappingProxyType
 import numpy as np
 
 from sizing.errors import FieldError
-from sizing.physics.atmosphere import pressure_density_sound_speed
+from sizing.physics.atmosphere import _H_BASE, _UP_Z_M, _Z86_M, R0_GEOPOTENTIAL_M, pressure_density_sound_speed
 from sizing.physics.gravity import OrbitElements, orbit_elements
 from sizing.physics.vehicle import LaunchSite, Vehicle
 from sizing.units import G0_M_S2, GM_EARTH_M3_S2, OMEGA_EARTH_RAD_S, R_EARTH_EQ_M
@@ -100,11 +100,68 @@ DTEG_MIN_RAIL_EXIT_SPEED_M_S = 30.48
 HOBBY_MIN_RAIL_EXIT_SPEED_M_S = 15.0
 
 _ATMOSPHERE_TOP_M = 300e3
+_ALT_KINKS_M: tuple[float, ...] = ()  # filled below, after the helper is defined
 _VACUUM_ALT_M = 100e3  # ascent steps lengthen above this altitude
 _MAX_FLIGHT_TIME_S = 2.0e5
 
 # steering modes
 _RAIL, _UP, _KICK, _PRO, _LTG, _PRATE = range(6)
+
+# Dormand-Prince 5(4) embedded Runge-Kutta pair with FSAL (J. R. Dormand, P. J.
+# Prince, "A family of embedded Runge-Kutta formulae", J. Comput. Appl. Math.
+# 6(1), 1980, 19-26, Table 2; Hairer, Norsett & Wanner, Solving Ordinary
+# Differential Equations I, 2nd ed., 1993, Sec. II.5, Table 5.2).
+_DP_A21 = 1.0 / 5.0
+_DP_A31, _DP_A32 = 3.0 / 40.0, 9.0 / 40.0
+_DP_A41, _DP_A42, _DP_A43 = 44.0 / 45.0, -56.0 / 15.0, 32.0 / 9.0
+_DP_A51, _DP_A52, _DP_A53, _DP_A54 = 19372.0 / 6561.0, -25360.0 / 2187.0, 64448.0 / 6561.0, -212.0 / 729.0
+_DP_A61, _DP_A62, _DP_A63, _DP_A64, _DP_A65 = (
+    9017.0 / 3168.0, -355.0 / 33.0, 46732.0 / 5247.0, 49.0 / 176.0, -5103.0 / 18656.0)
+_DP_B1, _DP_B3, _DP_B4, _DP_B5, _DP_B6 = (
+    35.0 / 384.0, 500.0 / 1113.0, 125.0 / 192.0, -2187.0 / 6784.0, 11.0 / 84.0)
+# difference of the 5th- and 4th-order weights (local error estimate)
+_DP_E1, _DP_E3, _DP_E4, _DP_E5, _DP_E6, _DP_E7 = (
+    71.0 / 57600.0, -71.0 / 16695.0, 71.0 / 1920.0, -17253.0 / 339200.0, 22.0 / 525.0, -1.0 / 40.0)
+# continuous extension of order 4 (Hairer, Norsett & Wanner 1993, Sec. II.6,
+# eq. 6.12, Shampine's dense output): y(t0 + x h) = y0 + h sum_j k_j
+# (P_j1 x + P_j2 x^2 + P_j3 x^3 + P_j4 x^4); stage 2 has all-zero weights.
+_DP_P = (
+    (1.0, -8048581381.0 / 2820520608.0, 8663915743.0 / 2820520608.0, -12715105075.0 / 11282082432.0),
+    (0.0, 131558114200.0 / 32700410799.0, -68118460800.0 / 10900136933.0, 87487479700.0 / 32700410799.0),
+    (0.0, -1754552775.0 / 470086768.0, 14199869525.0 / 1410260304.0, -10690763975.0 / 1880347072.0),
+    (0.0, 127303824393.0 / 49829197408.0, -318862633887.0 / 49829197408.0, 701980252875.0 / 199316789632.0),
+    (0.0, -282668133.0 / 205662961.0, 2019193451.0 / 616988883.0, -1453857185.0 / 822651844.0),
+    (0.0, 40617522.0 / 29380423.0, -110615467.0 / 29380423.0, 69997945.0 / 29380423.0),
+)
+#: default relative tolerance of the adaptive integrator
+_DEFAULT_RTOL = 1e-9
+_POS_SCALE_M = 1.0e4
+
+
+def _atmosphere_kinks_m() -> tuple[float, ...]:
+    """Geometric altitudes [m] where the atmosphere model is not smooth.
+
+    USSA 1976 layer bases (geopotential H_b -> geometric z = r0 H_b / (r0 - H_b),
+    USSA 1976 eq. 19), 86 km (start of the tabulated upper model), the upper
+    table's knots and the cut-off at which the integrator sets the atmosphere to
+    vacuum.
+    """
+    r0 = R0_GEOPOTENTIAL_M
+    zs = {r0 * hb / (r0 - hb) for hb in _H_BASE[1:]}
+    zs.add(_Z86_M)
+    zs.update((91000.0, 110000.0, 120000.0))  # upper temperature pieces (USSA 1976 eqs. 25-31)
+    zs.update(z for z in _UP_Z_M if z < _ATMOSPHERE_TOP_M)
+    zs.add(_ATMOSPHERE_TOP_M)
+    out = []
+    for z in sorted(zs):
+        if not out or z - out[-1] > 1.0:
+            out.append(z)
+    return tuple(out)
+
+
+_ALT_KINKS_M = _atmosphere_kinks_m()
+_VEL_SCALE_M_S = 10.0
+_INTEGRATORS = ("dopri5", "rk4")
 
 
 @dataclass(frozen=True, slots=True)
@@ -447,6 +504,8 @@ def simulate(
     acceleration_limit_m_s2: float | None = None,
     detect_impact: bool = True,
     vacuum_step_factor: float = 8.0,
+    integrator: str = "dopri5",
+    rtol: float = _DEFAULT_RTOL,
 ) -> FlightResult:
     """Integrate one flight; `fly_vertical` and `fly_ascent` are the public entry points.
 
@@ -460,6 +519,11 @@ def simulate(
         raise FieldError("earth", "must be 'round' or 'flat'.", earth)
     if stop_at not in ("apogee", "impact", "burnout"):
         raise FieldError("stop_at", "must be 'apogee', 'impact' or 'burnout'.", stop_at)
+    if integrator not in _INTEGRATORS:
+        raise FieldError("integrator", "must be 'dopri5' or 'rk4'.", integrator)
+    if not 1e-14 <= rtol <= 1e-3:
+        raise FieldError("rtol", "must be in [1e-14, 1e-3].", rtol)
+    adaptive = integrator == "dopri5"
     round_ = earth == "round"
     rot = bool(rotating) and round_
     is_ascent = profile == "ascent"
@@ -561,13 +625,16 @@ def simulate(
         else:
             ph.steer = _PRO
 
-    if max_step_s is None:
-        if is_ascent:
-            max_step_s = 0.5
-        else:
-            total_burn = sum(st.burn_time_s for st in stages)
-            max_step_s = min(0.5, max(1e-3, total_burn / 100.0))
-    dt_max = float(max_step_s)
+    total_burn = sum(st.burn_time_s for st in stages)
+    if adaptive:
+        # the error control chooses the step; the cap only keeps the
+        # sampling of max-q and the history from becoming too sparse
+        dt_max = math.inf if max_step_s is None else float(max_step_s)
+        h_first = min(dt_max, max(1e-4, total_burn / 1000.0))
+    elif max_step_s is None:
+        dt_max = 0.5 if is_ascent else min(0.5, max(1e-3, total_burn / 100.0))
+    else:
+        dt_max = float(max_step_s)
     # above the sensible atmosphere the right-hand side is smooth (no drag-table
     # or layer kinks): take longer steps there
     dt_vac = dt_max * (vacuum_step_factor if is_ascent else 1.0)
@@ -747,6 +814,132 @@ def simulate(
         h6 = h / 6.0
         return [a + h6 * (b + 2.0 * (c + d) + e) for a, b, c, d, e in zip(s, k1, k2, k3, k4)]
 
+    atol = 10.0 * rtol  # [m], [m/s], [kg] components alike
+
+    def dp_step(t, s, h):
+        """One Dormand-Prince 5(4) step: (state, error norm, stages, (der, diag) at the end)."""
+        if k1_cache[1] is s and k1_cache[0] == t:
+            k1 = k1_cache[2]
+        else:
+            k1 = rhs(t, s)
+        # the right-hand side reads only position, velocity and mass (the
+        # first 7 components); the loss integrals ride along in s1
+        s7 = s[:7]
+        a21 = h * _DP_A21
+        k2 = rhs(t + 0.2 * h, [a + a21 * b for a, b in zip(s7, k1)])
+        a31, a32 = h * _DP_A31, h * _DP_A32
+        k3 = rhs(t + 0.3 * h, [a + a31 * b + a32 * c for a, b, c in zip(s7, k1, k2)])
+        a41, a42, a43 = h * _DP_A41, h * _DP_A42, h * _DP_A43
+        k4 = rhs(t + 0.8 * h, [a + a41 * b + a42 * c + a43 * d for a, b, c, d in zip(s7, k1, k2, k3)])
+        a51, a52, a53, a54 = h * _DP_A51, h * _DP_A52, h * _DP_A53, h * _DP_A54
+        k5 = rhs(t + h * (8.0 / 9.0), [a + a51 * b + a52 * c + a53 * d + a54 * e
+                                       for a, b, c, d, e in zip(s7, k1, k2, k3, k4)])
+        a61, a62, a63, a64, a65 = h * _DP_A61, h * _DP_A62, h * _DP_A63, h * _DP_A64, h * _DP_A65
+        k6 = rhs(t + h, [a + a61 * b + a62 * c + a63 * d + a64 * e + a65 * f
+                         for a, b, c, d, e, f in zip(s7, k1, k2, k3, k4, k5)])
+        b1, b3, b4, b5, b6 = h * _DP_B1, h * _DP_B3, h * _DP_B4, h * _DP_B5, h * _DP_B6
+        s1 = [a + b1 * b + b3 * d + b4 * e + b5 * f + b6 * g
+              for a, b, d, e, f, g in zip(s, k1, k3, k4, k5, k6)]
+        k7, dg7 = rhs(t + h, s1, True)
+        e1, e3, e4, e5, e6, e7 = h * _DP_E1, h * _DP_E3, h * _DP_E4, h * _DP_E5, h * _DP_E6, h * _DP_E7
+        # error norm over position and velocity only: the mass is integrated
+        # exactly (mdot linear in t) and the loss integrals are quadratures
+        # that follow the state
+        ep = max(abs(e1 * b + e3 * d + e4 * e + e5 * f + e6 * g + e7 * k)
+                 for b, d, e, f, g, k in zip(k1[:3], k3[:3], k4[:3], k5[:3], k6[:3], k7[:3]))
+        ev = max(abs(e1 * b + e3 * d + e4 * e + e5 * f + e6 * g + e7 * k)
+                 for b, d, e, f, g, k in zip(k1[3:6], k3[3:6], k4[3:6], k5[3:6], k6[3:6], k7[3:6]))
+        v_scale = _VEL_SCALE_M_S + sqrt(s1[3] * s1[3] + s1[4] * s1[4] + s1[5] * s1[5])
+        err = max(ep / (rtol * _POS_SCALE_M), ev / (rtol * v_scale))
+        return s1, err, (k1, k3, k4, k5, k6, k7), k7, dg7
+
+    def dense(s0, h, K, x):
+        """State at t0 + x h inside a Dormand-Prince step (4th-order continuous extension)."""
+        x2 = x * x
+        x3 = x2 * x
+        x4 = x2 * x2
+        hx, hx2, hx3, hx4 = h * x, h * x2, h * x3, h * x4
+        P1, P3, P4, P5, P6, P7 = _DP_P
+        w1 = hx + P1[1] * hx2 + P1[2] * hx3 + P1[3] * hx4
+        w3 = P3[1] * hx2 + P3[2] * hx3 + P3[3] * hx4
+        w4 = P4[1] * hx2 + P4[2] * hx3 + P4[3] * hx4
+        w5 = P5[1] * hx2 + P5[2] * hx3 + P5[3] * hx4
+        w6 = P6[1] * hx2 + P6[2] * hx3 + P6[3] * hx4
+        w7 = P7[1] * hx2 + P7[2] * hx3 + P7[3] * hx4
+        k1, k3, k4, k5, k6, k7 = K
+        return [a + w1 * b + w3 * c + w4 * d + w5 * e + w6 * f + w7 * g
+                for a, b, c, d, e, f, g in zip(s0, k1, k3, k4, k5, k6, k7)]
+
+    alt_kinks = _ALT_KINKS_M
+    bisect_r = ctab_bisect
+
+    def kink_crossing(dg0, dg1, s0, h, K):
+        """Fraction x in (0, 1) of the step where the first atmosphere-layer or
+        drag-table knot is crossed, located on the continuous extension; None if none."""
+        alt0, alt1 = dg0[0], dg1[0]
+        # a kink changes only the drag and pressure-thrust terms; if those
+        # terms together move the speed by less than the tolerance over the
+        # whole step, the kink cannot spoil it: no cut
+        m_lo = s0[6] if s0[6] < K[0][6] * h + s0[6] else K[0][6] * h + s0[6]
+        alt_lo = alt0 if alt0 < alt1 else alt1
+        p_hi = pds(alt_lo)[0] if alt_lo < atm_top and P_burn else 0.0
+        d_hi = dg0[6] if dg0[6] > dg1[6] else dg1[6]
+        v1 = dg1[1]
+        if h * (d_hi + p_hi * P_ae) / m_lo < rtol * (_VEL_SCALE_M_S + v1):
+            return None
+        cands = []
+        i0, i1 = bisect_r(alt_kinks, alt0), bisect_r(alt_kinks, alt1)
+        if i0 != i1:
+            zb = alt_kinks[i0] if i1 > i0 else alt_kinks[i0 - 1]
+            cands.append((altitude, zb))
+        if drag_on and alt0 < atm_top and alt1 < atm_top and dg0[1] > 0.0:
+            m0_, m1_ = dg0[2], dg1[2]
+            j0, j1 = bisect_r(P_mach, m0_), bisect_r(P_mach, m1_)
+            if j0 != j1 and 0 < min(j0, j1) and max(j0, j1) <= len(P_mach):
+                mb = P_mach[j0] if j1 > j0 else P_mach[j0 - 1]
+                cands.append((mach_of, mb))
+        best = None
+        for fun, target in cands:
+            a, b = 0.0, 1.0
+            fa = fun(s0) - target
+            fb = (alt1 if fun is altitude else dg1[2]) - target
+            if (fa > 0) == (fb > 0):
+                continue
+            side = 0
+            c = 0.5
+            for _ in range(30):
+                c = (a * fb - b * fa) / (fb - fa)
+                fc = fun(dense(s0, h, K, c)) - target
+                # a sliver of 1e-6 of the step past the kink costs nothing
+                if b - a < 1e-6 or abs(fc) < 1e-9 * (1.0 + abs(target)):
+                    break
+                if (fc > 0) == (fb > 0):
+                    b, fb = c, fc
+                    if side == -1:
+                        fa *= 0.5
+                    side = -1
+                else:
+                    a, fa = c, fc
+                    if side == 1:
+                        fb *= 0.5
+                    side = 1
+            if best is None or c < best:
+                best = c
+        return best
+
+    def mach_of(st_):
+        x, y, z, vx, vy, vz = st_[0], st_[1], st_[2], st_[3], st_[4], st_[5]
+        if w != 0.0:
+            vx, vy = vx + w * y, vy - w * x
+        alt = altitude(st_)
+        a_s = pds(alt)[2] if alt < atm_top else 1.0
+        return sqrt(vx * vx + vy * vy + vz * vz) / a_s
+
+    def advance(t, s, h):
+        return dp_step(t, s, h)[0] if adaptive else rk4(t, s, h)
+
+    cur_step = [None]  # (t0, s0, h, K, stage) of the step being checked for events
+
     def radial_speed(s):
         if round_:
             x, y, z = s[0], s[1], s[2]
@@ -778,7 +971,14 @@ def simulate(
         """Time tau in (0, h] where fun(state) crosses `target` (Illinois)."""
         a, b = 0.0, h
         fa = fun(s) - target
-        sb = rk4(t, s, h)
+        if adaptive:
+            _, s0_, h_, K_, _ = cur_step[0]
+
+            def step_to(_t, _s, c):
+                return dense(s0_, h_, K_, c / h_)
+        else:
+            step_to = rk4
+        sb = step_to(t, s, h)
         fb = fun(sb) - target
         side = 0
         sc = sb
@@ -787,7 +987,7 @@ def simulate(
             if fb == fa:
                 break
             c = (a * fb - b * fa) / (fb - fa)
-            sc = rk4(t, s, c)
+            sc = step_to(t, s, c)
             fc = fun(sc) - target
             if abs(fc) < 1e-12 * (1.0 + abs(target)) or (b - a) < 1e-10 * max(h, 1e-12):
                 break
@@ -801,6 +1001,9 @@ def simulate(
                 if side == 1:
                     fb *= 0.5
                 side = 1
+        if adaptive:
+            # the interpolant located the event; integrate to it properly
+            sc = dp_step(t, s, c)[0]
         return c, sc
 
     # --- initial state ----------------------------------------------------
@@ -815,31 +1018,69 @@ def simulate(
     max_acc = 0.0
     went_below = False
 
-    def record(t, s):
+    last_dg = [None]  # diagnostics of the last recorded state
+    q_samples: list = []  # last three (t, q, step) samples, for the max-q search
+
+    def history_row(t, s, dg, stage):
+        alt, vrel, mach, q, sens, f, dmag, fpa = dg
+        return (t, alt, downrange(t, s), vrel, sqrt(s[3] ** 2 + s[4] ** 2 + s[5] ** 2), fpa, mach,
+                q, sens, s[6], f, dmag, stage)
+
+    def refine_max_q():
+        """Largest q between the last three samples, on the steps' continuous extension.
+
+        Brent's bounded method (scipy.optimize.minimize_scalar) on q(t) evaluated
+        on the Dormand-Prince interpolant of the two steps around the sampled peak.
+        """
+        nonlocal maxq
+        from scipy.optimize import minimize_scalar
+
+        (ta, _, _), (tb, _, stb), (tc, _, stc) = q_samples
+
+        def state_at(tt):
+            st_ = stb if tt <= tb else stc
+            return dense(st_[1], st_[2], st_[3], (tt - st_[0]) / st_[2]), st_
+
+        def neg_q(tt):
+            return -rhs(tt, state_at(tt)[0], True)[1][3]
+
+        opt = minimize_scalar(neg_q, bounds=(ta, tc), method="bounded",
+                              options={"xatol": 1e-6 * max(1.0, tc)})
+        tq = float(opt.x)
+        sq, st_ = state_at(tq)
+        dgq = rhs(tq, sq, True)[1]
+        if dgq[3] > maxq[0]:
+            maxq = (dgq[3], tq, dgq[0])
+            if record_history:
+                row = history_row(tq, sq, dgq, st_[4])
+                k = __import__("bisect").bisect_left(H["t_s"], tq)
+                for col, v in zip(FlightHistory.COLUMNS, row):
+                    H[col].insert(k, v)
+
+    def record(t, s, pre=None, step=None):
         nonlocal maxq, max_acc, went_below
-        der, dg = rhs(t, s, True)
+        der, dg = rhs(t, s, True) if pre is None else pre
         k1_cache[0], k1_cache[1], k1_cache[2] = t, s, der
+        last_dg[0] = dg
         alt, vrel, mach, q, sens, f, dmag, fpa = dg
         if alt < ground - 1.0:
             went_below = True
-        if q > maxq[0]:
+        new_max_q = q > maxq[0]
+        if new_max_q:
             maxq = (q, t, alt)
         if sens > max_acc:
             max_acc = sens
         if record_history:
-            H["t_s"].append(t)
-            H["altitude_m"].append(alt)
-            H["downrange_m"].append(downrange(t, s))
-            H["speed_m_s"].append(vrel)
-            H["inertial_speed_m_s"].append(sqrt(s[3] ** 2 + s[4] ** 2 + s[5] ** 2))
-            H["flight_path_angle_deg"].append(fpa)
-            H["mach"].append(mach)
-            H["dynamic_pressure_pa"].append(q)
-            H["acceleration_m_s2"].append(sens)
-            H["mass_kg"].append(s[6])
-            H["thrust_n"].append(f)
-            H["drag_n"].append(dmag)
-            H["stage_index"].append(stage_now)
+            for col, v in zip(FlightHistory.COLUMNS, history_row(t, s, dg, stage_now)):
+                H[col].append(v)
+        if adaptive:
+            q_samples.append((t, q, step))
+            if len(q_samples) > 3:
+                del q_samples[0]
+            if (not new_max_q and len(q_samples) == 3 and q_samples[1][1] == maxq[0] > 0.0
+                    and q_samples[0][1] < q_samples[1][1] and q_samples[1][2] is not None
+                    and step is not None):
+                refine_max_q()
         return dg
 
     def set_phase(ph):
@@ -918,6 +1159,7 @@ def simulate(
     if not (is_ascent or stop_at == "burnout"):
         all_phases.append(final_coast)
     record(t, s)
+    h_next = h_first if adaptive else 0.0
     done = False
     just = None
     budget_state = None
@@ -942,13 +1184,49 @@ def simulate(
                 done = True
                 break
             remaining = t1 - t
-            dt_here = dt_vac if altitude(s) > _VACUUM_ALT_M else dt_max
-            if math.isinf(remaining):
-                h = dt_here
+            if adaptive:
+                h = min(h_next, dt_max)
+                if remaining <= 1.05 * h:
+                    h = remaining
+                try:
+                    s1, err, K, k7, dg7 = dp_step(t, s, h)
+                except (ValueError, OverflowError, ZeroDivisionError):
+                    # a trial step so long that a stage state left the models'
+                    # domain (e.g. far below ground): reject it like any other
+                    if h < 1e-9 * max(1.0, t):
+                        raise
+                    h_next = 0.2 * h
+                    continue
+                # end steps on the atmosphere's and drag table's kinks, where the
+                # right-hand side has a discontinuous derivative (like the
+                # phase boundaries in time)
+                xk = kink_crossing(last_dg[0], dg7, s, h, K)
+                if xk is not None and xk > 1e-3:
+                    hk = xk * h
+                    s1k, errk, Kk, k7k, dg7k = dp_step(t, s, hk)
+                    if errk <= 1.0:
+                        # the step after the kink starts from the step size the
+                        # uncut trial asked for
+                        h_keep = h * min(5.0, max(0.2, 0.9 * max(err, 1e-10) ** -0.2))
+                        h_next = max(h_next, h_keep)
+                        s1, err, K, k7, dg7, h = s1k, errk, Kk, k7k, dg7k, hk
+                        remaining = math.inf if math.isinf(remaining) else h
+                # step-size control: Hairer, Norsett & Wanner 1993, Sec. II.4, eq. 4.13
+                if err > 1.0:
+                    h_next = h * max(0.2, 0.9 * err ** -0.2)
+                    continue
+                fac = 5.0 if err < 1e-10 else min(5.0, 0.9 * err ** -0.2)
+                if h < remaining or h * fac > h_next:
+                    h_next = h * fac
+                cur_step[0] = (t, s, h, K, stage_now)
             else:
-                nsteps = max(1, math.ceil(remaining / dt_here - 1e-9))
-                h = remaining / nsteps
-            s1 = rk4(t, s, h)
+                dt_here = dt_vac if altitude(s) > _VACUUM_ALT_M else dt_max
+                if math.isinf(remaining):
+                    h = dt_here
+                else:
+                    nsteps = max(1, math.ceil(remaining / dt_here - 1e-9))
+                    h = remaining / nsteps
+                s1 = rk4(t, s, h)
             if not lifted and (s1[3] - s[3]) ** 2 + (s1[4] - s[4]) ** 2 + (s1[5] - s[5]) ** 2 > 0:
                 lifted_now = True
             else:
@@ -986,7 +1264,11 @@ def simulate(
                 on_rail = False
                 k1_cache[1] = None
                 events["rail_exit"] = (t, math.nan)
-            record(t, s)
+                record(t, s)
+            elif adaptive:
+                record(t, s, (k7, dg7), cur_step[0])
+            else:
+                record(t, s)
             if not is_ascent and altitude(s) > apogee[0] and radial_speed(s) > 0:
                 pass
         if done:
