@@ -134,8 +134,8 @@ _DP_P = (
     (0.0, 40617522.0 / 29380423.0, -110615467.0 / 29380423.0, 69997945.0 / 29380423.0),
 )
 #: default relative tolerance of the adaptive integrator
-_DEFAULT_RTOL = 1e-9
-_POS_SCALE_M = 1.0e4
+_DEFAULT_RTOL = 1e-8
+_POS_SCALE_M = 1.0e5
 
 
 def _atmosphere_kinks_m() -> tuple[float, ...]:
@@ -927,6 +927,54 @@ def simulate(
                 best = c
         return best
 
+    def predict_kink(t, h):
+        """Step length that ends just past the next kink predicted within h, or None.
+
+        Quadratic extrapolation of altitude and Mach number through the last
+        three samples; the step then ends a little past the predicted crossing
+        so that the kink falls in the step's last percent (see the loop).
+        """
+        if len(kink_track) < 3:
+            return None
+        (ta, aa, ma), (tb, ab, mb), (tc, ac, mc) = kink_track
+        if not (ta < tb < tc) or tc != t:
+            return None
+        best = None
+        series = [(aa, ab, ac, alt_kinks)]
+        if drag_on and ac < atm_top and last_dg[0][1] > 0.0:
+            series.append((ma, mb, mc, P_mach))
+        for fa, fb, fc, knots in series:
+            # Newton form through (ta, fa), (tb, fb), (tc, fc), evaluated at t + tau
+            d1 = (fc - fb) / (tc - tb)
+            d2 = (d1 - (fb - fa) / (tb - ta)) / (tc - ta)
+
+            def p(tau):
+                return fc + tau * (d1 + d2 * (tau + tc - tb))
+
+            fh = p(h)
+            i0, i1 = bisect_r(knots, fc), bisect_r(knots, fh)
+            if i0 == i1:
+                continue
+            kb = knots[i0] if i1 > i0 else knots[i0 - 1]
+            lo, hi, flo, fhi = 0.0, h, fc - kb, fh - kb
+            if (flo > 0) == (fhi > 0):
+                continue
+            for _ in range(8):
+                mid = lo - flo * (hi - lo) / (fhi - flo)
+                fm = p(mid) - kb
+                if (fm > 0) == (flo > 0):
+                    lo, flo = mid, fm
+                else:
+                    hi, fhi = mid, fm
+                if hi - lo < 1e-4 * h:
+                    break
+            tau = mid
+            if best is None or tau < best:
+                best = tau
+        if best is None or best < 0.05 * h:
+            return None
+        return best * 1.003
+
     def mach_of(st_):
         x, y, z, vx, vy, vz = st_[0], st_[1], st_[2], st_[3], st_[4], st_[5]
         if w != 0.0:
@@ -1002,8 +1050,23 @@ def simulate(
                     fb *= 0.5
                 side = 1
         if adaptive:
-            # the interpolant located the event; integrate to it properly
+            # the interpolant located the event; integrate to it properly and
+            # polish with a few secant steps on the integrated state (slope
+            # from the interpolant)
             sc = dp_step(t, s, c)[0]
+            fc = fun(sc) - target
+            tol = 1e-10 * (1.0 + abs(target))
+            if abs(fc) > tol:
+                d = 1e-6 * h
+                sl = (fun(step_to(t, s, c + d)) - fun(step_to(t, s, c))) / d
+                for _ in range(4):
+                    if sl == 0.0:
+                        break
+                    c = min(max(c - fc / sl, 0.0), h)
+                    sc = dp_step(t, s, c)[0]
+                    fc = fun(sc) - target
+                    if abs(fc) <= tol:
+                        break
         return c, sc
 
     # --- initial state ----------------------------------------------------
@@ -1019,6 +1082,7 @@ def simulate(
     went_below = False
 
     last_dg = [None]  # diagnostics of the last recorded state
+    kink_track: list = []  # last three (t, altitude, Mach) samples, to predict kinks
     q_samples: list = []  # last three (t, q, step) samples, for the max-q search
 
     def history_row(t, s, dg, stage):
@@ -1062,6 +1126,10 @@ def simulate(
         der, dg = rhs(t, s, True) if pre is None else pre
         k1_cache[0], k1_cache[1], k1_cache[2] = t, s, der
         last_dg[0] = dg
+        if adaptive:
+            kink_track.append((t, dg[0], dg[2]))
+            if len(kink_track) > 3:
+                del kink_track[0]
         alt, vrel, mach, q, sens, f, dmag, fpa = dg
         if alt < ground - 1.0:
             went_below = True
@@ -1188,6 +1256,9 @@ def simulate(
                 h = min(h_next, dt_max)
                 if remaining <= 1.05 * h:
                     h = remaining
+                hp = predict_kink(t, h)
+                if hp is not None and hp < h:
+                    h = hp
                 try:
                     s1, err, K, k7, dg7 = dp_step(t, s, h)
                 except (ValueError, OverflowError, ZeroDivisionError):
@@ -1201,7 +1272,9 @@ def simulate(
                 # right-hand side has a discontinuous derivative (like the
                 # phase boundaries in time)
                 xk = kink_crossing(last_dg[0], dg7, s, h, K)
-                if xk is not None and xk > 1e-3:
+                # a kink in the first or last percent of a step leaves a
+                # sliver whose error is 1e-4 of a mid-step kink's: keep the step
+                if xk is not None and 1e-2 < xk < 0.99:
                     hk = xk * h
                     s1k, errk, Kk, k7k, dg7k = dp_step(t, s, hk)
                     if errk <= 1.0:
