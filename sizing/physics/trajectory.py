@@ -18,13 +18,28 @@ rocket equation; Sutton & Biblarz, Rocket Propulsion Elements, 9th ed., 2017,
 Sec. 4.1 and eq. 4-6; Curtis, Orbital Mechanics for Engineering Students, 3rd
 ed., 2014, Sec. 11.3). In free space this integrates to dv = c ln(m0/mf).
 
-Integration is classical fixed-step fourth-order Runge-Kutta on plain Python
-floats (no per-step array allocation). The flight is cut into phases at every
-time where the right-hand side is not smooth (ignition, burnout, staging,
-thrust-curve knots, end of vertical rise and pitch kick), so each RK4 step sees
-a smooth right-hand side. Events that depend on the state (rail exit, apogee,
-impact) are located inside a step by regula falsi (Illinois) on a single RK4
-step of variable length.
+Integration (default ``integrator="dopri5"``) is the embedded Dormand-Prince
+5(4) Runge-Kutta pair with local extrapolation, FSAL and step-size control
+(J. R. Dormand, P. J. Prince, J. Comput. Appl. Math. 6, 1980, 19-26; Hairer,
+Norsett & Wanner, Solving Ordinary Differential Equations I, 2nd ed., 1993,
+Sec. II.4-II.6), on plain Python floats. The error norm is the larger of the
+position error over ``rtol * 1e5 m`` and the velocity error over
+``rtol * (10 m/s + |V|)``; the mass is integrated exactly (its rate is linear
+in time) and the loss integrals are quadratures that follow the state. The
+flight is cut into phases at every time where the right-hand side is not smooth
+(ignition, burnout, staging, thrust-curve knots, end of vertical rise and pitch
+kick). Kinks that depend on the state -- the atmosphere's layer boundaries and
+the drag table's Mach knots -- are handled like events: their crossing is
+predicted from the last samples, and a step that still straddles one is cut at
+the crossing located on the step's continuous extension (unless drag and
+pressure thrust are too small over the step to matter at the tolerance). So
+steps are long in vacuum and short only where the right-hand side changes
+fast. Events that depend on the state (rail exit, apogee, impact) are located
+on the continuous extension by regula falsi (Illinois) and the step to them is
+then integrated and polished by secant steps. Max-q is refined between samples
+by Brent's bounded search on the continuous extension. The former fixed-step
+classical RK4 (``integrator="rk4"``, step `max_step_s`, 8x longer above 100 km
+for an ascent) is kept for comparison.
 
 Loss budget
 -----------
@@ -283,7 +298,7 @@ class StageBurnout:
 
 @dataclass(frozen=True, slots=True)
 class FlightHistory:
-    """Time history sampled at every integration step and event (1-D arrays).
+    """Time history sampled at every integration step, event and the refined max-q (1-D arrays).
 
     Columns: t_s [s], altitude_m [m above MSL], downrange_m [m], speed_m_s
     (Earth-relative) [m/s], inertial_speed_m_s [m/s], flight_path_angle_deg
@@ -510,7 +525,11 @@ def simulate(
     """Integrate one flight; `fly_vertical` and `fly_ascent` are the public entry points.
 
     Parameters are those of `fly_vertical` / `fly_ascent`; `profile` is
-    ``"vertical"`` or ``"ascent"``. With `detect_impact` False an ascent that
+    ``"vertical"`` or ``"ascent"``. `integrator` is ``"dopri5"`` (adaptive
+    Dormand-Prince 5(4), see the module docstring; `rtol` [-] sets its
+    tolerance, `max_step_s` caps its step) or ``"rk4"`` (fixed-step classical
+    Runge-Kutta with step `max_step_s`, default 0.5 s for an ascent, times
+    `vacuum_step_factor` above 100 km). With `detect_impact` False an ascent that
     falls below the ground flies on to final burnout (through a vacuum below
     ground), which keeps the end state continuous in the steering parameters
     for the targeting solver; the result then carries a warning.
@@ -845,10 +864,11 @@ def simulate(
         # error norm over position and velocity only: the mass is integrated
         # exactly (mdot linear in t) and the loss integrals are quadratures
         # that follow the state
-        ep = max(abs(e1 * b + e3 * d + e4 * e + e5 * f + e6 * g + e7 * k)
-                 for b, d, e, f, g, k in zip(k1[:3], k3[:3], k4[:3], k5[:3], k6[:3], k7[:3]))
-        ev = max(abs(e1 * b + e3 * d + e4 * e + e5 * f + e6 * g + e7 * k)
-                 for b, d, e, f, g, k in zip(k1[3:6], k3[3:6], k4[3:6], k5[3:6], k6[3:6], k7[3:6]))
+        ex, ey, ez, eu, ev, ew = [
+            e1 * b + e3 * d + e4 * e + e5 * f + e6 * g + e7 * k
+            for b, d, e, f, g, k in zip(k1[:6], k3, k4, k5, k6, k7)]
+        ep = max(abs(ex), abs(ey), abs(ez))
+        ev = max(abs(eu), abs(ev), abs(ew))
         v_scale = _VEL_SCALE_M_S + sqrt(s1[3] * s1[3] + s1[4] * s1[4] + s1[5] * s1[5])
         err = max(ep / (rtol * _POS_SCALE_M), ev / (rtol * v_scale))
         return s1, err, (k1, k3, k4, k5, k6, k7), k7, dg7
@@ -877,16 +897,6 @@ def simulate(
         """Fraction x in (0, 1) of the step where the first atmosphere-layer or
         drag-table knot is crossed, located on the continuous extension; None if none."""
         alt0, alt1 = dg0[0], dg1[0]
-        # a kink changes only the drag and pressure-thrust terms; if those
-        # terms together move the speed by less than the tolerance over the
-        # whole step, the kink cannot spoil it: no cut
-        m_lo = s0[6] if s0[6] < K[0][6] * h + s0[6] else K[0][6] * h + s0[6]
-        alt_lo = alt0 if alt0 < alt1 else alt1
-        p_hi = pds(alt_lo)[0] if alt_lo < atm_top and P_burn else 0.0
-        d_hi = dg0[6] if dg0[6] > dg1[6] else dg1[6]
-        v1 = dg1[1]
-        if h * (d_hi + p_hi * P_ae) / m_lo < rtol * (_VEL_SCALE_M_S + v1):
-            return None
         cands = []
         i0, i1 = bisect_r(alt_kinks, alt0), bisect_r(alt_kinks, alt1)
         if i0 != i1:
@@ -898,6 +908,17 @@ def simulate(
             if j0 != j1 and 0 < min(j0, j1) and max(j0, j1) <= len(P_mach):
                 mb = P_mach[j0] if j1 > j0 else P_mach[j0 - 1]
                 cands.append((mach_of, mb))
+        if not cands:
+            return None
+        # a kink changes only the drag and pressure-thrust terms; if those
+        # terms together move the speed by less than the tolerance over the
+        # whole step, the kink cannot spoil it: no cut
+        m_lo = s0[6] if s0[6] < K[0][6] * h + s0[6] else K[0][6] * h + s0[6]
+        alt_lo = alt0 if alt0 < alt1 else alt1
+        p_hi = pds(alt_lo)[0] if alt_lo < atm_top and P_burn else 0.0
+        d_hi = dg0[6] if dg0[6] > dg1[6] else dg1[6]
+        if h * (d_hi + p_hi * P_ae) / m_lo < rtol * (_VEL_SCALE_M_S + dg1[1]):
+            return None
         best = None
         for fun, target in cands:
             a, b = 0.0, 1.0
@@ -1488,7 +1509,9 @@ def fly_vertical(
     stop_at : {"apogee", "impact", "burnout"}
         Event that ends the simulation after the last burnout.
     max_step_s : float, optional
-        Largest RK4 step [s]; default min(0.5, total burn time / 100).
+        Largest integration step [s]; default none (the adaptive integrator's
+        error control alone sets the step; see the module docstring). A cap
+        gives a denser time history.
     record_history : bool
         Keep the time history (off saves time in optimisation loops).
     acceleration_limit_m_s2 : float, optional

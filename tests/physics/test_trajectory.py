@@ -11,7 +11,7 @@ from hypothesis import strategies as st
 
 from sizing.errors import FieldError
 from sizing.physics.gravity import circular_speed_m_s
-from sizing.physics.trajectory import AscentProfile, fly_ascent, fly_vertical
+from sizing.physics.trajectory import AscentProfile, fly_ascent, fly_vertical, simulate
 from sizing.physics.vehicle import DragCurve, FlightStage, FlightStageSpec, LaunchSite, Vehicle, build_vehicle
 from sizing.units import G0_M_S2, GM_EARTH_M3_S2, R_EARTH_EQ_M
 
@@ -33,6 +33,30 @@ def test_vertical_burn_matches_closed_form_v1():
     assert r.apogee_m == pytest.approx(694591.3, abs=0.1)
     assert r.time_to_apogee_s == pytest.approx(402.36, abs=5e-3)
     assert r.terminated_by == "apogee"
+
+
+@pytest.mark.parametrize("rtol", [1e-7, 1e-9, 1e-11])
+def test_dormand_prince_error_control_vertical_burn_v1(rtol):
+    """Error control of the adaptive Dormand-Prince 5(4) integrator against the closed-form
+    vertical burn (Sutton & Biblarz 9th ed. Ch. 4; check-values.md sec. 4 case V1, computed here
+    from the formulas): burnout speed and altitude, apogee and its time are within rtol
+    (relative), and the error shrinks as rtol is tightened."""
+    c = 250.0 * G0_M_S2
+    m0, mf, mdot, tb = 1000.0, 200.0, 20.0, 40.0
+    vb = c * math.log(m0 / mf) - G0_M_S2 * tb
+    hb = c * tb - (c * mf / mdot) * math.log(m0 / mf) - 0.5 * G0_M_S2 * tb ** 2
+    apogee = hb + vb ** 2 / (2.0 * G0_M_S2)
+
+    def errors(rt):
+        r = simulate(V1, LaunchSite(), profile="vertical", earth="flat", with_drag=False, rtol=rt)
+        b = r.burnouts[0]
+        return (abs(b.speed_m_s - vb) / vb, abs(b.altitude_m - hb) / hb, abs(r.apogee_m - apogee) / apogee,
+                abs(r.time_to_apogee_s - (tb + vb / G0_M_S2)) / (tb + vb / G0_M_S2))
+
+    err = errors(rtol)
+    assert max(err) <= rtol
+    loose = errors(100.0 * rtol)
+    assert err[0] < loose[0] / 10.0 and err[1] < loose[1] / 10.0
 
 
 def test_free_space_reproduces_rocket_equation():
@@ -101,16 +125,20 @@ def _hobby_vehicle(cd_scale: float = 1.0, thrust_n: float = 400.0) -> Vehicle:
     return Vehicle((s,), 0.5)
 
 
-def test_vertical_flight_with_drag_matches_solve_ivp_with_ambiance():
+@pytest.mark.parametrize("max_step_s", [0.002, None])
+def test_vertical_flight_with_drag_matches_solve_ivp_with_ambiance(max_step_s):
     """Independent formulation: the same 1-D equations (m dv/dt = F - D - m g0, D with the same
     C_D table) integrated by scipy.integrate.solve_ivp (rtol 1e-10) with density and speed of
-    sound from the `ambiance` library (ICAO 1993) instead of our atmosphere."""
+    sound from the `ambiance` library (ICAO 1993) instead of our atmosphere. With the default
+    (uncapped) adaptive steps the flight crosses every drag-table knot inside the integration,
+    so this also checks the steps that end on those kinks; max-q is compared with the largest
+    q on solve_ivp's dense output."""
     ambiance = pytest.importorskip("ambiance")
     from scipy.integrate import solve_ivp
 
     v = _hobby_vehicle()
     site = LaunchSite(altitude_m=1200.0)
-    r = fly_vertical(v, site, earth="flat", max_step_s=0.002)
+    r = fly_vertical(v, site, earth="flat", max_step_s=max_step_s)
     st_ = v.stages[0]
     area = v.reference_area_m2(0)
     k = st_.propellant_mass_kg / st_.total_impulse_vac_n_s
@@ -132,13 +160,18 @@ def test_vertical_flight_with_drag_matches_solve_ivp_with_ambiance():
     apogee.terminal, apogee.direction = True, -1
     knots = list(st_.thrust_curve[0])
     y = [site.altitude_m, 0.0, v.gross_mass_kg]
+    q_max = 0.0
     for a, b in zip(knots, knots[1:]):
-        y = solve_ivp(rhs, (a, b), y, rtol=1e-10, atol=1e-10).y[:, -1]
+        sol = solve_ivp(rhs, (a, b), y, rtol=1e-10, atol=1e-10, dense_output=True)
+        h, vel, _ = sol.sol(np.linspace(a, b, 2001))
+        q_max = max(q_max, float(np.max(0.5 * ambiance.Atmosphere(h).density * vel * vel)))
+        y = sol.y[:, -1]
     sol = solve_ivp(rhs, (knots[-1], 200.0), y, rtol=1e-10, atol=1e-10, events=apogee)
     ref_apogee = sol.y_events[0][0][0]
     ref_t = sol.t_events[0][0]
     assert r.apogee_m == pytest.approx(ref_apogee, rel=2e-5)
     assert r.time_to_apogee_s == pytest.approx(ref_t, rel=2e-5)
+    assert r.max_dynamic_pressure_pa == pytest.approx(q_max, rel=1e-4)
 
 
 @settings(max_examples=12, deadline=None)
