@@ -101,6 +101,7 @@ __all__ = [
     "FlightResult",
     "fly_vertical",
     "fly_ascent",
+    "fly_ascent_batch",
     "simulate",
 ]
 
@@ -1721,3 +1722,404 @@ def _target_ascent(run, profile: AscentProfile, max_eval: int, optimize_kick: bo
         feas = [v for v in memo.values() if v[2].initial_pitch_deg is not None and feasible(v)]
         best = max(feas, key=lambda v: v[1].final_inertial_speed_m_s)
     return pack(best)
+
+
+# ---------------------------------------------------------------------------
+# batched ascents: many candidate vehicles in lock-step (numpy)
+# ---------------------------------------------------------------------------
+def _atmosphere_vec(alt_m: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """(p [Pa], rho [kg/m^3], a [m/s]) for an array of altitudes, vacuum outside (0, 300 km).
+
+    The same model as `pressure_density_sound_speed` (US Standard Atmosphere
+    1976 below 86 km via `sizing.physics.atmosphere.atmosphere`; above, the
+    module's log-linear table of pressure and density and the standard's
+    closed-form kinetic temperature, USSA 1976 eqs. 25-31, for the speed of
+    sound).
+    """
+    from sizing.physics.atmosphere import _UP_LNP, _UP_LNRHO, GAMMA_AIR, atmosphere
+    from sizing.physics.atmosphere import _R_AIR as R_AIR
+
+    p = np.zeros_like(alt_m)
+    rho = np.zeros_like(alt_m)
+    a = np.ones_like(alt_m)
+    low = (alt_m > 0.0) & (alt_m < _Z86_M)
+    if low.any():
+        st = atmosphere(alt_m[low])
+        p[low], rho[low], a[low] = st.pressure_Pa, st.density_kg_m3, st.speed_of_sound_m_s
+    high = (alt_m >= _Z86_M) & (alt_m < _ATMOSPHERE_TOP_M)
+    if high.any():
+        z = alt_m[high]
+        p[high] = np.exp(np.interp(z, _UP_Z_M, _UP_LNP))
+        rho[high] = np.exp(np.interp(z, _UP_Z_M, _UP_LNRHO))
+        zk = z * 1e-3
+        x = (zk - 91.0) / -19.9429
+        r0k = R0_GEOPOTENTIAL_M * 1e-3
+        xi = (zk - 120.0) * (r0k + 120.0) / (r0k + zk)
+        t = np.where(zk < 91.0, 186.8673,
+                     np.where(zk < 110.0, 263.1905 - 76.3232 * np.sqrt(np.maximum(0.0, 1.0 - x * x)),
+                              np.where(zk < 120.0, 240.0 + 12.0 * (zk - 110.0),
+                                       1000.0 - 640.0 * np.exp(-0.01875 * xi))))
+        a[high] = np.sqrt(GAMMA_AIR * R_AIR * t)
+    return p, rho, a
+
+
+def fly_ascent_batch(
+    vehicles,
+    site: LaunchSite,
+    profiles=None,
+    *,
+    rotating: bool = True,
+    with_drag: bool = True,
+    max_step_s: float = 0.5,
+    vacuum_step_factor: float = 8.0,
+) -> tuple[FlightResult, ...]:
+    """Fly many candidate vehicles at once, in lock-step on numpy arrays (trade studies).
+
+    The equations, steering laws and loss budget are those of `fly_ascent`
+    (round rotating Earth, final burnout ends the flight, no history, no impact
+    event: a candidate that falls below ground flies on in vacuum and carries
+    the impact warning, as in the targeting runs of `fly_ascent`). Each
+    candidate's flight is cut into the same sequence of smooth phases; phase k
+    of every candidate is integrated over its own time interval mapped onto a
+    common normalised time, with classical fixed-step fourth-order Runge-Kutta
+    (Hairer, Norsett & Wanner, Solving Ordinary Differential Equations I, 2nd
+    ed., 1993, Sec. II.1): as many steps as the longest candidate's phase needs
+    at `max_step_s` [s] (times `vacuum_step_factor` once every candidate is
+    above 100 km). Max-q and max acceleration are sampled at the step ends.
+
+    Parameters
+    ----------
+    vehicles : sequence of Vehicle
+        Same number of stages, constant thrust (no thrust curve).
+    site : LaunchSite
+    profiles : AscentProfile or sequence of AscentProfile, optional
+        One for all or one per vehicle; no `target_altitude_m`; the same
+        `steering` and `steer_from_stage` for all.
+
+    Returns
+    -------
+    tuple of FlightResult
+        One per vehicle, in order (empty `history`).
+
+    Raises
+    ------
+    FieldError
+        If a vehicle cannot lift off, or the candidates do not share the
+        phase structure (then fly them one by one with `fly_ascent`).
+    """
+    vehicles = list(vehicles)
+    n = len(vehicles)
+    if n == 0:
+        return ()
+    if profiles is None or isinstance(profiles, AscentProfile):
+        profs = [profiles or AscentProfile()] * n
+    else:
+        profs = list(profiles)
+        if len(profs) != n:
+            raise FieldError("profiles", f"must be one profile or {n} (one per vehicle).", len(profs))
+    if any(p.target_altitude_m is not None for p in profs):
+        raise FieldError("profiles.target_altitude_m", "must be None in a batch (use fly_ascent).", "set")
+    n_st = len(vehicles[0].stages)
+    for v in vehicles:
+        if len(v.stages) != n_st:
+            raise FieldError("vehicles", f"must all have {n_st} stages.", len(v.stages))
+        for st in v.stages:
+            if st.thrust_curve is not None or st.propellant_mass_curve is not None:
+                raise FieldError(f"stages.{st.name}.thrust_curve", "must be None in a batch.", "table")
+    steering = {p.steering for p in profs}
+    steer_from = {p.steer_from_stage for p in profs}
+    if len(steering) > 1 or len(steer_from) > 1:
+        raise FieldError("profiles.steering", "must be the same law and start stage for all.", sorted(steering))
+    steering = steering.pop()
+    steer_from = steer_from.pop()
+
+    mu, R = GM_EARTH_M3_S2, R_EARTH_EQ_M
+    w = OMEGA_EARTH_RAD_S if rotating else 0.0
+    lat, az = math.radians(site.latitude_deg), math.radians(site.azimuth_deg)
+    cl, sl = math.cos(lat), math.sin(lat)
+    h0 = site.altitude_m
+    r0 = np.array([(R + h0) * cl, 0.0, (R + h0) * sl])
+    north0, east0 = np.array([-sl, 0.0, cl]), np.array([0.0, 1.0, 0.0])
+    azd = math.cos(az) * north0 + math.sin(az) * east0
+    p_site = pressure_density_sound_speed(h0)[0]
+
+    # per-vehicle phases (the scalar simulator's schedule) and a common structure
+    warn_all: list[list[str]] = [[] for _ in range(n)]
+    tw_lift = np.empty(n)
+    sched = []
+    for i, (v, pr) in enumerate(zip(vehicles, profs)):
+        st0 = v.stages[0]
+        weight0 = v.gross_mass_kg * G0_M_S2
+        f_lift = st0.thrust_at(0.0, p_site)
+        if f_lift <= weight0:
+            raise FieldError(
+                f"stages.{st0.name}.thrust",
+                "liftoff thrust-to-weight must be > 1 (peak thrust at the site over m0 g0).",
+                round(f_lift / weight0, 4),
+            )
+        tw_lift[i] = f_lift / weight0
+        if st0.coast_before_ignition_s > 0:
+            warn_all[i].append(
+                f"stages.{st0.name}.coast_before_ignition_s is ignored for an ascent "
+                "(the clock starts at first-stage ignition)."
+            )
+        windows = _stage_windows(v, ignore_first_coast=True)
+        t_vert, t_kick = pr.vertical_rise_s, pr.vertical_rise_s + pr.kick_duration_s
+        extra = [t_vert, t_kick]
+        steer_start = None
+        if steering != "gravity_turn":
+            names = [s.name for s in v.stages]
+            if steer_from is None:
+                k = min(1, n_st - 1)
+            elif steer_from in names:
+                k = names.index(steer_from)
+            else:
+                raise FieldError("profile.steer_from_stage", f"must be one of {names}.", steer_from)
+            steer_start = windows[k][0]
+            extra.append(steer_start)
+        phases = _build_phases(v, windows, extra)
+        for ph in phases:
+            mid = 0.5 * (ph.t0 + ph.t1)
+            if mid < t_vert:
+                ph.steer = _UP
+            elif mid < t_kick:
+                ph.steer = _KICK
+            elif steer_start is not None and mid >= steer_start:
+                ph.steer = _LTG if steering == "linear_tangent" else _PRATE
+            else:
+                ph.steer = _PRO
+        sched.append((phases, steer_start, windows[-1][1]))
+    shape0 = [(ph.stage, ph.burning, ph.burnout_of, ph.steer) for ph in sched[0][0]]
+    for phases, _, _ in sched[1:]:
+        if [(ph.stage, ph.burning, ph.burnout_of, ph.steer) for ph in phases] != shape0:
+            raise FieldError("vehicles", "must share the order of ignitions, burnouts and steering "
+                             "events to fly in one batch (fly them with fly_ascent).", "mixed")
+
+    kick = np.radians([p.pitch_kick_deg for p in profs])
+    kick_s, kick_c = np.sin(kick), np.cos(kick)
+    steer_t0 = np.array([s[1] if s[1] is not None else 0.0 for s in sched])
+    t_final = np.array([s[2] for s in sched])
+    span = np.maximum(t_final - steer_t0, 1e-9)
+    thf = np.radians([p.final_pitch_deg for p in profs])
+    tanf = np.tan(thf)
+    th0 = np.zeros(n)
+    tan0 = np.zeros(n)
+    plane_n = None
+    if any(p.plane_azimuth_deg is not None for p in profs):
+        up0 = np.array([cl, 0.0, sl])
+        plane_n = np.empty((3, n))
+        for i, p in enumerate(profs):
+            bp = math.radians(p.plane_azimuth_deg if p.plane_azimuth_deg is not None else site.azimuth_deg)
+            dp = math.cos(bp) * north0 + math.sin(bp) * east0
+            nv = np.cross(up0, dp)
+            plane_n[:, i] = nv / np.linalg.norm(nv)
+        use_plane = np.array([p.plane_azimuth_deg is not None for p in profs])
+
+    def rhs(t, Y, P):
+        x, y, z, vx, vy, vz, m = Y[0], Y[1], Y[2], Y[3], Y[4], Y[5], Y[6]
+        r2 = x * x + y * y + z * z
+        r = np.sqrt(r2)
+        upx, upy, upz = x / r, y / r, z / r
+        alt = r - R
+        gk = -mu / (r2 * r)
+        gx, gy, gz = gk * x, gk * y, gk * z
+        vrx, vry, vrz = vx + w * y, vy - w * x, vz
+        vrel2 = vrx * vrx + vry * vry + vrz * vrz
+        vrel = np.sqrt(vrel2)
+        p_a, rho, a_s = _atmosphere_vec(alt)
+        if P["burn"]:
+            fv = P["f"]
+            f = np.maximum(fv - p_a * P["ae"], 0.0)
+            mdot = P["mdot"]
+        else:
+            fv = f = mdot = np.zeros(n)
+        mach = vrel / a_s
+        if with_drag:
+            cd = np.empty(n)
+            for (mt, ct), idx in P["tables"]:
+                cd[idx] = np.interp(mach[idx], mt, ct)
+            dmag = 0.5 * rho * vrel2 * cd * P["aref"]
+        else:
+            dmag = np.zeros(n)
+        mode = P["steer"]
+        safe = vrel > 1e-6
+        vinv = 1.0 / np.where(safe, vrel, 1.0)
+        if mode == _PRO:
+            tx = np.where(safe, vrx * vinv, upx)
+            ty = np.where(safe, vry * vinv, upy)
+            tz = np.where(safe, vrz * vinv, upz)
+        elif mode == _UP:
+            tx, ty, tz = upx, upy, upz
+        elif mode == _KICK:
+            dd = azd[0] * upx + azd[1] * upy + azd[2] * upz
+            hx, hy, hz = azd[0] - dd * upx, azd[1] - dd * upy, azd[2] - dd * upz
+            hn = np.sqrt(hx * hx + hy * hy + hz * hz)
+            tx = kick_c * upx + kick_s * hx / hn
+            ty = kick_c * upy + kick_s * hy / hn
+            tz = kick_c * upz + kick_s * hz / hn
+        else:
+            frac = (t - steer_t0) / span
+            th = np.arctan(tan0 + (tanf - tan0) * frac) if mode == _LTG else th0 + (thf - th0) * frac
+            vu = vx * upx + vy * upy + vz * upz
+            hx, hy, hz = vx - vu * upx, vy - vu * upy, vz - vu * upz
+            if plane_n is not None:
+                px = plane_n[1] * upz - plane_n[2] * upy
+                py = plane_n[2] * upx - plane_n[0] * upz
+                pz = plane_n[0] * upy - plane_n[1] * upx
+                hx, hy, hz = np.where(use_plane, px, hx), np.where(use_plane, py, hy), np.where(use_plane, pz, hz)
+            hn = np.sqrt(hx * hx + hy * hy + hz * hz)
+            ok = hn > 0.0
+            hinv = 1.0 / np.where(ok, hn, 1.0)
+            hx = np.where(ok, hx * hinv, azd[0])
+            hy = np.where(ok, hy * hinv, azd[1])
+            hz = np.where(ok, hz * hinv, azd[2])
+            c_, s_ = np.cos(th), np.sin(th)
+            tx, ty, tz = c_ * hx + s_ * upx, c_ * hy + s_ * upy, c_ * hz + s_ * upz
+        im = 1.0 / m
+        vhx = np.where(safe, vrx * vinv, tx)
+        vhy = np.where(safe, vry * vinv, ty)
+        vhz = np.where(safe, vrz * vinv, tz)
+        fm = f * im
+        dm = dmag * im
+        sx, sy, sz = fm * tx - dm * vhx, fm * ty - dm * vhy, fm * tz - dm * vhz
+        der = np.array([
+            vx, vy, vz, sx + gx, sy + gy, sz + gz, -mdot,
+            -(gx * vhx + gy * vhy + gz * vhz), dm, fm * (1.0 - (tx * vhx + ty * vhy + tz * vhz)),
+            (fv - f) * im, fv * im, w * w * (x * vhx + y * vhy),
+        ])
+        diag = (alt, vrel, 0.5 * rho * vrel2, np.sqrt(sx * sx + sy * sy + sz * sz), upx, upy, upz)
+        return der, diag
+
+    # --- initial state ----------------------------------------------------
+    m0 = np.array([v.gross_mass_kg for v in vehicles])
+    Y = np.zeros((13, n))
+    Y[0], Y[1], Y[2] = r0[0], r0[1], r0[2]
+    Y[3], Y[4] = -w * r0[1], w * r0[0]
+    Y[6] = m0
+    maxq = np.zeros(n)
+    maxq_t = np.zeros(n)
+    maxq_alt = np.full(n, h0)
+    max_acc = np.zeros(n)
+    min_alt = np.full(n, h0)
+    acc_prev = np.zeros((6, n))
+    speed_prev = np.zeros(n)
+    burnouts: list[list[StageBurnout]] = [[] for _ in range(n)]
+    budget_Y = None
+    dt_max = float(max_step_s)
+
+    def sample(t, Y, P):
+        der, dg = rhs(t, Y, P)
+        alt, _, q, sens = dg[0], dg[1], dg[2], dg[3]
+        better = q > maxq
+        maxq[better], maxq_t[better], maxq_alt[better] = q[better], t[better], alt[better]
+        np.maximum(max_acc, sens, out=max_acc)
+        np.minimum(min_alt, alt, out=min_alt)
+        return der, dg
+
+    for k in range(len(shape0)):
+        phs = [s[0][k] for s in sched]
+        ph0 = phs[0]
+        T0 = np.array([ph.t0 for ph in phs])
+        T1 = np.array([ph.t1 for ph in phs])
+        D = T1 - T0
+        stage_i = ph0.stage
+        tables: dict = {}
+        for i, v in enumerate(vehicles):
+            d = v.stages[stage_i].drag
+            tables.setdefault((d.mach, d.cd), []).append(i)
+        P = {
+            "burn": ph0.burning,
+            "f": np.array([ph.f_a for ph in phs]),
+            "mdot": np.array([ph.m_a for ph in phs]),
+            "ae": np.array([v.stages[stage_i].exit_area_m2 for v in vehicles]),
+            "aref": np.array([v.reference_area_m2(stage_i) for v in vehicles]),
+            "tables": [((np.asarray(mt), np.asarray(ct)), np.asarray(idx)) for (mt, ct), idx in tables.items()],
+            "steer": ph0.steer,
+        }
+        if ph0.steer in (_LTG, _PRATE) and np.all(np.abs(T0 - steer_t0) < 1e-9):
+            rr = np.sqrt(Y[0] ** 2 + Y[1] ** 2 + Y[2] ** 2)
+            vv = np.sqrt(Y[3] ** 2 + Y[4] ** 2 + Y[5] ** 2)
+            gam = np.arcsin(np.clip((Y[0] * Y[3] + Y[1] * Y[4] + Y[2] * Y[5]) / (rr * vv), -1.0, 1.0))
+            for i, p in enumerate(profs):
+                if p.initial_pitch_deg is not None:
+                    gam[i] = math.radians(p.initial_pitch_deg)
+            th0[:] = gam
+            tan0[:] = np.tan(gam)
+        alt_now = np.sqrt(Y[0] ** 2 + Y[1] ** 2 + Y[2] ** 2) - R
+        dt_here = dt_max * (vacuum_step_factor if np.all(alt_now > _VACUUM_ALT_M) else 1.0)
+        nsteps = max(1, math.ceil(float(np.max(D)) / dt_here - 1e-9))
+        hs = D / nsteps
+        for j in range(nsteps):
+            t = T0 + j * hs
+            k1 = sample(t, Y, P)[0] if j > 0 or k == 0 else rhs(t, Y, P)[0]
+            k2 = rhs(t + 0.5 * hs, Y + (0.5 * hs) * k1, P)[0]
+            k3 = rhs(t + 0.5 * hs, Y + (0.5 * hs) * k2, P)[0]
+            k4 = rhs(t + hs, Y + hs * k3, P)[0]
+            Y = Y + (hs / 6.0) * (k1 + 2.0 * (k2 + k3) + k4)
+        _, dg = sample(T1, Y, P)
+        if ph0.burnout_of >= 0:
+            i_st = ph0.burnout_of
+            alt, vrel, upx, upy, upz = dg[0], dg[1], dg[4], dg[5], dg[6]
+            vrx, vry, vrz = Y[3] + w * Y[1], Y[4] - w * Y[0], Y[5]
+            fpa = np.degrees(np.arcsin(np.clip((vrx * upx + vry * upy + vrz * upz) / np.where(vrel > 0, vrel, 1.0),
+                                               -1.0, 1.0)))
+            fpa = np.where(vrel > 0, fpa, 90.0)
+            d_acc = Y[7:13] - acc_prev
+            v_in = np.sqrt(Y[3] ** 2 + Y[4] ** 2 + Y[5] ** 2)
+            c, sn = np.cos(w * T1), np.sin(w * T1)
+            sx, sy, sz = c * r0[0] - sn * r0[1], sn * r0[0] + c * r0[1], np.full(n, r0[2])
+            cx, cy, cz = Y[1] * sz - Y[2] * sy, Y[2] * sx - Y[0] * sz, Y[0] * sy - Y[1] * sx
+            down = R * np.arctan2(np.sqrt(cx * cx + cy * cy + cz * cz), Y[0] * sx + Y[1] * sy + Y[2] * sz)
+            for i, v in enumerate(vehicles):
+                burnouts[i].append(StageBurnout(
+                    stage=v.stages[i_st].name, time_s=float(T1[i]), altitude_m=float(alt[i]),
+                    downrange_m=float(down[i]), speed_m_s=float(vrel[i]), inertial_speed_m_s=float(v_in[i]),
+                    flight_path_angle_deg=float(fpa[i]), mass_kg=float(Y[6, i]),
+                    ideal_delta_v_m_s=float(d_acc[4, i]), speed_gain_m_s=float(vrel[i] - speed_prev[i]),
+                    losses_m_s=MappingProxyType(dict(zip(LOSS_KEYS, (float(u) for u in d_acc[:4, i])))),
+                    centrifugal_m_s=float(d_acc[5, i]),
+                ))
+            acc_prev = Y[7:13].copy()
+            speed_prev = vrel.copy()
+            if i_st < n_st - 1:
+                Y[6] = [v.ignition_mass_kg(i_st + 1) for v in vehicles]
+            else:
+                budget_Y = Y.copy()
+                Y[6] = [v.payload_mass_kg + v.stages[i_st].structural_mass_kg for v in vehicles]
+
+    sb = budget_Y if budget_Y is not None else Y
+    v_in = np.sqrt(sb[3] ** 2 + sb[4] ** 2 + sb[5] ** 2)
+    vrx, vry, vrz = sb[3] + w * sb[1], sb[4] - w * sb[0], sb[5]
+    v_rel = np.sqrt(vrx * vrx + vry * vry + vrz * vrz)
+    bonus = (v_in - v_rel) + sb[12] if w != 0.0 else np.zeros(n)
+    out = []
+    empty = FlightHistory(**{k: np.zeros(0, dtype=(np.int64 if k == "stage_index" else float))
+                             for k in FlightHistory.COLUMNS})
+    for i in range(n):
+        x, y, z, vx, vy, vz = (float(u) for u in Y[:6, i])
+        r = math.sqrt(x * x + y * y + z * z)
+        v_s = math.sqrt(vx * vx + vy * vy + vz * vz)
+        gam = math.asin(max(-1.0, min(1.0, (x * vx + y * vy + z * vz) / (r * v_s))))
+        hx, hy, hz = y * vz - z * vy, z * vx - x * vz, x * vy - y * vx
+        hn = math.sqrt(hx * hx + hy * hy + hz * hz)
+        inc = math.degrees(math.acos(max(-1.0, min(1.0, hz / hn)))) if hn > 0 else math.nan
+        losses = {k_: float(u) for k_, u in zip(LOSS_KEYS, sb[7:11, i])}
+        ideal = float(sb[11, i])
+        residual = ideal - (float(v_in[i]) - float(bonus[i]) + sum(losses.values()))
+        warns = list(warn_all[i])
+        terminated = "burnout"
+        if min_alt[i] < h0 - 1.0:
+            terminated = "impact"
+            warns.append("the vehicle fell back to the ground before final burnout.")
+        out.append(FlightResult(
+            profile="ascent", terminated_by=terminated, apogee_m=math.nan, time_to_apogee_s=math.nan,
+            rail_exit_speed_m_s=math.nan, rail_exit_time_s=math.nan,
+            max_dynamic_pressure_pa=float(maxq[i]), max_q_time_s=float(maxq_t[i]),
+            max_q_altitude_m=float(maxq_alt[i]), max_acceleration_m_s2=float(max_acc[i]),
+            liftoff_thrust_to_weight=float(tw_lift[i]), impact_time_s=math.nan, impact_downrange_m=math.nan,
+            orbit=orbit_elements(r, v_s, gam, inclination_deg=inc), burnouts=tuple(burnouts[i]),
+            ideal_delta_v_m_s=ideal, losses_m_s=MappingProxyType(losses), rotation_bonus_m_s=float(bonus[i]),
+            final_inertial_speed_m_s=float(v_in[i]), budget_residual_m_s=residual, ascent_profile=profs[i],
+            targeting_residual=(), warnings=tuple(warns), history=empty,
+        ))
+    return tuple(out)
