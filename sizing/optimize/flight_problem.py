@@ -182,12 +182,14 @@ def design_vehicle(problem: Problem) -> Vehicle:
 
 
 def _fly(vehicle: Vehicle, problem: Problem, *, record_history: bool = True) -> FlightResult:
+    # a step cap keeps the recorded history dense enough to plot (the adaptive
+    # integrator would otherwise take very long steps in coasts)
     site = launch_site(problem)
     if profile_of(problem) == "vertical":
         return fly_vertical(vehicle, site, earth="round", record_history=record_history,
-                            acceleration_limit_m_s2=problem.max_acceleration_m_s2)
+                            acceleration_limit_m_s2=problem.max_acceleration_m_s2, max_step_s=0.5)
     return fly_ascent(vehicle, site, ascent_profile(problem), record_history=record_history,
-                      acceleration_limit_m_s2=problem.max_acceleration_m_s2)
+                      acceleration_limit_m_s2=problem.max_acceleration_m_s2, max_step_s=2.0)
 
 
 def fly_problem(problem: Problem) -> tuple[Vehicle, FlightResult]:
