@@ -11,9 +11,10 @@ from hypothesis import strategies as st
 
 from sizing.physics.atmosphere import atmosphere, geopotential_altitude_m
 
-# shared/reference/check-values.md section 2.2: USSA 1976 Table I values at
-# geometric altitude (tag L: fluids.atmosphere.ATMOSPHERE_1976; they match the
-# standard's Table I as remembered, tag M), printed to 6 significant figures.
+# US Standard Atmosphere 1976 (NOAA-S/T 76-1562), Table I values at geometric
+# altitude, computed with fluids.atmosphere.ATMOSPHERE_1976 (fluids 1.3.1); that
+# they match the printed Table I is from memory. 6 significant figures.
+# (Tabulated in the project's shared check values, sec. 2.2.)
 TABLE_I = [
     # Z [m], T [K], p [Pa], rho [kg/m^3], a [m/s]
     (0.0, 288.150, 101325.0, 1.22500, 340.294),
@@ -31,7 +32,9 @@ TABLE_I = [
 
 @pytest.mark.parametrize("z, t, p, rho, a", TABLE_I)
 def test_atmosphere_matches_ussa1976_table(z, t, p, rho, a):
-    """USSA 1976 (NOAA-S/T 76-1562) Table I via check-values.md sec. 2.2; 6 s.f., so rel 2e-5."""
+    """US Standard Atmosphere 1976 (NOAA-S/T 76-1562), Table I values via
+    fluids.atmosphere.ATMOSPHERE_1976 (fluids 1.3.1); match to the printed table from memory.
+    6 s.f., so rel 2e-5. (Tabulated in the project's shared check values, sec. 2.2.)"""
     s = atmosphere(z)
     assert s.temperature_K == pytest.approx(t, rel=2e-5)
     assert s.pressure_Pa == pytest.approx(p, rel=2e-5)
@@ -45,8 +48,10 @@ def test_atmosphere_matches_ussa1976_table(z, t, p, rho, a):
      (51000, 66.9389), (71000, 3.95642), (80000, 0.886280)],
 )
 def test_atmosphere_layer_base_pressures(h, p):
-    """Layer-base pressures at exact geopotential heights, check-values.md sec. 2.2 (L: fluids,
-    ambiance and pystdatm agree to 1e-5)."""
+    """US Standard Atmosphere 1976 layer-base pressures at exact geopotential heights, computed
+    with fluids.atmosphere.ATMOSPHERE_1976 (fluids 1.3.1), ambiance.Atmosphere (ambiance 1.3.1,
+    ICAO 1993) and pystdatm 0.2.2, which agree to 1e-5; r0 = 6 356 766 m is the USSA 1976
+    geopotential Earth radius. (Tabulated in the project's shared check values, sec. 2.2.)"""
     # geometric altitude whose geopotential altitude is h
     r0 = 6356766.0
     z = r0 * h / (r0 - h)
@@ -55,8 +60,9 @@ def test_atmosphere_layer_base_pressures(h, p):
 
 
 def test_atmosphere_agrees_with_ambiance_below_81_km():
-    """Independent library: ambiance 1.3.1 (ICAO 1993 = USSA 1976 below 80 km geopotential),
-    which check-values.md sec. 2.3 found to agree with fluids to 2e-6."""
+    """Independent library: ambiance.Atmosphere (ambiance 1.3.1; ICAO Standard Atmosphere 1993,
+    identical to USSA 1976 below 80 km geopotential). It agrees with fluids 1.3.1 to 2e-6
+    (noted in the project's shared check values, sec. 2.3)."""
     ambiance = pytest.importorskip("ambiance")
     z = np.linspace(-5000.0, 81000.0, 173)
     ref = ambiance.Atmosphere(z)
@@ -69,7 +75,8 @@ def test_atmosphere_agrees_with_ambiance_below_81_km():
 
 
 def test_atmosphere_agrees_with_fluids_to_86_km():
-    """Independent library: fluids.atmosphere.ATMOSPHERE_1976 (USSA 1976, valid to 86 km)."""
+    """Independent library: fluids.atmosphere.ATMOSPHERE_1976 (fluids 1.3.1; US Standard
+    Atmosphere 1976, valid to 86 km)."""
     fluids_atm = pytest.importorskip("fluids.atmosphere")
     for z in np.linspace(-610.0, 85990.0, 61):
         ref = fluids_atm.ATMOSPHERE_1976(float(z))
@@ -86,8 +93,10 @@ def test_atmosphere_agrees_with_fluids_to_86_km():
      (150e3, 634.39, 4.542e-4, 2.075e-9)],
 )
 def test_atmosphere_above_86_km_matches_pyatmos_values(z, t, p, rho):
-    """check-values.md sec. 2.2 upper table (L: pyatmos.coesa76 polynomial fits of USSA 1976).
-    Our model is a log-linear fit to Table I nodes, so 1 % is the claim."""
+    """US Standard Atmosphere 1976 above 86 km, values computed with pyatmos.coesa76
+    (pyatmos 1.2.7, polynomial fits of the standard's tables). Our model is a log-linear fit to
+    Table I nodes, so 1 % is the claim. (Tabulated in the project's shared check values,
+    sec. 2.2.)"""
     s = atmosphere(z)
     assert s.temperature_K == pytest.approx(t, abs=0.05)
     assert s.pressure_Pa == pytest.approx(p, rel=1e-2)
@@ -95,7 +104,8 @@ def test_atmosphere_above_86_km_matches_pyatmos_values(z, t, p, rho):
 
 
 def test_atmosphere_scalar_and_vector_agree():
-    """The scalar fast path and the numpy path are the same model."""
+    """The scalar fast path and the numpy path are the same model (consistency check, no
+    external source)."""
     z = np.array([-600.0, 0.0, 10999.0, 11001.0, 50000.0, 84000.0, 85999.0, 86000.0, 1.2e5, 5e5, 2e6])
     v = atmosphere(z)
     for i, zi in enumerate(z):
@@ -105,7 +115,8 @@ def test_atmosphere_scalar_and_vector_agree():
 
 
 def test_atmosphere_continuous_at_86_km():
-    """Pressure and density join the upper fit without a jump (kinetic T differs by M/M0 only)."""
+    """Pressure and density join the upper fit without a jump (kinetic T differs by M/M0 only).
+    Consistency check, no external source."""
     lo, hi = atmosphere(86000.0 - 1e-3), atmosphere(86000.0 + 1e-3)
     assert hi.pressure_Pa == pytest.approx(lo.pressure_Pa, rel=1e-6)
     assert hi.density_kg_m3 == pytest.approx(lo.density_kg_m3, rel=1e-6)
@@ -115,7 +126,8 @@ def test_atmosphere_continuous_at_86_km():
 @settings(max_examples=40)
 @given(z1=st.floats(-5000.0, 1.5e6), dz=st.floats(1.0, 1e5))
 def test_atmosphere_pressure_and_density_decrease_with_altitude(z1, dz):
-    """Property: hydrostatic balance makes p and rho strictly decrease upwards."""
+    """Property: hydrostatic balance makes p and rho strictly decrease upwards (hydrostatic
+    equation dp/dz = -rho g, as used by US Standard Atmosphere 1976)."""
     a, b = atmosphere(z1), atmosphere(z1 + dz)
     assert b.pressure_Pa < a.pressure_Pa
     assert b.density_kg_m3 < a.density_kg_m3
