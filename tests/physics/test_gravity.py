@@ -20,20 +20,26 @@ from sizing.units import GM_EARTH_M3_S2, R_EARTH_EQ_M
 
 @pytest.mark.parametrize("alt, v", [(200e3, 7784.26), (300e3, 7725.76), (400e3, 7668.56)])
 def test_circular_speed_matches_check_values(alt, v):
-    """check-values.md sec. 3 (C from WGS 84 a and GM; Curtis 3rd ed. eq. 2.63 gives 7.7843 km/s
-    at 200 km with mu = 398600 km^3/s^2)."""
+    """Circular speed v = sqrt(GM/r) from WGS 84 GM = 3.986004418e14 m^3/s^2 and equatorial
+    radius a = 6 378 137 m (constants from memory); speeds computed from these published inputs.
+    (Tabulated in the project's shared check values, sec. 3.)"""
     assert circular_speed_m_s(alt) == pytest.approx(v, abs=0.01)
 
 
 def test_circular_speed_curtis_constants():
-    """Curtis, Orbital Mechanics for Engineering Students, 3rd ed.: mu = 398600 km^3/s^2,
-    R = 6378 km, 200 km circular orbit 7.7843 km/s (check-values.md sec. 3)."""
+    """Curtis, Orbital Mechanics for Engineering Students, 3rd ed., circular-orbit speed
+    v = sqrt(mu/r) with the book's mu = 398600 km^3/s^2 and R = 6378 km (constants and equation
+    from memory); 7.7843 km/s at 200 km computed from these inputs. (Tabulated in the project's
+    shared check values, sec. 3.)"""
     v = circular_speed_m_s(200e3, gm_m3_s2=3.986e14, radius_m=6378e3)
     assert v / 1000 == pytest.approx(7.7843, abs=5e-5)
 
 
 def test_surface_gravity_and_rotation_speed():
-    """check-values.md sec. 3 (C): GM/a^2 = 9.79829 m/s^2; equatorial omega a = 465.10 m/s."""
+    """WGS 84 GM, equatorial radius a and rotation rate omega = 7.292115e-5 rad/s (constants from
+    memory; omega equals 2 pi / 86 164.0905 s, one sidereal day); GM/a^2 = 9.79829 m/s^2 and
+    omega a = 465.10 m/s computed from these inputs, omega a cos(lat) at 60 deg. (Tabulated in
+    the project's shared check values, sec. 3.)"""
     assert gravity_m_s2(0.0) == pytest.approx(9.79829, abs=1e-5)
     assert site_rotation_speed_m_s(0.0) == pytest.approx(465.10, abs=0.01)
     assert site_rotation_speed_m_s(60.0) == pytest.approx(465.10 / 2, abs=0.01)
@@ -52,15 +58,17 @@ def _inclination_of_launch(lat_deg: float, az_deg: float) -> float:
 
 @pytest.mark.parametrize("lat, inc", [(0.0, 0.0), (28.5, 28.5), (28.5, 51.6), (45.0, 98.0), (5.2, 90.0)])
 def test_launch_azimuth_gives_the_inclination(lat, inc):
-    """Spherical trigonometry (Napier) checked by vector geometry: the plane spanned by the site
-    radius and the inertial heading has the requested inclination (h_z/|h| = cos i)."""
+    """Spherical trigonometry (Napier's rules, cos i = cos(lat) sin(az)) checked by vector
+    geometry: the plane spanned by the site radius and the inertial heading has the requested
+    inclination (h_z/|h| = cos i). Textbook geometry, independent computation in the test."""
     az = launch_azimuth_deg(lat, inc)
     assert _inclination_of_launch(lat, az) == pytest.approx(inc, abs=1e-9)
 
 
 def test_launch_azimuth_rotation_correction():
     """Adding the site's eastward rotation speed to the relative velocity along the corrected
-    azimuth gives an inertial velocity along the inertial azimuth with the orbit speed."""
+    azimuth gives an inertial velocity along the inertial azimuth with the orbit speed
+    (Galilean velocity addition, re-derived in the test; consistency check, no external source)."""
     lat, inc, v = 28.5, 51.6, circular_speed_m_s(200e3)
     beta_i = math.radians(launch_azimuth_deg(lat, inc))
     beta = math.radians(launch_azimuth_deg(lat, inc, orbit_speed_m_s=v))
@@ -79,8 +87,9 @@ def test_launch_azimuth_below_latitude_is_an_error():
 
 
 def test_orbit_elements_circular_and_elliptic():
-    """Curtis 3rd ed. eqs. 2.71 (vis-viva) and 2.31: perigee speed of an ellipse with r_p, r_a is
-    sqrt(2 mu r_a / (r_p (r_p + r_a)))."""
+    """Curtis, Orbital Mechanics for Engineering Students, 3rd ed., ch. 2: vis-viva equation and
+    the orbit equation r = p / (1 + e cos theta) (equation numbers 2.71 and 2.31 from memory):
+    perigee speed of an ellipse with r_p, r_a is sqrt(2 mu r_a / (r_p (r_p + r_a)))."""
     mu = GM_EARTH_M3_S2
     rp, ra = R_EARTH_EQ_M + 200e3, R_EARTH_EQ_M + 2000e3
     vp = math.sqrt(2 * mu * ra / (rp * (rp + ra)))
