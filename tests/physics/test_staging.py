@@ -91,8 +91,8 @@ def test_optimal_mass_ratios_identical_stages_match_closed_form(n_stages):
 @pytest.mark.parametrize("n_stages, expected", [(2, 0.018717), (3, 0.026369), (4, 0.029303)])
 def test_identical_stages_payload_fraction_inverse_closed_form(n_stages, expected):
     """Identical-stage closed form, K. Niemeyer, Rocket Propulsion (open textbook, Oregon State
-    University), page "Rocket staging"; v = 9000 m/s, c = 3000 m/s, eps = 0.1; values computed from the book's formula. (Tabulated in
-    the project's shared check values, sec. 1.3.)"""
+    University), page "Rocket staging"; v = 9000 m/s, c = 3000 m/s, eps = 0.1; values computed
+    from the book's formula. (Tabulated in the project's shared check values, sec. 1.3.)"""
     assert identical_stages_payload_fraction(n_stages, 3000.0, 0.1, 9000.0) == pytest.approx(expected, abs=2e-6)
     sol = optimal_mass_ratios([3000.0] * n_stages, [0.1] * n_stages, 9000.0)
     assert math.exp(-sol.log_growth) == pytest.approx(expected, abs=2e-6)
@@ -101,7 +101,8 @@ def test_identical_stages_payload_fraction_inverse_closed_form(n_stages, expecte
 def test_optimal_mass_ratios_single_stage_unreachable_raises():
     """N = 1, v = 9000 m/s, c = 3000 m/s, eps = 0.1: e^-3 = 0.0498 < eps, unreachable
     (single-stage limit of the closed form in K. Niemeyer, Rocket Propulsion, open textbook,
-    Oregon State University, page "Rocket staging"; computed. Tabulated in the project's shared check values, sec. 1.3.)"""
+    Oregon State University, page "Rocket staging"; computed. Tabulated in the project's
+    shared check values, sec. 1.3.)"""
     assert max_ideal_delta_v([3000.0], [0.1]) < 9000.0
     with pytest.raises(ValueError, match="supremum"):
         optimal_mass_ratios([3000.0], [0.1], 9000.0)
