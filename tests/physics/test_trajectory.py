@@ -15,15 +15,20 @@ from sizing.physics.trajectory import AscentProfile, fly_ascent, fly_ascent_batc
 from sizing.physics.vehicle import DragCurve, FlightStage, FlightStageSpec, LaunchSite, Vehicle, build_vehicle
 from sizing.units import G0_M_S2, GM_EARTH_M3_S2, R_EARTH_EQ_M
 
-# check-values.md sec. 4, case V1 (C; verified there with solve_ivp to 1e-9):
-# m0 1000 kg, m_p 800 kg, Isp 250 s, t_b 40 s, g = 9.80665, no drag, constant g.
+# Case V1: closed form of the vertical burn at constant thrust (Sutton & Biblarz, Rocket
+# Propulsion Elements, 9th ed., ch. 4; equation numbers from memory), values computed from the
+# formulas and verified with scipy.integrate.solve_ivp (rtol 1e-12) to 1e-9 relative. Tabulated
+# in the project's shared check values, sec. 4, case V1. m0 1000 kg, m_p 800 kg, Isp 250 s,
+# t_b 40 s, g = 9.80665, no drag, constant g.
 V1 = Vehicle((FlightStage("v1", 800.0, 200.0, 250.0, diameter_m=0.3, thrust_vac_n=49033.25),), 0.0)
 
 
 def test_vertical_burn_matches_closed_form_v1():
-    """Sutton & Biblarz 9th ed. Ch. 4 / Curtis 3rd ed. Sec. 11.3 vertical burn (eq. numbers M):
-    v_b = c ln(m0/m) - g t = 3553.533 m/s, h_b = 50 763.19 m, gravity loss g t_b = 392.27 m/s,
-    apogee h_b + v_b^2/(2g) = 694 591.3 m at 402.36 s (check-values.md sec. 4 V1)."""
+    """Closed form of the vertical burn at constant thrust (Sutton & Biblarz, Rocket Propulsion
+    Elements, 9th ed., ch. 4; Curtis, Orbital Mechanics for Engineering Students, 3rd ed., ch. 11;
+    equation and section numbers from memory), values computed: v_b = c ln(m0/m) - g t = 3553.533 m/s,
+    h_b = 50 763.19 m, gravity loss g t_b = 392.27 m/s, apogee h_b + v_b^2/(2g) = 694 591.3 m
+    at 402.36 s. (Tabulated in the project's shared check values, sec. 4, case V1.)"""
     r = fly_vertical(V1, LaunchSite(), earth="flat", with_drag=False)
     b = r.burnouts[0]
     assert b.speed_m_s == pytest.approx(3553.533, abs=2e-3)
@@ -37,10 +42,10 @@ def test_vertical_burn_matches_closed_form_v1():
 
 @pytest.mark.parametrize("rtol", [1e-7, 1e-9, 1e-11])
 def test_dormand_prince_error_control_vertical_burn_v1(rtol):
-    """Error control of the adaptive Dormand-Prince 5(4) integrator against the closed-form
-    vertical burn (Sutton & Biblarz 9th ed. Ch. 4; check-values.md sec. 4 case V1, computed here
-    from the formulas): burnout speed and altitude, apogee and its time are within rtol
-    (relative), and the error shrinks as rtol is tightened."""
+    """Error control of the adaptive Dormand-Prince 5(4) integrator against the closed-form vertical
+    burn (Sutton & Biblarz, Rocket Propulsion Elements, 9th ed., ch. 4; equation numbers from
+    memory), computed here from the formulas for case V1: burnout speed and altitude, apogee and its
+    time are within rtol (relative), and the error shrinks as rtol is tightened."""
     c = 250.0 * G0_M_S2
     m0, mf, mdot, tb = 1000.0, 200.0, 20.0, 40.0
     vb = c * math.log(m0 / mf) - G0_M_S2 * tb
@@ -60,8 +65,9 @@ def test_dormand_prince_error_control_vertical_burn_v1(rtol):
 
 
 def test_free_space_reproduces_rocket_equation():
-    """Tsiolkovsky (Sutton & Biblarz 9th ed. eq. 4-6): no gravity, no drag, three stages with a
-    staging delay -> sum c_i ln(m0_i/mf_i) to 1e-6 relative (issue requirement)."""
+    """Tsiolkovsky rocket equation (Sutton & Biblarz, Rocket Propulsion Elements, 9th ed., eq. 4-6;
+    equation number from memory): no gravity, no drag, three stages with a staging delay ->
+    sum c_i ln(m0_i/mf_i) to 1e-6 relative (issue requirement)."""
     stages = (
         FlightStage("a", 700.0, 80.0, 280.0, diameter_m=1.0, thrust_vac_n=3e4),
         FlightStage("b", 150.0, 20.0, 320.0, diameter_m=1.0, thrust_vac_n=6e3),
@@ -78,8 +84,10 @@ def test_free_space_reproduces_rocket_equation():
 
 
 def test_free_space_thrust_curve_stage_rocket_equation():
-    """Tsiolkovsky with c = I_total/m_p for a thrust-curve stage whose propellant use follows
-    delivered impulse (piecewise-linear curve, breaks at the knots)."""
+    """Tsiolkovsky rocket equation (Sutton & Biblarz, Rocket Propulsion Elements, 9th ed., ch. 4;
+    from memory) with effective exhaust velocity c = I_total/m_p (definition of specific impulse)
+    for a thrust-curve stage whose propellant use follows delivered impulse (piecewise-linear curve,
+    breaks at the knots)."""
     s = FlightStage("m", 0.06, 0.1, 200.0, diameter_m=0.03,
                     thrust_curve=((0.0, 0.05, 0.2, 1.2, 1.3), (0.0, 120.0, 80.0, 60.0, 0.0)))
     v = Vehicle((s,), 0.05)
@@ -90,7 +98,9 @@ def test_free_space_thrust_curve_stage_rocket_equation():
 
 
 def test_round_earth_coast_conserves_energy():
-    """Inverse-square coast, vertical: 1/2 v_b^2 - mu/r_b = -mu/r_a (check-values.md sec. 4)."""
+    """Inverse-square coast, vertical: energy conservation 1/2 v_b^2 - mu/r_b = -mu/r_a (energy
+    equation of Curtis, Orbital Mechanics for Engineering Students, 3rd ed., ch. 2; from memory),
+    with WGS 84 GM and a (from memory)."""
     r = fly_vertical(V1, LaunchSite(), earth="round", with_drag=False)
     b = r.burnouts[0]
     rb = R_EARTH_EQ_M + b.altitude_m
@@ -100,7 +110,9 @@ def test_round_earth_coast_conserves_energy():
 
 def test_rail_exit_speed_matches_closed_form():
     """Vertical rail, no drag, constant g: h(t) = c t - (c m/mdot) ln(m0/m) - g t^2/2 and
-    v(t) = c ln(m0/m) - g t (check-values.md sec. 4); rail exit where h = L."""
+    v(t) = c ln(m0/m) - g t (closed form of the vertical burn at constant thrust,
+    Sutton & Biblarz, Rocket Propulsion Elements, 9th ed., ch. 4; equation numbers from memory);
+    rail exit where h = L, found with scipy.optimize.brentq."""
     from scipy.optimize import brentq
 
     L = 20.0
@@ -129,7 +141,8 @@ def _hobby_vehicle(cd_scale: float = 1.0, thrust_n: float = 400.0) -> Vehicle:
 def test_vertical_flight_with_drag_matches_solve_ivp_with_ambiance(max_step_s):
     """Independent formulation: the same 1-D equations (m dv/dt = F - D - m g0, D with the same
     C_D table) integrated by scipy.integrate.solve_ivp (rtol 1e-10) with density and speed of
-    sound from the `ambiance` library (ICAO 1993) instead of our atmosphere. With the default
+    sound from ambiance.Atmosphere (ambiance 1.3.1, ICAO Standard Atmosphere 1993) instead of our
+    atmosphere. The C_D table is the project's own and shared by both sides. With the default
     (uncapped) adaptive steps the flight crosses every drag-table knot inside the integration,
     so this also checks the steps that end on those kinks; max-q is compared with the largest
     q on solve_ivp's dense output."""
@@ -177,7 +190,8 @@ def test_vertical_flight_with_drag_matches_solve_ivp_with_ambiance(max_step_s):
 @settings(max_examples=12, deadline=None)
 @given(k1=st.floats(0.2, 3.0), k2=st.floats(0.2, 3.0), angle=st.floats(0.0, 15.0))
 def test_more_drag_never_raises_apogee(k1, k2, angle):
-    """Property: scaling the whole C_D table up never increases the apogee."""
+    """Property: scaling the whole C_D table up never increases the apogee (physical monotonicity;
+    consistency check, no external source)."""
     lo, hi = sorted((k1, k2))
     site = LaunchSite(rail_length_m=3.0, rail_angle_deg=angle)
     a_lo = fly_vertical(_hobby_vehicle(lo), site, record_history=False).apogee_m
@@ -190,7 +204,8 @@ def test_more_drag_never_raises_apogee(k1, k2, angle):
        earth=st.sampled_from(["flat", "round"]))
 def test_loss_budget_closes(cd, angle, isp_sl, earth):
     """Property: ideal delta-v = speed gained + gravity + drag + steering + pressure losses
-    within 0.1 % (issue requirement), per stage and in total."""
+    within 0.1 % (issue requirement), per stage and in total. The identity follows from the
+    definitions of the loss terms (consistency check, no external source)."""
     stages = (
         FlightStage("a", 60.0, 20.0, 250.0, isp_sl_s=isp_sl, diameter_m=0.3, thrust_vac_n=1.2e4,
                     drag=DragCurve.constant(cd)),
@@ -208,8 +223,10 @@ def test_loss_budget_closes(cd, angle, isp_sl, earth):
 
 
 def test_hobby_warnings_name_their_rules():
-    """Liftoff T/W under 5 (Spaceport America Cup DTEG req. 5.18.2) and rail exit under 30.48 m/s
-    (DTEG 10.2.1) are flagged, not raised (check-values.md sec. 6)."""
+    """Liftoff T/W under 5 (Spaceport America Cup Design, Test & Evaluation Guide, req. 5.18.2)
+    and rail exit under 100 ft/s = 30.48 m/s (same guide, req. 10.2.1) are flagged, not raised;
+    requirement text as quoted on a university rocket-team wiki (found). (Tabulated in the
+    project's shared check values, sec. 6.)"""
     v = _hobby_vehicle(thrust_n=70.0)
     r = fly_vertical(v, LaunchSite(rail_length_m=1.0), acceleration_limit_m_s2=10.0)
     text = " ".join(r.warnings)
@@ -228,7 +245,8 @@ def test_liftoff_thrust_below_weight_is_an_error():
 
 
 def test_history_columns_and_events():
-    """History carries the unit-suffixed columns; max-q and max acceleration are the history maxima."""
+    """History carries the unit-suffixed columns; max-q and max acceleration are the history maxima.
+    Consistency check, no external source."""
     r = fly_vertical(_hobby_vehicle(), LaunchSite(rail_length_m=3.0), stop_at="impact")
     cols = r.history.as_columns()
     n = len(cols["t_s"])
@@ -261,31 +279,40 @@ def ascent():
 
 
 def test_ascent_targeting_reaches_altitude_with_zero_flight_path_angle(ascent):
+    """Guidance reaches 200 km with zero flight-path angle (consistency check, no external
+    source); burnout speed near the circular speed sqrt(GM/r) (Curtis, Orbital Mechanics for
+    Engineering Students, 3rd ed., ch. 2; from memory)."""
     assert ascent.terminated_by == "burnout"
     o = ascent.orbit
     assert o.altitude_m == pytest.approx(200e3, abs=1.0)
     assert abs(o.flight_path_angle_deg) < 1e-3
     assert abs(ascent.targeting_residual[0]) < 1.0
-    # near circular: burnout speed within 2 % of the circular speed (Curtis eq. 2.63)
+    # near circular: burnout speed within 2 % of the circular speed (Curtis 3rd ed. eq. 2.63,
+    # equation number from memory)
     assert o.speed_m_s == pytest.approx(circular_speed_m_s(200e3), rel=0.02)
 
 
 def test_ascent_budget_closes_with_rotation_bonus(ascent):
-    """sum(ideal) = |V_final| - rotation bonus + losses, within 0.1 % (module docstring)."""
+    """sum(ideal) = |V_final| - rotation bonus + losses, within 0.1 % (module docstring;
+    consistency check, no external source)."""
     r = ascent
     assert abs(r.budget_residual_m_s) < 1e-3 * r.ideal_delta_v_m_s
-    # eastward launch from 28.5 deg: bonus near omega R cos(lat) = 408.7 m/s (check-values sec. 3 C)
+    # eastward launch from 28.5 deg: bonus near omega R cos(lat) = 408.7 m/s (WGS 84 omega and a,
+    # from memory; computed)
     assert 300.0 < r.rotation_bonus_m_s < 470.0
     assert sum(b.ideal_delta_v_m_s for b in r.burnouts) == pytest.approx(r.ideal_delta_v_m_s, rel=1e-12)
 
 
 def test_ascent_losses_in_published_ranges(ascent):
-    """check-values.md sec. 3: orbital speed plus 1.5-2 km/s of gravity, steering and drag losses
-    (F, EPFL Graph Search 'Gravity loss'); gravity 1.0-1.5 km/s (M, Griffin & French); drag
-    0.04-0.15 km/s for large vehicles, up to a few hundred m/s for small (M); steering 0.03-0.4
-    km/s (M). Ranges widened by 20 % since they are 'typical', not limits; the steering loss of
-    a speed-optimised programme may fall below the typical lower bound, so only its upper bound
-    is checked."""
+    """Delta-v to LEO 9-10 km/s = orbital speed plus 1.5-2 km/s of gravity, steering and drag
+    losses (EPFL Graph Search page "Gravity loss", Wikipedia-derived, found; Wertz, Everett &
+    Puschell, Space Mission Engineering: The New SMAD, 2011, pp. 10-11, cited indirectly);
+    gravity loss 1.0-1.5 km/s (Griffin & French, Space Vehicle Design, loss table; from memory,
+    figures not checked); drag 0.04-0.15 km/s for large vehicles, up to a few hundred m/s for
+    small (from memory, no specific source); steering 0.03-0.4 km/s (from memory, no specific
+    source). (Tabulated in the project's shared check values, sec. 3.) Ranges widened by 20 %
+    since they are 'typical', not limits; the steering loss of a speed-optimised programme may
+    fall below the typical lower bound, so only its upper bound is checked."""
     L = ascent.losses_m_s
     total = L["gravity"] + L["drag"] + L["steering"]
     assert 1.5e3 * 0.8 <= total <= 2.0e3 * 1.2
@@ -298,7 +325,8 @@ def test_ascent_losses_in_published_ranges(ascent):
 
 def test_ascent_free_space_speed_matches_rocket_equation():
     """Without gravity or drag and without rotation, any steering keeps |V| = sum c ln(m0/mf)
-    only if thrust stays along V; the steering loss must account exactly for the rest."""
+    only if thrust stays along V; the steering loss must account exactly for the rest
+    (consistency check, no external source)."""
     v = build_vehicle(SPECS, MP, MS, 5000.0)
     r = fly_ascent(v, LaunchSite(), AscentProfile(pitch_kick_deg=10.0, final_pitch_deg=-5.0),
                    rotating=False, with_drag=False)
@@ -311,7 +339,8 @@ def _candidates(factors):
 
 
 def test_ascent_batch_ideal_delta_v_is_rocket_equation_and_budget_closes():
-    """Tsiolkovsky (Sutton & Biblarz 9th ed. eq. 4-6): each stage's ideal delta-v, int F_vac/m dt,
+    """Tsiolkovsky rocket equation (Sutton & Biblarz, Rocket Propulsion Elements, 9th ed.,
+    eq. 4-6; equation number from memory): each stage's ideal delta-v, int F_vac/m dt,
     equals Isp g0 ln(m_ignition / m_burnout) to 1e-6; and the loss budget closes within 0.1 %
     (issue requirement; module docstring identity) for every candidate of the batch."""
     vs = _candidates((0.97, 1.0, 1.03))
@@ -327,9 +356,9 @@ def test_ascent_batch_ideal_delta_v_is_rocket_equation_and_budget_closes():
 
 
 def test_ascent_batch_matches_one_by_one_flights():
-    """Numerical equivalence (not a physics oracle): the lock-step batch and `fly_ascent` integrate
-    the same equations; burnout altitude within 1 m and speed within 1 mm/s (the benchmark's
-    tolerance), losses within 0.1 m/s."""
+    """Numerical equivalence (consistency check, no external source): the lock-step batch and
+    `fly_ascent` integrate the same equations; burnout altitude within 1 m and speed within 1 mm/s
+    (the benchmark's tolerance), losses within 0.1 m/s."""
     vs = _candidates((0.98, 1.02))
     site = LaunchSite(latitude_deg=28.5, azimuth_deg=90.0)
     prof = AscentProfile(pitch_kick_deg=6.5, initial_pitch_deg=20.3, final_pitch_deg=-8.1)
