@@ -19,6 +19,8 @@ from sizing.physics.vehicle import (
 
 
 def test_drag_curve_interpolates_and_clamps():
+    """Linear interpolation and end clamping of the C_D table, values computed by hand
+    (consistency check, no external source)."""
     d = DragCurve((0.0, 1.0, 2.0), (0.3, 0.6, 0.4))
     assert d.cd_at(0.5) == pytest.approx(0.45)
     assert d.cd_at(1.5) == pytest.approx(0.5)
@@ -42,9 +44,11 @@ def test_drag_curve_rejects_bad_tables(mach, cd, field):
 
 
 def test_default_drag_curve_within_published_ranges():
-    """check-values.md sec. 5 (M, Fleeman 2006 / Hoerner 1965 shapes): subsonic 0.15-0.6 for
-    finned bodies; transonic peak at Mach 1.0-1.2, 1.5-2.5x subsonic; Mach 2-3 back to
-    1.0-1.5x subsonic; slowly decreasing hypersonic."""
+    """Typical C_D(Mach) ranges for slender finned rockets, from memory (shapes after Fleeman,
+    Tactical Missile Design, 2nd ed., 2006, ch. 2, and Hoerner, Fluid-Dynamic Drag, 1965; not
+    checked against the books): subsonic 0.15-0.6 for finned bodies; transonic peak at Mach
+    1.0-1.2, 1.5-2.5x subsonic; Mach 2-3 back to 1.0-1.5x subsonic; slowly decreasing
+    hypersonic. Range check only. (Tabulated in the project's shared check values, sec. 5.)"""
     d = DragCurve.default_slender_body()
     sub = d.cd_at(0.5)
     assert 0.15 <= sub <= 0.6
@@ -58,8 +62,10 @@ def test_default_drag_curve_within_published_ranges():
 
 
 def test_constant_thrust_stage_derived_quantities():
-    """mdot = F/(Isp g0), t_b = m_p/mdot (Sutton & Biblarz 9th ed. eq. 2-5); check-values V1:
-    m_p 800 kg, Isp 250 s, F 49 033.25 N -> mdot 20 kg/s, t_b 40 s."""
+    """mdot = F/(Isp g0), t_b = m_p/mdot (Sutton & Biblarz, Rocket Propulsion Elements, 9th ed.,
+    eq. 2-5; equation number from memory); case V1 inputs m_p 800 kg, Isp 250 s, F 49 033.25 N
+    -> mdot 20 kg/s, t_b 40 s, computed. (Case V1 is tabulated in the project's shared check
+    values, sec. 4.)"""
     s = FlightStage("b", 800.0, 200.0, 250.0, diameter_m=0.3, thrust_vac_n=49033.25)
     assert s.mass_flow_kg_s == pytest.approx(20.0, rel=1e-12)
     assert s.burn_time_s == pytest.approx(40.0, rel=1e-12)
@@ -68,8 +74,9 @@ def test_constant_thrust_stage_derived_quantities():
 
 
 def test_exit_area_from_isp_gives_sea_level_thrust():
-    """F = F_vac - p_a A_e (Sutton & Biblarz eq. 2-14); with A_e from the two Isp values the
-    sea-level thrust is mdot g0 Isp_sl."""
+    """Thrust equation F = F_vac - p_a A_e (Sutton & Biblarz, Rocket Propulsion Elements, 9th ed.,
+    eq. 2-14; equation number from memory); with A_e from the two Isp values the sea-level
+    thrust is mdot g0 Isp_sl."""
     s = FlightStage("b", 1000.0, 100.0, 320.0, isp_sl_s=280.0, diameter_m=1.0, thrust_vac_n=1e5)
     mdot = s.mass_flow_kg_s
     assert s.thrust_at(1.0, P0_PA) == pytest.approx(mdot * 280.0 * s.g0_m_s2, rel=1e-12)
@@ -78,7 +85,9 @@ def test_exit_area_from_isp_gives_sea_level_thrust():
 
 
 def test_thrust_curve_stage_impulse_and_exhaust_velocity():
-    """Trapezoid impulse; with propellant use proportional to impulse, c = I/m_p."""
+    """Total impulse I_t = integral of F dt by the trapezoid rule; with propellant use
+    proportional to impulse, c = I/m_p (definition of specific impulse, Sutton & Biblarz, Rocket
+    Propulsion Elements, 9th ed., ch. 2; from memory). Values computed by hand."""
     s = FlightStage("m", 0.05, 0.1, 200.0, diameter_m=0.03,
                     thrust_curve=((0.0, 0.1, 1.0), (0.0, 100.0, 50.0)))
     assert s.total_impulse_vac_n_s == pytest.approx(5.0 + 67.5)
@@ -105,6 +114,8 @@ def test_flight_stage_rejects_bad_input(kwargs, field):
 
 
 def test_vehicle_reference_area_is_largest_remaining_diameter():
+    """Reference area pi d^2/4 of the largest remaining diameter and stage mass bookkeeping,
+    values computed by hand (consistency check, no external source)."""
     a = FlightStage("a", 10.0, 2.0, 250.0, diameter_m=0.5, thrust_vac_n=1e3)
     b = FlightStage("b", 5.0, 1.0, 250.0, diameter_m=0.2, thrust_vac_n=5e2)
     v = Vehicle((a, b), 1.0, payload_diameter_m=0.3)
@@ -128,7 +139,8 @@ def test_launch_site_rejects_out_of_range(kwargs, field):
 
 
 def test_build_vehicle_sets_thrust_from_thrust_to_weight():
-    """First stage: sea-level thrust = T/W m0 g0; upper stages: vacuum thrust = T/W m_ign g0."""
+    """First stage: sea-level thrust = T/W m0 g0; upper stages: vacuum thrust = T/W m_ign g0
+    (definition of thrust-to-weight; consistency check, no external source)."""
     specs = [FlightStageSpec("a", 300.0, 0.1, 1.3, diameter_m=3.0, isp_sl_s=270.0),
              FlightStageSpec("b", 340.0, 0.12, 0.8, diameter_m=3.0)]
     v = build_vehicle(specs, [1e5, 2e4], [1e4, 2e3], 1000.0)
