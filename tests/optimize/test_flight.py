@@ -28,7 +28,8 @@ def sounder():
 
 
 def test_apogee_target_met_and_reproduced_by_flight(sounder):
-    """Flying the sized vehicle again gives the target apogee within the tolerance."""
+    """Flying the sized vehicle again gives the target apogee within the tolerance (consistency
+    check, no external source)."""
     r = sounder
     assert r.converged, r.message
     assert abs(r.achieved["apogee_m"] - 30000.0) <= r.tolerance
@@ -39,8 +40,11 @@ def test_apogee_target_met_and_reproduced_by_flight(sounder):
 
 
 def test_apogee_sizing_split_is_lagrange_optimal(sounder):
-    """The masses are the Lagrange optimum (Curtis 3rd ed. Sec. 11.6) for the converged ideal
-    delta-v, and the flown ideal delta-v equals it (Tsiolkovsky per stage)."""
+    """The masses are the Lagrange optimum (Curtis, Orbital Mechanics for Engineering Students,
+    3rd ed., Sec. 11.6 "Optimal staging"; section number from memory) for the converged ideal
+    delta-v, and the flown ideal delta-v equals it (Tsiolkovsky per stage). Consistency check
+    between the sizing and the flight; the staging method itself is checked against Curtis in
+    tests/physics/test_staging.py."""
     r = sounder
     c = [s.exhaust_velocity_vac_m_s for s in SOUNDER]
     eps = [s.structural_coefficient for s in SOUNDER]
@@ -50,12 +54,14 @@ def test_apogee_sizing_split_is_lagrange_optimal(sounder):
         assert got == pytest.approx(float(want), rel=1e-9)
     assert sum(r.stage_delta_v_m_s) == pytest.approx(r.ideal_delta_v_m_s, rel=1e-9)
     assert r.flight.ideal_delta_v_m_s == pytest.approx(r.ideal_delta_v_m_s, rel=1e-6)
-    # the target-equivalent speed is sqrt(2 g0 (h - h_site))
+    # the target-equivalent speed is sqrt(2 g0 (h - h_site)) (energy balance of a vertical coast
+    # in constant gravity; g0 = 9.80665 m/s^2, scipy.constants.g)
     assert r.target_speed_m_s == pytest.approx(math.sqrt(2 * 9.80665 * (30000.0 - 1400.0)))
 
 
 def test_apogee_sizing_needs_more_than_the_loss_free_delta_v(sounder):
-    """Losses are real: the sized ideal delta-v exceeds the vacuum, constant-g requirement."""
+    """Losses are real: the sized ideal delta-v exceeds the vacuum, constant-g requirement
+    (consistency check, no external source)."""
     assert sounder.ideal_delta_v_m_s > sounder.target_speed_m_s
 
 
@@ -89,7 +95,9 @@ def launcher():
 
 
 def test_orbit_target_reaches_circular_orbit(launcher):
-    """Circular speed from GM (Curtis 3rd ed. eq. 2.63; 7784.26 m/s at 200 km, check-values sec. 3)."""
+    """Circular speed sqrt(GM/r) (Curtis, Orbital Mechanics for Engineering Students, 3rd ed.,
+    eq. 2.63; equation number from memory) with WGS 84 GM and equatorial radius (from memory):
+    7784.26 m/s at 200 km, computed. (Tabulated in the project's shared check values, sec. 3.)"""
     r = launcher
     assert r.converged, r.message
     assert r.target_speed_m_s == pytest.approx(7784.26, abs=0.01)
@@ -102,9 +110,11 @@ def test_orbit_target_reaches_circular_orbit(launcher):
 
 
 def test_orbit_sizing_losses_in_published_range(launcher):
-    """check-values.md sec. 3: delta-v to LEO 9-10 km/s = orbital speed plus 1.5-2 km/s of
-    gravity, steering and drag losses (F, EPFL Graph Search 'Gravity loss'); 20 % margin on the
-    loss range because it is 'typical'."""
+    """Delta-v to LEO 9-10 km/s = orbital speed plus 1.5-2 km/s of gravity, steering and drag
+    losses (EPFL Graph Search page "Gravity loss", Wikipedia-derived, found; Wertz, Everett &
+    Puschell, Space Mission Engineering: The New SMAD, 2011, pp. 10-11, cited indirectly);
+    20 % margin on the loss range because it is 'typical'. (Tabulated in the project's shared
+    check values, sec. 3.)"""
     r = launcher
     L = r.losses_m_s
     total = L["gravity"] + L["drag"] + L["steering"]
