@@ -60,6 +60,9 @@ def test_load_problem_demo_files_are_valid(path, capsys):
 
 
 def test_load_problem_units_are_converted_to_si(tmp_path):
+    """1 lb = 0.45359237 kg exactly (international avoirdupois pound, 1959; also
+    scipy.constants.pound), so 220.462 lb = 100.000 kg to 1e-5; c = Isp g0 with standard gravity
+    g0 = 9.80665 m/s^2 exactly (scipy.constants.g)."""
     text = BASE.replace("payload_mass = 100", 'payload_mass = "220.462 lb"').replace(
         "delta_v = 5000", 'delta_v = "5 km/s"')
     p = load_problem(_write(tmp_path, text))
