@@ -7,6 +7,8 @@ from sizing import problem_from_dict, solve, solve_batch
 
 
 def test_solve_batch_matches_solve():
+    """The batch path returns the single-problem answer for every row (consistency check, no
+    external source; the single-problem path is checked against Curtis in tests/reference)."""
     rng = np.random.default_rng(3)
     m = 40
     c = rng.uniform(2000, 4400, (m, 3))
@@ -25,6 +27,8 @@ def test_solve_batch_matches_solve():
 
 
 def test_solve_batch_flags_unreachable_rows():
+    """A row above the supremum sum c ln(1/eps) (here 3000 ln 10 * 2 = 13 816 m/s < 20 000 m/s) is
+    flagged, not solved (rocket-equation limit with zero payload; computed, consistency check)."""
     b = solve_batch([[3000.0, 3000.0]] * 2, [[0.1, 0.1]] * 2, [1.0, 1.0], [5000.0, 20000.0])
     assert list(b.success) == [True, False]
     assert np.isnan(b.gross_mass_kg[1])
