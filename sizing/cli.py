@@ -29,7 +29,14 @@ _PLUGINS = ("sizing.cli_flight", "sizing.cli_study", "sizing.cli_hobby")
 def _console(stderr: bool = False):
     from rich.console import Console
 
-    return Console(stderr=stderr, highlight=False, soft_wrap=True)
+    class _Console(Console):
+        def on_broken_pipe(self) -> None:
+            # output piped into e.g. `head`: stop printing, but finish the run (files still get written)
+            self.quiet = True
+            devnull = os.open(os.devnull, os.O_WRONLY)
+            os.dup2(devnull, sys.stdout.fileno())
+
+    return _Console(stderr=stderr, highlight=False, soft_wrap=True)
 
 
 def error_line(text: str) -> None:
@@ -38,12 +45,36 @@ def error_line(text: str) -> None:
         print(f"error: {line.strip()}" if line.strip() else "", file=sys.stderr)
 
 
+def error_lines(exc: Exception) -> None:
+    """Print an error; a problem-file error gets one self-contained line per fault (file: fault)."""
+    from .errors import ProblemDefinitionError
+
+    if isinstance(exc, ProblemDefinitionError) and len(exc.faults) > 1:
+        for fault in exc.faults:
+            error_line(f"{exc.source}: {fault}")
+    else:
+        error_line(str(exc))
+
+
+def check_out_path(out: Path | None, allowed: Sequence[str] | None = None) -> None:
+    """Refuse an --out path before any work: wrong extension or a folder that does not exist."""
+    if out is None:
+        return
+    out = Path(out)
+    if allowed is not None and out.suffix.lower() not in allowed:
+        raise ValueError(f"--out {out}: the extension must be one of {', '.join(allowed)}. "
+                         f"Got {out.suffix or 'none'!r}.")
+    parent = out.parent if str(out.parent) else Path(".")
+    if not parent.is_dir():
+        raise ValueError(f"--out {out}: the folder {parent} does not exist; create it or choose another path.")
+
+
 def print_result(result, console=None) -> None:
     """Human-readable stage mass table, limits, trade factors, notes and caution."""
     from rich.markup import escape
     from rich.table import Table
 
-    from .report.tables import stage_columns_table, trade_factor_rows
+    from .report.tables import TRADE_FACTOR_HEADER, limit_text, stage_columns_table, trade_factor_rows
     from .result import CAUTION
 
     con = console or _console()
@@ -65,14 +96,16 @@ def print_result(result, console=None) -> None:
         for c in result.constraints:
             effect = (f"{c.sensitivity:+.4g} {c.sensitivity_unit.split(' per ')[0]}" if c.binding
                       else "not binding")
-            t.add_row(escape(c.name), escape(f"{c.limit:.6g} {c.unit}"), f"{c.value:.5g}", escape(effect))
+            t.add_row(escape(c.name), escape(limit_text(c)), f"{c.value:.5g}", escape(effect))
         con.print(t)
     tfr = trade_factor_rows(result)
     if tfr:
-        t = Table(title=escape("Trade factors: " + result.trade_factors.get("basis", "")), title_justify="left")
-        t.add_column("item")
-        t.add_column("change in gross mass", justify="right")
-        t.add_column("unit")
+        basis = result.trade_factors.get("basis", "")
+        how = basis.rsplit("(", 1)[-1].rstrip(")") if "(" in basis else basis
+        t = Table(title=escape(f"Trade factors at fixed ideal delta-v, by {how}: change per step in gross mass "
+                               "(payload fixed) or in payload (gross mass fixed)"), title_justify="left")
+        for i, h in enumerate(TRADE_FACTOR_HEADER):
+            t.add_column(escape(h), justify="right" if i >= 2 else "left", no_wrap=True)
         for r in tfr:
             t.add_row(*map(escape, r))
         con.print(t)
@@ -122,6 +155,9 @@ def _cmd_solve(args) -> int:
         from .cli_hobby import run_hobby
 
         return run_hobby(args)
+    from .report.export import EXPORT_FORMATS
+
+    check_out_path(args.out, EXPORT_FORMATS)
     problem = load_problem(args.file)
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always")
@@ -188,9 +224,19 @@ def main(argv: Sequence[str] | None = None) -> int:
         error_line(str(exc))
         return EXIT_FAILED
     except SizingError as exc:
-        error_line(str(exc))
+        error_lines(exc)
         return EXIT_BAD_INPUT
-    except (ValueError, OSError) as exc:
+    except BrokenPipeError:  # output piped into e.g. `head`: not an error of the run
+        try:
+            sys.stdout = open(os.devnull, "w")
+        except OSError:
+            pass
+        return EXIT_OK
+    except OSError as exc:
+        name = getattr(exc, "filename", None)
+        error_line(f"{name}: {exc.strerror}." if name and exc.strerror else str(exc))
+        return EXIT_BAD_INPUT
+    except ValueError as exc:
         error_line(str(exc))
         return EXIT_BAD_INPUT
     except KeyboardInterrupt:

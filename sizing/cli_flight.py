@@ -18,16 +18,43 @@ def register(sub) -> None:
     p.set_defaults(func=run_fly)
 
 
-def write_trajectory_csv(history, path: Path) -> Path:
-    """Write the flight's time history; every column name carries its unit."""
+#: CSV header for each history column: what it is and its unit.
+TRAJECTORY_HEADERS = {
+    "t_s": "time [s]",
+    "altitude_m": "altitude above sea level [m]",
+    "downrange_m": "downrange [m]",
+    "speed_m_s": "speed relative to Earth [m/s]",
+    "inertial_speed_m_s": "inertial speed [m/s]",
+    "flight_path_angle_deg": "flight-path angle [deg]",
+    "mach": "Mach number [-]",
+    "dynamic_pressure_pa": "dynamic pressure [Pa]",
+    "acceleration_m_s2": "sensed acceleration [m/s^2]",
+    "mass_kg": "mass [kg]",
+    "thrust_n": "thrust [N]",
+    "drag_n": "drag [N]",
+    "stage_index": "burning stage (0 = bottom) [-]",
+}
+
+
+def write_trajectory_csv(history, path: Path, *, site_altitude_m: float = 0.0) -> Path:
+    """Write the flight's time history; every header names the quantity and its unit.
+
+    An "altitude above the launch site" column follows the sea-level altitude.
+    """
     import csv
 
-    cols = history.as_columns()
+    cols = dict(history.as_columns())
     names = list(cols)
+    if "altitude_m" in cols:
+        i = names.index("altitude_m") + 1
+        names.insert(i, "_above_site")
+        cols["_above_site"] = [a - site_altitude_m for a in cols["altitude_m"]]
+    headers = [TRAJECTORY_HEADERS.get(c, "altitude above launch site [m]" if c == "_above_site" else c)
+               for c in names]
     n = len(cols[names[0]]) if names else 0
     with Path(path).open("w", newline="", encoding="utf-8") as fh:
         w = csv.writer(fh)
-        w.writerow(names)
+        w.writerow(headers)
         for k in range(n):
             w.writerow([_cell(cols[c][k]) for c in names])
     return Path(path)
@@ -55,6 +82,9 @@ def run_fly(args) -> int:
     if args.out is not None and Path(args.out).suffix.lower() != ".csv":
         error_line(f"--out {args.out}: the time history is written as .csv. Got {Path(args.out).suffix or 'none'!r}.")
         return EXIT_BAD_INPUT
+    from .cli import check_out_path
+
+    check_out_path(args.out)
     problem = load_problem(args.file)
     vehicle, fr = fly_problem(problem)
     summary = flight_summary(fr, problem.launch.altitude_m)
@@ -69,12 +99,14 @@ def run_fly(args) -> int:
         con = _console()
         con.print(f"[bold]flight[/] {escape(problem.name)}: {fr.profile} profile, ended at {fr.terminated_by}, "
                   f"gross mass {vehicle.gross_mass_kg:,.6g} kg")
-        t = Table(title="Burnout states (bottom stage first)", title_justify="left")
-        for h in ("stage", "t [s]", "alt. [m]", "v [m/s]", "path [deg]", "m [kg]",
-                  "ideal [m/s]", "loss [m/s]"):
-            t.add_column(escape(h), justify="left" if h == "stage" else "right", no_wrap=True)
+        t = Table(title="Burnout states (bottom stage first; altitude above the launch site, "
+                        "speed relative to Earth, losses = gravity + drag + steering + pressure)",
+                  title_justify="left")
+        for h in ("stage", "t [s]", "alt [m]", "v [m/s]", "path [deg]", "m [kg]", "ideal [m/s]", "loss [m/s]"):
+            width = max([len(h)] + [len(b["stage"]) for b in summary["burnouts"]]) if h == "stage" else len(h)
+            t.add_column(escape(h), justify="left" if h == "stage" else "right", no_wrap=True, min_width=width)
         for b in summary["burnouts"]:
-            t.add_row(escape(b["stage"]), f"{b['time_s']:.1f}", f"{b['altitude_m']:,.0f}", f"{b['speed_m_s']:,.1f}",
+            t.add_row(escape(b["stage"]), f"{b['time_s']:.1f}", f"{b['altitude_m'] - problem.launch.altitude_m:,.0f}", f"{b['speed_m_s']:,.1f}",
                       f"{b['flight_path_angle_deg']:.1f}", f"{b['mass_kg']:,.4g}", f"{b['ideal_delta_v_m_s']:,.1f}",
                       f"{sum(b['losses_m_s'].values()):,.1f}")
         con.print(t)
@@ -95,7 +127,7 @@ def run_fly(args) -> int:
             con.print(f"[yellow]review note:[/] {escape(w)}")
         con.print(f"[dim]{escape(CAUTION)}[/]")
     if args.out is not None:
-        path = write_trajectory_csv(fr.history, args.out)
+        path = write_trajectory_csv(fr.history, args.out, site_altitude_m=problem.launch.altitude_m)
         print(f"wrote {path}", file=sys.stderr if args.json else sys.stdout)
     return EXIT_OK
 

@@ -41,12 +41,26 @@ def test_cli_solve_out_writes_each_format(tmp_path, ext, capsys):
     assert out.exists() and out.stat().st_size > 100
 
 
-def test_cli_solve_out_bad_extension_is_bad_input(tmp_path, capsys):
+def test_cli_solve_out_bad_extension_is_bad_input_before_solving(tmp_path, capsys):
     code = main(["solve", str(DEMO), "--out", str(tmp_path / "mass.pdf")])
     err = capsys.readouterr()
     assert code == EXIT_BAD_INPUT
     assert "extension must be one of" in err.err
-    assert "ignition mass [kg]" in err.out  # the computed table was still printed
+    assert err.out == ""  # refused before any work
+
+
+def test_cli_solve_out_missing_folder_names_out(tmp_path, capsys):
+    code = main(["solve", str(DEMO), "--out", str(tmp_path / "nope" / "mass.csv")])
+    assert code == EXIT_BAD_INPUT
+    assert "--out" in capsys.readouterr().err
+
+
+def test_cli_several_faults_each_line_names_the_file(tmp_path, capsys):
+    p = tmp_path / "two.toml"
+    p.write_text('[mission]\npayload_mass = -1\ndelta_v = 3000\n[[stage]]\nisp = 250\nstructural_coefficient = 1.5\n')
+    assert main(["check", str(p)]) == EXIT_BAD_INPUT
+    lines = capsys.readouterr().err.strip().splitlines()
+    assert len(lines) == 2 and all(line.startswith(f"error: {p}: ") for line in lines)
 
 
 def test_cli_check_ok(capsys):

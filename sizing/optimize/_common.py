@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import math
 from dataclasses import replace
-from typing import Any, Callable, Sequence
+from typing import Any, Callable, Mapping, Sequence
 
 from ..physics.rocket import stack_masses
 from ..problem.model import Problem, SolveFor
@@ -165,12 +165,23 @@ def analytic_trade_factors(problem: Problem, result: SizingResult, u_m_s: float)
 
 
 def numeric_trade_factors(problem: Problem, result: SizingResult,
-                          resolve: Callable[[Problem], SizingResult]) -> dict[str, Any]:
+                          resolve: Callable[[Problem], SizingResult],
+                          cap_duals: Callable[[Problem], Mapping[int, float]] | None = None,
+                          ) -> dict[str, Any]:
     """Gross-mass trade factors by central differences of re-solved problems.
 
     Used where the optimum sits on a constraint. The problem is first restated
     as a minimum-gross-mass problem at the optimum's payload and delta-v.
-    Inert mass per stage uses m0 / (mass above stage i) at fixed mass ratios.
+
+    Inert mass added to stage i cannot be stated in a problem file, so its
+    factor comes from the Lagrangian instead (envelope theorem): with the
+    objective ln m0 and the ignition-mass caps ln m0_k <= ln cap_k (duals
+    lambda_k), d m0/d m_inert,i = (m0 / A_i)(1 + sum_{k <= i} lambda_k), A_i the
+    mass above stage i; `cap_duals(base)` returns {stage index: lambda_k}.
+
+    References
+    ----------
+    .. [1] S. Boyd, L. Vandenberghe, Convex Optimization, 2004, Sec. 5.6.
     """
     base = replace(problem, solve_for=SolveFor.GROSS_MASS, payload_mass_kg=result.payload_mass_kg,
                    delta_v_m_s=result.delta_v_m_s, gross_mass_kg=None,
@@ -186,6 +197,7 @@ def numeric_trade_factors(problem: Problem, result: SizingResult,
     m0 = result.gross_mass_kg
     mpl = result.payload_mass_kg
     dv = result.delta_v_m_s
+    lam = dict(cap_duals(base)) if cap_duals is not None else {}
     stages: dict[str, dict[str, float]] = {}
     for i, (sd, sr) in enumerate(zip(problem.stages, result.stages)):
         def with_stage(**kw):
@@ -201,14 +213,15 @@ def numeric_trade_factors(problem: Problem, result: SizingResult,
         d_e = central(lambda h: with_stage(structural_coefficient=e + h), h_e)
         above = sr.ignition_mass_kg - sr.stage_mass_kg
         stages[sd.name] = {
-            "per_structural_kg": m0 / above,
+            "per_structural_kg": m0 / above * (1.0 + sum(v for k, v in lam.items() if k <= i)),
             "per_isp_s": d_isp,
             "per_0_01_structural_coefficient": 0.01 * d_e,
         }
     d_pl = central(lambda h: replace(base, payload_mass_kg=mpl + h), 1e-4 * mpl)
     d_dv = central(lambda h: replace(base, delta_v_m_s=dv + h), 1e-4 * dv)
     return {
-        "basis": "change in gross mass at fixed payload and ideal delta-v (central differences, constraints kept)",
+        "basis": "change in gross mass at fixed payload and ideal delta-v "
+                 "(central differences with the limits kept)",
         "gross_mass_per_payload_kg": d_pl,
         "gross_mass_per_delta_v_kg_per_m_s": d_dv,
         "stages": stages,

@@ -166,9 +166,29 @@ def solve_cvxpy(problem: Problem) -> SizingResult:
         note = " (solver reports reduced accuracy)"
     result = build_result(problem, n, payload, method="cvxpy", n_iterations=iters)
     reports = _constraint_reports(problem, result, named)
-    tf = numeric_trade_factors(problem, result, _resolve_quiet)
+    tf = numeric_trade_factors(problem, result, _resolve_quiet, cap_duals=mass_cap_duals)
     return replace(result, status=status_out, message=result.message + note,
                    constraints=tuple(reports), trade_factors=tf)
+
+
+def mass_cap_duals(p: Problem) -> dict[int, float]:
+    """Dual values of the gross- and ignition-mass caps of a minimum-gross-mass problem.
+
+    Keyed by stage index (the gross-mass cap counts as stage 0's ignition
+    mass); each is d(ln m0)/d(ln of that ignition mass) at the optimum.
+    """
+    if p.max_gross_mass_kg is None and not any(s.max_ignition_mass_kg is not None for s in p.stages):
+        return {}
+    prob, _x, _y, named = _build(p, SolveFor.GROSS_MASS)
+    _run(prob, p)
+    out: dict[int, float] = {}
+    index = {s.name: i for i, s in enumerate(p.stages)}
+    for name, con, *_rest in named:
+        if name.endswith(".max_ignition_mass") or name == "max_gross_mass":
+            k = 0 if name == "max_gross_mass" else index[name.rsplit(".", 1)[0]]
+            lam = float(np.sum(con.dual_value)) if con.dual_value is not None else 0.0
+            out[k] = out.get(k, 0.0) + max(lam, 0.0)
+    return out
 
 
 def _resolve_quiet(p: Problem) -> SizingResult:

@@ -59,7 +59,10 @@ def solve_slsqp(problem: Problem) -> SizingResult:
     result = _solve(problem)
     if not result.success:
         return result
-    return replace(result, trade_factors=numeric_trade_factors(problem, result, _quiet))
+    from ._cvx import mass_cap_duals  # SLSQP returns no multipliers; the convex program does
+
+    return replace(result, trade_factors=numeric_trade_factors(problem, result, _quiet,
+                                                               cap_duals=mass_cap_duals))
 
 
 def _quiet(p: Problem) -> SizingResult:

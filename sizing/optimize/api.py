@@ -37,6 +37,20 @@ def solve(problem: Problem, *, method: str | None = None) -> SizingResult:
     m = method or problem.method or "auto"
     if m not in METHODS:
         raise ValueError(f"{MSG_UNKNOWN_METHOD} {m!r}. Choose one of: {', '.join(repr(x) for x in METHODS)}.")
+    result = _dispatch(problem, m)
+    if problem.design_masses_given:
+        from dataclasses import replace
+
+        result = replace(result, warnings=tuple(result.warnings) + (DESIGN_MASSES_NOTE,))
+    return result
+
+
+#: Review note for a file whose stages give their masses: solve re-splits, fly flies them.
+DESIGN_MASSES_NOTE = ("the stage masses given in the file are not used by `sizing solve`, which finds the "
+                      "optimal split; use `sizing fly` to fly the given masses.")
+
+
+def _dispatch(problem: Problem, m: str) -> SizingResult:
     if problem.is_flight_target:
         from .flight_problem import solve_flight_problem
 

@@ -314,8 +314,8 @@ def solve_flight_problem(problem: Problem, *, method: str = "auto") -> SizingRes
         eps = [s.structural_coefficient for s in problem.stages]
         sol = optimal_mass_ratios(c, eps, fs.ideal_delta_v_m_s)
         tf = analytic_trade_factors(problem, result, sol.u_m_s)
-        tf["basis"] = ("change in gross mass at fixed payload and ideal delta-v, losses held at the "
-                       "converged values (Lagrange multiplier)")
+        tf["basis"] = ("change in gross mass at fixed payload and ideal delta-v "
+                       "(Lagrange multiplier, simulated losses held at their converged values)")
         result = replace(result, trade_factors=tf)
     extra = {
         "target": {"apogee_m": problem.apogee_m} if problem.apogee_m is not None

@@ -389,5 +389,7 @@ def problem_from_dict(data: Mapping[str, Any], *, source: str = "<dict>") -> Pro
         max_acceleration_m_s2=amax, target_tolerance_m=tol_m, g0_m_s2=g0,
         method=pf.solver.method, max_iterations=pf.solver.max_iterations,
         tolerance=pf.solver.tolerance, launch=launch, raw=data,
+        design_masses_given=all(st.propellant_mass is not None and st.structural_mass is not None
+                                for st in pf.stage),
     )
 

@@ -109,6 +109,7 @@ class Problem:
     max_iterations: int | None = None
     tolerance: float | None = None
     launch: LaunchDef = field(default_factory=LaunchDef)
+    design_masses_given: bool = False
     raw: Mapping[str, Any] = field(default_factory=dict, compare=False, repr=False)
 
     @property

@@ -6,7 +6,7 @@ import json
 from pathlib import Path
 
 from ..result import CAUTION, SizingResult
-from .tables import STAGE_COLUMNS, result_markdown, trade_factor_rows
+from .tables import STAGE_COLUMNS, TRADE_FACTOR_HEADER, limit_text, result_markdown, trade_factor_rows
 
 __all__ = ["EXPORT_FORMATS", "write_stage_table", "result_json"]
 
@@ -95,13 +95,14 @@ def _write_xlsx(result: SizingResult, p: Path) -> None:
     frame = _numeric_frame(result)
     with pd.ExcelWriter(p, engine="openpyxl") as xw:
         frame.to_excel(xw, sheet_name="stage masses", index=False)
-        tf = pd.DataFrame(trade_factor_rows(result), columns=["item", "change in gross mass", "unit"])
-        if not tf.empty:
-            tf["change in gross mass"] = [float(v.replace(",", "")) if v not in ("", "n/a") else None
-                                          for v in tf["change in gross mass"]]
+        tf = pd.DataFrame(trade_factor_rows(result), columns=list(TRADE_FACTOR_HEADER))
+        for col in TRADE_FACTOR_HEADER[2:]:
+            tf[col] = [float(v.replace(",", "")) if v not in ("", "n/a") else None for v in tf[col]]
+        tf.columns = ["item", "step", "gross mass change at fixed payload [kg]",
+                      "payload change at fixed gross mass [kg]"]
         tf.to_excel(xw, sheet_name="trade factors", index=False)
         if result.constraints:
-            pd.DataFrame([{"limit": c.name, "allowed": c.limit, "unit": c.unit, "at optimum": c.value,
+            pd.DataFrame([{"limit": c.name, "allowed": limit_text(c), "at optimum": c.value,
                            "binding": c.binding, "sensitivity": c.sensitivity,
                            "sensitivity unit": c.sensitivity_unit} for c in result.constraints]
                          ).to_excel(xw, sheet_name="design limits", index=False)

@@ -7,7 +7,7 @@ from typing import Any, Sequence
 
 from ..result import CAUTION, SizingResult
 
-__all__ = ["STAGE_COLUMNS", "FLIGHT_QUANTITIES", "flight_summary_rows", "stage_rows", "stage_columns_table", "total_row", "trade_factor_rows",
+__all__ = ["TRADE_FACTOR_HEADER", "limit_text", "STAGE_COLUMNS", "FLIGHT_QUANTITIES", "flight_summary_rows", "stage_rows", "stage_columns_table", "total_row", "trade_factor_rows",
            "stage_table_markdown", "result_markdown"]
 
 #: (field, header with unit, format) for each column of the stage mass table.
@@ -91,21 +91,41 @@ def stage_columns_table(result: SizingResult) -> tuple[list[str], list[list[str]
     return header, rows
 
 
+#: Header of the trade-factor table: each row is the change per step of one item,
+#: in gross mass at fixed payload, or in payload at fixed gross mass.
+TRADE_FACTOR_HEADER = ("item", "step", "gross mass [kg]", "payload [kg]")
+
+
 def trade_factor_rows(result: SizingResult) -> list[list[str]]:
-    """Trade factors as rows: (item, change in gross mass, unit)."""
+    """Trade factors as rows: (item, step, gross mass change, payload change).
+
+    The gross-mass change holds payload and ideal delta-v fixed; the payload
+    change holds gross mass fixed instead: by the implicit function theorem,
+    d m_PL / d p = -(d m0/d p) / (d m0/d m_PL).
+    """
     tf = result.trade_factors
     if not tf:
         return []
-    rows = [
-        ["payload", _fmt(tf["gross_mass_per_payload_kg"], ",.3f"), "kg gross / kg payload"],
-        ["ideal delta-v", _fmt(tf["gross_mass_per_delta_v_kg_per_m_s"], ",.3f"), "kg gross / (m/s)"],
-    ]
+    growth = tf["gross_mass_per_payload_kg"]
+
+    def row(item, step, dm0, spec):
+        dpl = -dm0 / growth if growth else math.nan
+        return [item, step, _fmt(dm0, spec), _fmt(dpl, spec)]
+
+    rows = [["payload", "+1 kg", _fmt(growth, ",.3f"), ""],
+            row("ideal delta-v", "+1 m/s", tf["gross_mass_per_delta_v_kg_per_m_s"], ",.4f")]
     for name, d in tf["stages"].items():
-        rows.append([f"{name}: structural mass", _fmt(d["per_structural_kg"], ",.3f"), "kg gross / kg"])
-        rows.append([f"{name}: Isp", _fmt(d["per_isp_s"], ",.3f"), "kg gross / s"])
-        rows.append([f"{name}: structural coeff. +0.01", _fmt(d["per_0_01_structural_coefficient"], ",.1f"),
-                     "kg gross"])
+        rows.append(row(f"{name}: structural mass", "+1 kg", d["per_structural_kg"], ",.3f"))
+        rows.append(row(f"{name}: Isp", "+1 s", d["per_isp_s"], ",.3f"))
+        rows.append(row(f"{name}: struct. coeff.", "+0.01", d["per_0_01_structural_coefficient"], ",.2f"))
     return rows
+
+
+def limit_text(c) -> str:
+    """'<= 3.2', '>= 0.12', '<= 1,700 kg' for a design limit."""
+    op = ">=" if c.name.rsplit(".", 1)[-1].startswith("min") else "<="
+    unit = "" if c.unit in ("-", "") else f" {c.unit}"
+    return f"{op} {c.limit:,.6g}{unit}"
 
 
 def _md_table(header: Sequence[str], rows: Sequence[Sequence[str]], align_right_from: int = 1) -> str:
@@ -133,12 +153,12 @@ def result_markdown(result: SizingResult, *, title: str | None = None) -> str:
     if result.constraints:
         parts += ["### Design limits", "",
                   _md_table(["limit", "allowed", "at optimum", "binding", "sensitivity", "unit"],
-                            [[c.name, f"{c.limit:.6g} {c.unit}", f"{c.value:.6g}", "yes" if c.binding else "no",
+                            [[c.name, limit_text(c), f"{c.value:.6g}", "yes" if c.binding else "no",
                               f"{c.sensitivity:.6g}", c.sensitivity_unit] for c in result.constraints]), ""]
     tfr = trade_factor_rows(result)
     if tfr:
         parts += ["### Trade factors", "", result.trade_factors.get("basis", ""), "",
-                  _md_table(["item", "change in gross mass", "unit"], tfr), ""]
+                  _md_table(list(TRADE_FACTOR_HEADER), tfr), ""]
     if result.flight:
         budget = result.flight.get("delta_v_budget_m_s")
         if budget:

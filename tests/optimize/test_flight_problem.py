@@ -84,7 +84,8 @@ def test_cli_fly_writes_trajectory_csv_with_units(tmp_path, capsys):
     out = tmp_path / "trajectory.csv"
     assert main(["fly", str(ROOT / "problems" / "heron_as_built.toml"), "--out", str(out)]) == EXIT_OK
     header = out.read_text().splitlines()[0].split(",")
-    assert header[:3] == ["t_s", "altitude_m", "downrange_m"]
+    assert header[:3] == ["time [s]", "altitude above sea level [m]", "altitude above launch site [m]"]
+    assert all("[" in h for h in header)
     text = capsys.readouterr().out
     assert "apogee above launch site" in text and "not flight clearance" in text
 

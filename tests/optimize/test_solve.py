@@ -291,3 +291,50 @@ def test_solve_cvxpy_agrees_with_lagrange_property(problem):
         b = solve(problem, method="cvxpy")
     assert b.success, b.message
     assert b.gross_mass_kg == pytest.approx(a.gross_mass_kg, rel=1e-6)
+
+
+def test_trade_factor_structural_mass_with_limits_matches_reoptimisation():
+    """With binding limits, the structural-mass factor (m0/A_i)(1 + sum of cap duals) equals a
+    scipy SLSQP re-optimisation over propellant masses with inert mass added to the stage and the
+    same limits kept (general-purpose library check; envelope theorem, Boyd & Vandenberghe,
+    Convex Optimization, 2004, Sec. 5.6)."""
+    import numpy as np
+    from scipy.optimize import minimize
+
+    p = _limited()
+    r = solve(p, method="cvxpy")
+    c = np.array([s.exhaust_velocity_m_s for s in p.stages])
+    eps = np.array([s.structural_coefficient for s in p.stages])
+
+    def m0_with_inert(i_stage, delta):
+        def split(mp):
+            ms = eps / (1 - eps) * mp
+            ms = ms.copy()
+            ms[i_stage] += delta
+            above = 180.0
+            dvs, ign, ratio = np.zeros(3), np.zeros(3), np.zeros(3)
+            for k in (2, 1, 0):
+                m0 = above + mp[k] + ms[k]
+                ratio[k] = m0 / (above + ms[k])
+                dvs[k] = c[k] * np.log(ratio[k])
+                ign[k] = m0
+                above = m0
+            return dvs, ign, ratio
+
+        cons = [
+            {"type": "eq", "fun": lambda mp: (split(mp)[0].sum() - 9300.0) / 9300.0},
+            {"type": "ineq", "fun": lambda mp: 3.2 - split(mp)[2][1]},
+            {"type": "ineq", "fun": lambda mp: (1700.0 - split(mp)[1][1]) / 1700.0},
+            {"type": "ineq", "fun": lambda mp: split(mp)[0][2] / 9300.0 - 0.12},
+            {"type": "ineq", "fun": lambda mp: 0.22 - split(mp)[0][2] / 9300.0},
+        ]
+        x0 = np.array([s.propellant_mass_kg for s in r.stages])
+        res = minimize(lambda mp: 180.0 + np.sum(mp + eps / (1 - eps) * mp) + delta, x0, method="SLSQP",
+                       constraints=cons, bounds=[(0, None)] * 3, options={"ftol": 1e-14, "maxiter": 1000})
+        assert res.success, res.message
+        return res.fun
+
+    for i, sd in enumerate(p.stages):
+        h = 0.5
+        fd = (m0_with_inert(i, h) - m0_with_inert(i, -h)) / (2 * h)
+        assert r.trade_factors["stages"][sd.name]["per_structural_kg"] == pytest.approx(fd, rel=2e-3), sd.name
