@@ -37,6 +37,9 @@ class StudyProgress:
     failed: int
     done_before: int
     elapsed_s: float
+    counts: dict[str, int] = field(default_factory=dict)
+    """Finished cases per status ('ok', 'infeasible', 'rejected', 'error', 'crashed').
+    `failed` is the sum over the non-'ok' statuses."""
 
     @property
     def rate_per_s(self) -> float:
@@ -188,6 +191,9 @@ def run_study(study: Study | str | Path, out: str | Path, *, engine: str = "loca
     folder = Path(out)
     cases = expand_cases(study, with_problems=False)
     ctx = EvalContext.from_study(study)
+    # Size the first case before the output folder is touched: a study that fails its
+    # first-case check leaves no store behind, so the fixed file can reuse the folder.
+    first, batch_ok = _preflight(study, cases[0], ctx) if cases else (None, False)
     if store == "none":
         db: Any = NullStore()
     else:
@@ -204,25 +210,26 @@ def run_study(study: Study | str | Path, out: str | Path, *, engine: str = "loca
         summary = StudySummary(folder, len(cases), done_before, 0, engine=engine,
                                workers=1 if engine == "serial" else (workers or 0))
         state = {"done": done_before, "failed": failed}
+        by_status = dict(counts)
 
         def report(outcomes: list[dict]) -> None:
             n = db.record(outcomes, inputs)
             state["done"] += n
+            for o in outcomes:
+                by_status[o["status"]] = by_status.get(o["status"], 0) + 1
             state["failed"] += sum(1 for o in outcomes if o["status"] in FAILED_STATUSES)
             summary.ran += n
             if on_progress is not None:
                 on_progress(StudyProgress(len(cases), state["done"], state["failed"], done_before,
-                                          time.perf_counter() - t_start))
+                                          time.perf_counter() - t_start, dict(by_status)))
 
         if on_progress is not None:
-            on_progress(StudyProgress(len(cases), state["done"], state["failed"], done_before, 0.0))
-        batch = False
-        if todo:
-            first, batch = _preflight(study, todo[0], ctx)
-            if case_function is None:
-                report([first])
-                todo = todo[1:]
-            batch = batch and ctx.solver in ("auto", "batch")
+            on_progress(StudyProgress(len(cases), state["done"], state["failed"], done_before, 0.0,
+                                      dict(by_status)))
+        batch = batch_ok and ctx.solver in ("auto", "batch")
+        if todo and first is not None and todo[0].case_id == first["case_id"] and case_function is None:
+            report([first])
+            todo = todo[1:]
         if todo:
             eng = _make_engine(engine, ctx, workers, scheduler, case_function)
             eng.start()

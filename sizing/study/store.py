@@ -90,7 +90,8 @@ class StudyStore:
     fingerprint : str, optional
         The study's fingerprint. A store with another fingerprint raises
         `StudyOutputConflictError` unless ``restart=True``, which deletes the
-        stored cases first. None opens an existing store read-only in intent
+        stored cases first, or unless the store holds no finished case (then
+        it is taken over as if new). None opens an existing store read-only in intent
         (for reports).
     meta : mapping, optional
         Extra entries (JSON-able) written when the store is created.
@@ -115,7 +116,10 @@ class StudyStore:
             return
         old = self.get_meta("fingerprint")
         if old is not None and old != fingerprint:
-            if not restart:
+            # A folder holding no finished case (e.g. a run stopped before its first case
+            # was stored) loses nothing when reused: take it over without --restart.
+            n_stored = self._con.execute("SELECT COUNT(*) FROM cases").fetchone()[0]
+            if not restart and n_stored > 0:
                 self._con.close()
                 raise StudyOutputConflictError(
                     str(self.folder),
