@@ -21,7 +21,7 @@ import argparse
 import sys
 from pathlib import Path
 
-__all__ = ["register", "cmd_study", "cmd_report"]
+__all__ = ["register", "cmd_study", "cmd_report", "progress_text"]
 
 
 def register(subparsers) -> None:
@@ -63,8 +63,19 @@ def _err(text: str) -> None:
             print(f"error: {line.strip()}", file=sys.stderr)
 
 
+def progress_text(counts: dict[str, int]) -> str:
+    """Outcome counts for the progress bar, one per kind.
+
+    Infeasible and constraint-rejected cases are normal results of a trade
+    study, so they are counted apart from errors (invalid case or code fault,
+    including worker crashes)."""
+    errors = counts.get("error", 0) + counts.get("crashed", 0)
+    return (f"feasible {counts.get('ok', 0):,}  infeasible {counts.get('infeasible', 0):,}  "
+            f"rejected {counts.get('rejected', 0):,}  errors {errors:,}")
+
+
 def _progress_bar(quiet: bool):
-    """A rich progress bar (cases done, failed, rate, ETA) and its update callback."""
+    """A rich progress bar (cases done, outcomes per kind, rate, ETA) and its update callback."""
     if quiet:
         return None, None
     from rich.console import Console
@@ -72,13 +83,13 @@ def _progress_bar(quiet: bool):
 
     prog = Progress(
         TextColumn("[bold]cases"), BarColumn(), MofNCompleteColumn(),
-        TextColumn("failed {task.fields[failed]}"), TextColumn("{task.fields[rate]} /s"),
+        TextColumn("{task.fields[outcomes]}"), TextColumn("{task.fields[rate]} /s"),
         TextColumn("ETA"), TimeRemainingColumn(),
         console=Console(stderr=True), transient=False, refresh_per_second=5)
-    task = prog.add_task("cases", total=None, failed=0, rate="-")
+    task = prog.add_task("cases", total=None, outcomes=progress_text({}), rate="-")
 
     def update(p) -> None:
-        prog.update(task, total=p.total, completed=p.done, failed=p.failed,
+        prog.update(task, total=p.total, completed=p.done, outcomes=progress_text(p.counts),
                     rate=f"{p.rate_per_s:,.0f}" if p.rate_per_s else "-")
 
     return prog, update

@@ -97,6 +97,11 @@ class EvalContext:
         return data
 
 
+#: Solver bookkeeping, not properties of a design: kept in the stored result, not a metric
+#: (the batch solver has no per-case iteration count).
+_SOLVER_COUNTS = frozenset({"n_iterations", "iterations"})
+
+
 def _one_line(text: str) -> str:
     return " ".join(str(text).split())[:500]
 
@@ -109,7 +114,10 @@ def result_metrics(result: Mapping[str, Any], problem, inputs: Mapping[str, Any]
                    ctx: EvalContext) -> dict[str, float]:
     """Flat metrics of one sized design (from `SizingResult.to_dict()`).
 
-    Every numeric top-level entry of the result is kept under its own name;
+    Every numeric top-level entry of the result is kept under its own name
+    (except the solver's iteration counts; ``target_error`` and
+    ``target_tolerance`` get their unit suffix, ``_m`` for an apogee target and
+    ``_m_s`` for an orbit target);
     a numeric sub-table ``x`` gives ``x.key`` entries and, for ``losses_m_s``,
     ``losses_total_m_s``. Derived: ``dry_mass_kg`` and ``propellant_mass_kg``
     (sums over stages), ``n_stages``, ``cost`` (cost model), and
@@ -122,9 +130,15 @@ def result_metrics(result: Mapping[str, Any], problem, inputs: Mapping[str, Any]
     choice, then the stage's own keys, then the [cost] defaults.
     """
     m: dict[str, float] = {}
+    target = result.get("target") if isinstance(result.get("target"), Mapping) else {}
+    # Target error and tolerance are in the target's unit: an apogee target in m; an orbit
+    # target in m/s (burnout speed minus circular speed, see `sizing.optimize.flight`).
+    err_unit = "m" if "apogee_m" in target else "m_s"
     for k, v in result.items():
+        if k in _SOLVER_COUNTS:
+            continue
         if _num(v):
-            m[k] = float(v)
+            m[f"{k}_{err_unit}" if k in ("target_error", "target_tolerance") else k] = float(v)
         elif isinstance(v, Mapping):
             vals = {kk: float(vv) for kk, vv in v.items() if _num(vv)}
             for kk, vv in vals.items():
@@ -276,21 +290,29 @@ def _evaluate_batch(cases: Sequence[Mapping[str, Any]], ctx: EvalContext,
                 continue
             stages = []
             for i, s in enumerate(problem.stages):
+                m_ign = float(br.ignition_mass_kg[j, i])
+                m_stage = float(br.propellant_mass_kg[j, i] + br.structural_mass_kg[j, i])
                 stages.append({
                     "name": s.name,
                     "isp_s": s.isp_s,
+                    "exhaust_velocity_m_s": s.exhaust_velocity_m_s,
                     "structural_coefficient": s.structural_coefficient,
-                    "ignition_mass_kg": float(br.ignition_mass_kg[j, i]),
+                    "ignition_mass_kg": m_ign,
+                    "stage_mass_kg": m_stage,
                     "propellant_mass_kg": float(br.propellant_mass_kg[j, i]),
                     "structural_mass_kg": float(br.structural_mass_kg[j, i]),
-                    "stage_mass_kg": float(br.propellant_mass_kg[j, i] + br.structural_mass_kg[j, i]),
+                    "burnout_mass_kg": m_ign - float(br.propellant_mass_kg[j, i]),
                     "mass_ratio": float(br.mass_ratio[j, i]),
+                    "payload_ratio": (m_ign - m_stage) / m_ign,
                     "delta_v_m_s": float(br.delta_v_m_s[j, i]),
                     "delta_v_share": float(br.delta_v_m_s[j, i] / dv[j]) if dv[j] > 0 else 0.0,
                 })
+            # The same top-level numeric entries as `SizingResult.to_dict()`, so every
+            # case of a study has the same metrics whichever solver sized it.
             d = {"status": "optimal", "success": True, "method": "batch",
                  "gross_mass_kg": float(br.gross_mass_kg[j]), "payload_mass_kg": float(pl[j]),
-                 "delta_v_m_s": float(dv[j]), "stages": stages}
+                 "delta_v_m_s": float(dv[j]), "payload_fraction": float(pl[j] / br.gross_mass_kg[j]),
+                 "stages": stages}
             metrics = result_metrics(d, problem, case["inputs"], ctx)
             status, msg = _check(metrics, ctx)
             on_result(_outcome(case, status, msg, t_case, metrics, d))

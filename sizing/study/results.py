@@ -13,7 +13,7 @@ import numpy as np
 
 from ..errors import StudyDefinitionError
 from .pareto import non_dominated_ranks, to_minimisation
-from .spec import Study, apply_case, study_from_dict
+from .spec import FIELD_UNITS, Study, apply_case, study_from_dict
 from .store import StudyStore
 
 __all__ = [
@@ -22,6 +22,8 @@ __all__ = [
     "write_outputs",
     "write_review_pack",
     "field_unit",
+    "column_label",
+    "input_label",
     "PARETO_CSV",
     "PARETO_XLSX",
     "REPORT_HTML",
@@ -32,24 +34,51 @@ PARETO_XLSX = "pareto.xlsx"
 CASES_CSV = "cases.csv"
 REPORT_HTML = "report.html"
 
-#: Unit of each problem field an axis may vary (values are stored in SI).
-_FIELD_UNITS = {
-    "payload_mass": "kg", "delta_v": "m/s", "gross_mass": "kg", "apogee": "m",
-    "orbit_altitude": "m", "inclination": "deg", "max_gross_mass": "kg",
-    "max_acceleration": "m/s^2", "isp": "s", "isp_sea_level": "s", "exhaust_velocity": "m/s",
-    "structural_coefficient": "-", "thrust_to_weight": "-", "thrust": "N", "diameter": "m",
-    "nozzle_exit_area": "m^2", "coast_before_ignition": "s", "max_ignition_mass": "kg",
-    "min_mass_ratio": "-", "max_mass_ratio": "-", "min_delta_v_share": "-",
-    "max_delta_v_share": "-", "propellant_mass": "kg", "structural_mass": "kg",
-    "altitude": "m", "latitude": "deg", "azimuth": "deg", "rail_length": "m",
-    "rail_angle": "deg", "pitch_kick": "deg", "vertical_rise_time": "s", "staging_delay": "s",
-    "payload_diameter": "m", "stage_count": "-",
-}
-
-
 def field_unit(field: str) -> str:
     """Unit of a problem field path such as ``stage.first.isp`` ('' when unknown)."""
-    return _FIELD_UNITS.get(field.rsplit(".", 1)[-1], "")
+    return FIELD_UNITS.get(field.rsplit(".", 1)[-1], "")
+
+
+#: Unit-suffix -> unit shown in brackets, longest suffix first.
+_SUFFIX_UNITS = (
+    ("_kg_per_m_s", "kg/(m/s)"), ("_m_s2", "m/s^2"), ("_m_s", "m/s"), ("_kg", "kg"),
+    ("_pa", "Pa"), ("_deg", "deg"), ("_m2", "m^2"), ("_n", "N"), ("_m", "m"), ("_s", "s"),
+)
+
+
+def column_label(name: str, *, cost_unit: str = "cost units") -> str:
+    """Exported column header of a metric or result field: ``name [unit]``.
+
+    One style for every numeric column of cases.csv, pareto.csv/.xlsx and the
+    review pack: the unit suffix of the field name moves into brackets
+    (``gross_mass_kg`` -> ``gross_mass [kg]``, ``first.delta_v_m_s`` ->
+    ``first.delta_v [m/s]``); ``cost`` carries the study's cost unit; names
+    without a unit suffix are dimensionless by the project's naming rule and
+    get ``[-]`` (``n_stages [-]``, ``payload_fraction [-]``).
+
+    Examples
+    --------
+    >>> column_label("max_acceleration_m_s2")
+    'max_acceleration [m/s^2]'
+    >>> column_label("cost", cost_unit="kilo-credits")
+    'cost [kilo-credits]'
+    >>> column_label("n_stages")
+    'n_stages [-]'
+    """
+    if name == "cost":
+        return f"cost [{cost_unit}]"
+    for suffix, unit in _SUFFIX_UNITS:
+        if name.endswith(suffix) and len(name) > len(suffix):
+            return f"{name[: -len(suffix)]} [{unit}]"
+    return f"{name} [-]"
+
+
+def input_label(name: str, unit: str) -> str:
+    """Exported column header of a study input (axis or choice): ``name [unit]``.
+
+    Text inputs (a propellant choice) have no unit; pass ``unit=''``.
+    """
+    return f"{name} [{unit}]" if unit else name
 
 
 @dataclass
@@ -85,12 +114,8 @@ class StudyResults:
 
     @property
     def input_units(self) -> dict[str, str]:
-        """Input name -> unit, from the axis field each name varies."""
-        units = {}
-        for ax in self.study.spec.axis:
-            units[ax.label or ax.field] = field_unit(ax.field)
-        units["stage_count"] = "-"
-        return units
+        """Input name -> unit, from the axis field each name varies ('' for text choices)."""
+        return study_input_units(self.study)
 
     @property
     def pareto(self) -> list[dict[str, Any]]:
@@ -110,25 +135,51 @@ class StudyResults:
         import pandas as pd
 
         units = self.input_units
-        records = []
-        for r in (self.rows if rows is None else rows):
-            rec: dict[str, Any] = {"case_id": r["case_id"], "status": r["status"],
-                                   "pareto_rank": r["rank"]}
-            for k in self.input_names:
-                u = units.get(k, "")
-                rec[f"{k} [{u}]" if u else k] = r["inputs"].get(k)
-            for k, v in r["metrics"].items():
-                if "." in k:
-                    continue
-                rec[k if k != "cost" else f"cost [{self.study.cost_unit}]"] = v
+        cu = self.study.cost_unit
+        src = self.rows if rows is None else rows
+        # every stage name any case has, bottom first, so columns keep one order
+        stage_names: list[str] = []
+        for r in src:
             for s in (r.get("result") or {}).get("stages", []) or []:
-                for q in ("ignition_mass_kg", "propellant_mass_kg", "structural_mass_kg", "delta_v_m_s"):
-                    if q in s:
-                        rec[f"{s['name']}.{q}"] = s[q]
+                if s.get("name") not in stage_names:
+                    stage_names.append(s.get("name"))
+        metric_names: list[str] = []
+        for r in src:
+            for k in r["metrics"]:
+                if "." not in k and k not in metric_names:
+                    metric_names.append(k)
+        records = []
+        for r in src:
+            rec: dict[str, Any] = {"case_id": r["case_id"], "status": r["status"],
+                                   "pareto_rank [-]": r["rank"]}
+            for k in self.input_names:
+                rec[input_label(k, units.get(k, ""))] = r["inputs"].get(k)
+            for k in metric_names:
+                rec[column_label(k, cost_unit=cu)] = r["metrics"].get(k)
+            by_name = {s.get("name"): s for s in (r.get("result") or {}).get("stages", []) or []}
+            for n in stage_names:
+                s = by_name.get(n, {})
+                for q in _STAGE_COLUMNS:
+                    rec[column_label(f"{n}.{q}")] = s.get(q)
             rec["message"] = r["message"]
-            rec["elapsed_s"] = r["elapsed_s"]
+            rec["elapsed [s]"] = r["elapsed_s"]
             records.append(rec)
         return pd.DataFrame.from_records(records)
+
+
+_STAGE_COLUMNS = ("ignition_mass_kg", "propellant_mass_kg", "structural_mass_kg", "delta_v_m_s")
+
+
+def study_input_units(study: Study) -> dict[str, str]:
+    """Input name -> unit for a study's axes and choices ('' for text choices)."""
+    special = {"cost_per_dry_kg": f"{study.cost_unit}/kg", "cost_fixed": study.cost_unit,
+               "target_tolerance": "m or m/s"}
+    units = {}
+    for ax in study.spec.axis:
+        key = ax.field.rsplit(".", 1)[-1]
+        units[ax.label or ax.field] = special.get(key) or field_unit(ax.field) or "-"
+    units["stage_count"] = "-"
+    return units
 
 
 def _study_from_store(store: StudyStore) -> Study:
@@ -277,11 +328,11 @@ def write_review_pack(folder: str | Path, case_id: int, out_dir: str | Path | No
     write_stage_table(result, out / "stage_masses.xlsx")
     write_stage_table(result, out / "stage_masses.md")
     write_stage_table(result, out / "stage_masses.json")
-    units = {ax.label or ax.field: field_unit(ax.field) for ax in study.spec.axis}
+    units = study_input_units(study)
     lines = [f"# Design review pack: {study.name}, case {case_id}", "",
              f"> {CAUTION}", "", "## Inputs", "", "| input | value | unit |", "|:---|---:|:---|"]
     for k, v in row["inputs"].items():
-        lines.append(f"| {k} | {'n/a' if v is None else v} | {units.get(k, '-' if k == 'stage_count' else '')} |")
+        lines.append(f"| {k} | {'n/a' if v is None else v} | {units.get(k, '') or '(text)'} |")
     lines += ["", "## Delta-v budget", "", "| item | delta-v [m/s] |", "|:---|---:|"]
     for s in result.stages:
         lines.append(f"| {s.name} (ideal) | {s.delta_v_m_s:,.1f} |")
@@ -291,10 +342,10 @@ def write_review_pack(folder: str | Path, case_id: int, out_dir: str | Path | No
         if isinstance(v, (int, float)):
             lines.append(f"| loss: {k} | {-float(v):,.1f} |")
     lines.append(f"| total ideal | {result.delta_v_m_s:,.1f} |")
-    lines += ["", "## Study metrics", "", "| metric | value |", "|:---|---:|"]
+    lines += ["", "## Study metrics", "", "| metric [unit] | value |", "|:---|---:|"]
     for k, v in row["metrics"].items():
         if "." not in k:
-            lines.append(f"| {k if k != 'cost' else f'cost [{study.cost_unit}]'} | {v:,.6g} |")
+            lines.append(f"| {column_label(k, cost_unit=study.cost_unit)} | {v:,.6g} |")
     lines += ["", result_markdown(result, title=f"{study.name}, case {case_id}")]
     (out / "review.md").write_text("\n".join(lines) + "\n", encoding="utf-8")
     return out

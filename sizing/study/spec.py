@@ -36,6 +36,7 @@ __all__ = [
     "Bound",
     "StudyFile",
     "CORE_METRICS",
+    "FIELD_UNITS",
     "METRIC_SENSES",
     "MSG_AXIS_FORM",
     "MSG_UNKNOWN_STAGE",
@@ -75,6 +76,21 @@ FLIGHT_METRICS: dict[str, str] = {
 METRIC_SENSES: dict[str, str] = {**CORE_METRICS, **FLIGHT_METRICS}
 
 _ALLOWED_TABLES = ("mission", "stage", "launch", "solver")
+
+#: SI unit of each problem-file key an axis may vary (axis values are in this unit).
+FIELD_UNITS = {
+    "payload_mass": "kg", "delta_v": "m/s", "gross_mass": "kg", "apogee": "m",
+    "orbit_altitude": "m", "inclination": "deg", "max_gross_mass": "kg",
+    "max_acceleration": "m/s^2", "standard_gravity": "m/s^2", "isp": "s", "isp_sea_level": "s",
+    "exhaust_velocity": "m/s", "structural_coefficient": "-", "thrust_to_weight": "-",
+    "thrust": "N", "diameter": "m", "nozzle_exit_area": "m^2", "coast_before_ignition": "s",
+    "max_ignition_mass": "kg", "min_mass_ratio": "-", "max_mass_ratio": "-",
+    "min_delta_v_share": "-", "max_delta_v_share": "-", "propellant_mass": "kg",
+    "structural_mass": "kg", "altitude": "m", "latitude": "deg", "azimuth": "deg",
+    "rail_length": "m", "rail_angle": "deg", "pitch_kick": "deg", "vertical_rise_time": "s",
+    "staging_delay": "s", "payload_diameter": "m", "stage_count": "-",
+    "max_iterations": "-", "tolerance": "-",
+}
 
 
 class _Strict(BaseModel):

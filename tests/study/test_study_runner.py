@@ -45,9 +45,21 @@ def test_study_case_matches_curtis_example_11_6(tmp_path):
         assert case["metrics"]["gross_mass_kg"] == pytest.approx(191_200.0, rel=2e-4)
         ratios = [s["mass_ratio"] for s in case["result"]["stages"]]
         assert ratios == pytest.approx([4.541, 2.507, 1.361], abs=6e-4)
+        # payload fraction 5000 / 191 200 = 0.02615 (same example), from either solver
+        assert case["metrics"]["payload_fraction"] == pytest.approx(5000.0 / 191_200.0, rel=2e-4)
     a, b = _rows(tmp_path / "batch"), _rows(tmp_path / "each")
     for k in a:
         assert a[k]["metrics"]["gross_mass_kg"] == pytest.approx(b[k]["metrics"]["gross_mass_kg"], rel=1e-9)
+        # both solvers give the same metrics, so cases.csv has no column filled for only some
+        # (dotted sub-table metrics such as trade factors are not cases.csv columns)
+        flat_b = {m: v for m, v in b[k]["metrics"].items() if "." not in m}
+        assert sorted(m for m in a[k]["metrics"] if "." not in m) == sorted(flat_b)
+        for m, v in flat_b.items():
+            assert a[k]["metrics"][m] == pytest.approx(v, rel=1e-9), m
+        sa, sb = a[k]["result"]["stages"], b[k]["result"]["stages"]
+        for qa, qb in zip(sa, sb):
+            for q in ("payload_ratio", "burnout_mass_kg", "stage_mass_kg", "exhaust_velocity_m_s"):
+                assert qa[q] == pytest.approx(qb[q], rel=1e-9), q
 
 
 def test_study_failures_are_recorded_and_study_continues(tmp_path):
@@ -95,6 +107,52 @@ def test_study_bad_base_problem_fails_before_running(tmp_path):
     data = small_study(objective=[{"metric": "apogee_m"}])
     with pytest.raises(StudyDefinitionError, match="objective metric 'apogee_m' is not produced"):
         run_study(study_from_dict(data), tmp_path / "b", engine="serial")
+
+
+def test_study_bad_first_case_leaves_no_store_and_fixed_file_reuses_folder(tmp_path):
+    """A study whose first case is invalid (payload start = -120) is refused before the
+    output folder gets a store; after the fix the same folder runs without --restart."""
+    data = small_study(axis=[{"field": "mission.payload_mass", "start": -120.0, "stop": 240.0,
+                              "num": 4}])
+    out = tmp_path / "run"
+    with pytest.raises(StudyDefinitionError, match=r"mission\.payload_mass"):
+        run_study(study_from_dict(data), out, engine="serial")
+    assert not (out / "study.sqlite").exists()
+    data["axis"][0]["start"] = 120.0
+    summary = run_study(study_from_dict(data), out, engine="serial", write_outputs=False)
+    assert summary.counts == {"ok": 4}
+
+
+def test_study_store_with_no_finished_case_is_taken_over(tmp_path):
+    """A store holding 0 finished cases (e.g. a run stopped before its first case) is
+    reused by another study file without --restart; one with cases is still refused."""
+    StudyStore(tmp_path, fingerprint="a" * 64).close()
+    with StudyStore(tmp_path, fingerprint="b" * 64) as s:
+        assert s.get_meta("fingerprint") == "b" * 64
+        s.record([{"case_id": 0, "key": "k", "status": "ok", "message": "", "metrics": {},
+                   "result": None, "elapsed_s": 0.0}], {0: {}})
+    with pytest.raises(StudyOutputConflictError, match=MSG_OTHER_STUDY):
+        StudyStore(tmp_path, fingerprint="c" * 64)
+
+
+def test_study_progress_counts_each_outcome_kind(tmp_path):
+    """Infeasible (beyond sum c ln(1/eps), Curtis Sec. 11.6), rejected and error cases are
+    counted apart in the progress callback and the progress bar text."""
+    from sizing.cli_study import progress_text
+
+    data = small_study(axis=[
+        {"field": "mission.delta_v", "values": [9000.0, 10000.0, 30000.0]},
+        {"field": "stage.third.structural_coefficient", "values": [0.2, 1.2]},
+    ], constraints={"max_gross_mass": "150 t"})
+    seen = []
+    summary = run_study(study_from_dict(data), tmp_path, engine="serial", write_outputs=False,
+                        on_progress=seen.append)
+    assert summary.counts == {"ok": 1, "rejected": 1, "infeasible": 1, "error": 3}
+    last = seen[-1]
+    assert last.counts == summary.counts and last.failed == 5
+    text = progress_text(last.counts)
+    assert text == "feasible 1  infeasible 1  rejected 1  errors 3"
+    assert "failed" not in text
 
 
 _CHILD = """
@@ -240,7 +298,15 @@ def test_study_outputs_and_review_pack(tmp_path):
     assert front == {r["case_id"] for r in res.rows if r["inputs"]["mission.delta_v"] == 9000.0}
     pf = pd.read_csv(tmp_path / "pareto.csv")
     assert sorted(pf["case_id"]) == sorted(front)
-    assert "mission.payload_mass [kg]" in pf.columns and "gross_mass_kg" in pf.columns
+    assert "mission.payload_mass [kg]" in pf.columns and "gross_mass [kg]" in pf.columns
+    # one unit style: every column but the text ones carries "[unit]", "[-]" if dimensionless
+    cases = pd.read_csv(tmp_path / "cases.csv")
+    for frame in (pf, cases):
+        numeric = [c for c in frame.columns if c not in ("case_id", "status", "message")]
+        assert all(c.endswith("]") for c in numeric), numeric
+        assert not any(c.endswith(("_kg", "_s", "_m_s")) for c in frame.columns)
+    assert {"n_stages [-]", "payload_fraction [-]", "first.delta_v [m/s]", "elapsed [s]"} <= set(cases.columns)
+    assert cases["payload_fraction [-]"].notna().all()
     cid = min(front)
     pack = write_review_pack(tmp_path, cid)
     text = (pack / "review.md").read_text()
@@ -248,5 +314,27 @@ def test_study_outputs_and_review_pack(tmp_path):
     stored = res.rows[cid]["metrics"]["gross_mass_kg"]
     assert f"{stored:,.1f}"[:-2] in (pack / "stage_masses.md").read_text()
     assert (pack / "stage_masses.xlsx").exists()
+    assert "| n_stages [-] |" in text and "| gross_mass [kg] |" in text
     with pytest.raises(ValueError, match="case 999: not in"):
         write_review_pack(tmp_path, 999)
+
+
+def test_result_metrics_target_error_carries_the_target_unit():
+    """target_error/target_tolerance are in the target's unit (sizing.optimize.flight):
+    metres for an apogee target, m/s (burnout minus circular speed) for an orbit."""
+    from sizing.problem.load import problem_from_dict
+    from sizing.study.evaluate import EvalContext, result_metrics
+    from sizing.study.results import column_label
+
+    problem = problem_from_dict(copy.deepcopy(CURTIS_11_6))
+    ctx = EvalContext(objectives=(), bounds=())
+    apo = result_metrics({"target": {"apogee_m": 3.0e4}, "target_error": 2.0, "target_tolerance": 3.0,
+                          "n_iterations": 4, "stages": []}, problem, {}, ctx)
+    assert apo["target_error_m"] == 2.0 and apo["target_tolerance_m"] == 3.0
+    assert "n_iterations" not in apo and "target_error" not in apo
+    orb = result_metrics({"target": {"orbit_altitude_m": 5.0e5}, "target_error": -0.2,
+                          "stages": []}, problem, {}, ctx)
+    assert orb["target_error_m_s"] == -0.2
+    assert column_label("target_error_m") == "target_error [m]"
+    assert column_label("target_error_m_s") == "target_error [m/s]"
+    assert column_label("max_dynamic_pressure_pa") == "max_dynamic_pressure [Pa]"
