@@ -33,8 +33,9 @@ BAR = 1e5
 
 
 def bottle(**kw) -> WaterStage:
-    """An invented 1.5 L bottle stage; burst 12.1 bar is the published 1.5 L figure
-    (check-values.md section 7, hobbyist hydrostatic burst tests, F)."""
+    """An invented 1.5 L bottle stage; burst 12.1 bar is the published 1.5 L figure from
+    hobbyist hydrostatic burst-test reports published online, 2006-2007 (found; the individual
+    report is not named in the project's shared check values, sec. 7)."""
     base = dict(
         name="bottle", bottle_volume_m3=1.5e-3, dry_mass_kg=0.12, diameter_m=0.09,
         nozzle_throat_diameter_m=0.009, initial_gauge_pressure_pa=5 * BAR,
@@ -51,8 +52,9 @@ def _air_volume(thr, stage):
 # ---------------------------------------------------------------- water phase
 def test_water_thrust_is_twice_gauge_pressure_times_nozzle_area():
     """Incompressible Bernoulli jet, large bottle-to-nozzle area ratio: u = sqrt(2 dp/rho),
-    F = rho A u^2 = 2 dp A_e (check-values.md section 7, C; Kagan, Buchholz & Klein,
-    The Physics Teacher 33, 150 (1995) -- equation numbers not checked)."""
+    F = rho A u^2 = 2 dp A_e (Bernoulli's equation, derivation computed; Kagan, Buchholz &
+    Klein, "Soda-bottle water rockets", The Physics Teacher 33, 150-157 (1995) -- equation
+    numbers not checked)."""
     s = bottle()
     thr = simulate_water_thrust(s)
     w = thr.times_s <= thr.water_end_s
@@ -63,8 +65,9 @@ def test_water_thrust_is_twice_gauge_pressure_times_nozzle_area():
 
 def test_water_phase_constant_pressure_limit():
     """Constant-pressure limit (tiny water volume in a huge air volume): exit speed
-    sqrt(2 dp/rho), water-phase duration V_w/(A_e u) and impulse m_w u (check-values.md
-    section 7, C; the same limit underlies the Wikipedia 'Water rocket' peak-height formula)."""
+    sqrt(2 dp/rho), water-phase duration V_w/(A_e u) and impulse m_w u (Bernoulli's equation,
+    values computed; the same limit underlies the constant-pressure peak-height formula of the
+    Wikipedia article "Water rocket", section on predicting peak height)."""
     s = bottle(bottle_volume_m3=0.2, water_fill_fraction=2e-5, rated_pressure_pa=20 * BAR,
                nozzle_throat_diameter_m=0.004)
     thr = simulate_water_thrust(s)
@@ -77,8 +80,10 @@ def test_water_phase_constant_pressure_limit():
 
 
 def test_water_phase_follows_adiabatic_pressure_law():
-    """Adiabatic air: p V^1.4 = const during the water phase (check-values.md section 7;
-    polytropic exponent between 1 and 1.4 per Romanelli et al., arXiv:1211.1923)."""
+    """Adiabatic air: p V^1.4 = const during the water phase (isentropic relation of a perfect
+    gas, gamma = 1.4 for air, from memory; CoolProp gives 1.4022 at 288 K). Romanelli, Bove &
+    Gonzalez Madina, "Air expansion in the water rocket", arXiv:1211.1923, find a polytropic
+    exponent between 1 and 1.4. Checks the model's pressure law, not a published number."""
     s = bottle()
     thr = simulate_water_thrust(s)
     w = thr.times_s <= thr.water_end_s
@@ -88,7 +93,8 @@ def test_water_phase_follows_adiabatic_pressure_law():
 
 
 def test_water_phase_isothermal_option():
-    """Isothermal limit n = 1: Boyle's law p V = const."""
+    """Isothermal limit n = 1: Boyle's law p V = const (ideal-gas law at constant temperature;
+    standard physics, no specific source cited)."""
     s = bottle(polytropic_exponent=1.0)
     thr = simulate_water_thrust(s)
     w = thr.times_s <= thr.water_end_s
@@ -98,7 +104,8 @@ def test_water_phase_isothermal_option():
 
 @pytest.mark.parametrize("fill", [0.2, 1 / 3, 0.6, 0.9])
 def test_water_phase_duration_and_impulse_match_quadrature(fill):
-    """Same model integrated independently with scipy.integrate.quad:
+    """Same model integrated independently with scipy.integrate.quad (scipy 1.17, general-purpose
+    library):
     t_w = int dV / (A_e u(V)), I_w = int rho u(V) dV, p(V) = p0 (V0/V)^1.4.
     Covers both endings: water runs out (0.2, 1/3, 0.6) or air reaches ambient (0.9)."""
     s = bottle(water_fill_fraction=fill)
@@ -117,7 +124,8 @@ def test_water_phase_duration_and_impulse_match_quadrature(fill):
 # ---------------------------------------------------------------- air phase
 def test_air_phase_choked_state_matches_fluids_library():
     """Convergent nozzle, isentropic perfect gas: critical pressure and temperature from
-    fluids.compressible.P_critical_flow / T_critical_flow (general-purpose PyPI library);
+    fluids.compressible.P_critical_flow / T_critical_flow (fluids 1.3.1, general-purpose PyPI
+    library);
     choked mass flow = rho* a* A, thrust = mdot a* + (p* - p_a) A (Anderson, Modern
     Compressible Flow, 3rd ed., ch. 5 -- from memory)."""
     from fluids.compressible import P_critical_flow, T_critical_flow, is_critical_flow
@@ -134,7 +142,9 @@ def test_air_phase_choked_state_matches_fluids_library():
 
 def test_air_phase_unchoked_state_matches_fluids_library():
     """Unchoked: exit at ambient pressure; the stagnation temperature recovered from the
-    exit state with fluids.compressible.T_stagnation equals the bottle temperature."""
+    exit state with fluids.compressible.T_stagnation (fluids 1.3.1) equals the bottle
+    temperature; steady-flow energy equation u_e^2/2 = cp (T0 - T_e) (Anderson, Modern
+    Compressible Flow, 3rd ed. -- from memory)."""
     from fluids.compressible import T_stagnation, is_critical_flow
 
     p, t, a = 1.5 * BAR, 250.0, 1e-4
@@ -149,6 +159,9 @@ def test_air_phase_unchoked_state_matches_fluids_library():
 
 
 def test_air_phase_expels_air_down_to_ambient_isentropically():
+    """Isentropic blowdown of a rigid vessel: p / rho^gamma = const with rho = m / V_bottle
+    (isentropic relation of a perfect gas, Anderson, Modern Compressible Flow, 3rd ed. -- from
+    memory); the air phase ends at ambient pressure with zero thrust and positive impulse."""
     s = bottle(water_fill_fraction=0.25)
     thr = simulate_water_thrust(s)
     assert thr.end_s > thr.water_end_s
@@ -164,7 +177,8 @@ def test_air_phase_expels_air_down_to_ambient_isentropically():
 
 # ---------------------------------------------------------------- launch tube
 def test_launch_tube_obeys_momentum_theorem():
-    """On the tube: m v_exit = int (F - m g) dt (Newton's second law, constant mass)."""
+    """On the tube: m v_exit = int (F - m g) dt (impulse-momentum theorem, Newton's second law
+    at constant mass; integrated with numpy.trapezoid on the returned tables)."""
     s = bottle(launch_tube_length_m=0.25, launch_tube_diameter_m=0.008)
     m = s.launch_mass_kg()
     thr = simulate_water_thrust(s)
@@ -181,8 +195,10 @@ def test_launch_tube_must_fit():
 
 # ---------------------------------------------------------------- safety
 def test_refuses_pressure_above_rating_over_safety_factor():
-    """2 L PET bottle burst 11.4 bar (check-values.md section 7, F); default safety factor 2
-    (burst >= 2 x MEOP, DTEG, check-values.md section 6, F) allows 5.7 bar and refuses 6 bar."""
+    """2 L PET bottle burst 11.4 bar (hobbyist hydrostatic burst-test reports published online,
+    2006-2007, found); default safety factor 2 (burst >= 2 x MEOP, Spaceport America Cup Design,
+    Test & Evaluation Guide, as quoted on a university rocket-team wiki, found) allows 5.7 bar
+    and refuses 6 bar. (Both tabulated in the project's shared check values, secs. 6-7.)"""
     ok = bottle(bottle_volume_m3=2e-3, rated_pressure_pa=11.4 * BAR, initial_gauge_pressure_pa=5.7 * BAR)
     assert ok.max_gauge_pressure_pa == pytest.approx(5.7 * BAR)
     with pytest.raises(FieldError, match=re.escape(MSG_PRESSURE_LIMIT)) as info:
@@ -206,6 +222,8 @@ def test_fill_fraction_out_of_range(fill):
 
 # ---------------------------------------------------------------- flight stages
 def test_flight_stage_mass_bookkeeping():
+    """Consistency check, no external source: the flight stage carries the bottle's mass and
+    impulse."""
     s = bottle()
     fs = water_flight_stage(s)
     assert fs.stage_mass_kg == pytest.approx(s.launch_mass_kg(), rel=1e-12)
@@ -214,6 +232,7 @@ def test_flight_stage_mass_bookkeeping():
 
 
 def test_water_vehicle_two_stages_tube_only_at_bottom():
+    """Consistency check, no external source: stage order, gross mass and tube placement."""
     low = bottle(name="low", launch_tube_length_m=0.2, launch_tube_diameter_m=0.008)
     up = bottle(name="up", bottle_volume_m3=1.0e-3, dry_mass_kg=0.08)
     veh = water_vehicle([low, up], 0.05)
@@ -224,8 +243,10 @@ def test_water_vehicle_two_stages_tube_only_at_bottom():
 
 
 def test_water_phase_delta_v_below_constant_pressure_formula():
-    """Wikipedia 'Water rocket' constant-pressure peak height h = (p_g/(rho g)) ln^2(M/(M - M_w))
-    (check-values.md section 7, F for the variables, C for the form) equals dv^2/(2 g) with
+    """Constant-pressure peak height h = (p_g/(rho g)) ln^2(M/(M - M_w)) (Wikipedia article
+    "Water rocket", section on predicting peak height: variable list found, formula form
+    computed from its assumptions; tabulated in the project's shared check values, sec. 7)
+    equals dv^2/(2 g) with
     dv = sqrt(2 p_g/rho) ln(M/(M - M_w)). The air pressure only falls while water leaves, so
     the water phase's ideal dv = int F/m dt must stay below that dv (an upper bound; the
     air pulse that follows is not in the formula)."""
@@ -243,8 +264,9 @@ def test_water_phase_delta_v_below_constant_pressure_formula():
 
 def test_flown_apogee_below_constant_pressure_formula():
     """With drag, gravity loss and the falling pressure the flown apogee of a 1/3-filled
-    bottle stays well below the Wikipedia constant-pressure height (an upper-bound check,
-    check-values.md section 7: 'it over-predicts badly')."""
+    bottle stays well below the constant-pressure height of the Wikipedia article "Water
+    rocket" (variable list found, formula form computed; an upper-bound check, since the
+    formula over-predicts badly)."""
     s = bottle()
     h = _vertical_oracle(water_vehicle(s), LaunchSite())
     m_total = s.launch_mass_kg()
@@ -258,7 +280,8 @@ def test_flown_apogee_below_constant_pressure_formula():
 @given(p1=st.floats(1.0, 6.0), p2=st.floats(1.0, 6.0), fill=st.floats(0.1, 0.7),
        d=st.floats(0.004, 0.022))
 def test_more_pressure_never_lowers_impulse(p1, p2, fill, d):
-    """Property: at the same fill and nozzle, a higher launch pressure never gives less impulse."""
+    """Property: at the same fill and nozzle, a higher launch pressure never gives less impulse
+    (physical monotonicity; consistency check, no external source)."""
     lo, hi = sorted((p1, p2))
     a = simulate_water_thrust(bottle(initial_gauge_pressure_pa=lo * BAR, water_fill_fraction=fill,
                                      nozzle_throat_diameter_m=d))
@@ -270,7 +293,8 @@ def test_more_pressure_never_lowers_impulse(p1, p2, fill, d):
 @settings(max_examples=15, derandomize=True, deadline=None)
 @given(p=st.floats(0.5, 6.0), fill=st.floats(0.02, 0.98), d=st.floats(0.003, 0.022))
 def test_tables_are_well_formed(p, fill, d):
-    """Property: times increase, thrust >= 0 ending at 0, propellant runs down to 0."""
+    """Property: times increase, thrust >= 0 ending at 0, propellant runs down to 0 (consistency
+    check, no external source)."""
     s = bottle(initial_gauge_pressure_pa=p * BAR, water_fill_fraction=fill, nozzle_throat_diameter_m=d)
     thr = simulate_water_thrust(s)
     assert np.all(np.diff(thr.times_s) > 0)
@@ -283,7 +307,9 @@ def test_tables_are_well_formed(p, fill, d):
 # ---------------------------------------------------------------- optimum fill
 def _vertical_oracle(vehicle, site):
     """Test oracle independent of sizing.physics.trajectory: vertical flight, constant g0,
-    sea-level air density 1.225 kg/m^3 (US Standard Atmosphere 1976), drag 1/2 rho v^2 C_D S,
+    sea-level air density 1.225 kg/m^3 and speed of sound 340.3 m/s (US Standard Atmosphere 1976,
+    Table I sea-level values via fluids.atmosphere.ATMOSPHERE_1976, fluids 1.3.1), drag
+    1/2 rho v^2 C_D S,
     Newton's second law with thrust and mass from the stage tables (solve_ivp, RK45)."""
     h, v = 0.0, 0.0
     n = len(vehicle.stages)
@@ -315,9 +341,10 @@ def _vertical_oracle(vehicle, site):
 @pytest.mark.parametrize("volume_l,burst_bar,pressure_bar", [(1.5, 12.1, 4.0), (1.5, 12.1, 6.0), (2.0, 11.4, 5.0)])
 def test_optimum_fill_near_one_third(volume_l, burst_bar, pressure_bar):
     """Trade fact: for a typical 1.5-2 L bottle at 4-6 bar the best fill is near one third of
-    the volume (hobby rule of thumb: common practice, no source; check-values.md section 7
-    notes a simple adiabatic model reproduces it, and a published Q&A simulation gave 31 %
-    for 2 L at 100 psi, F weak). Tolerant band 0.2-0.45. Invented airframe masses."""
+    the volume (hobby rule of thumb: common practice, no source; a simple adiabatic model
+    reproduces it, and a question-and-answer page's simulation gave 31 % for 2 L at 100 psi --
+    found, weak, page not named in the project's shared check values, sec. 7). Tolerant band
+    0.2-0.45. Invented airframe masses."""
     s = bottle(bottle_volume_m3=volume_l * 1e-3, rated_pressure_pa=burst_bar * BAR,
                initial_gauge_pressure_pa=pressure_bar * BAR, water_fill_fraction=0.5,
                dry_mass_kg=0.10 + 0.03 * volume_l, diameter_m=0.09 if volume_l < 1.8 else 0.105)
@@ -331,6 +358,7 @@ def test_optimum_fill_near_one_third(volume_l, burst_bar, pressure_bar):
 
 
 def test_optimiser_keeps_pressure_within_rating():
+    """Consistency check, no external source: the optimiser never exceeds the allowed pressure."""
     s = bottle(initial_gauge_pressure_pa=3 * BAR)
     opt = optimise_water_stage(s, vary=("fill", "pressure"), apogee=_vertical_oracle, n_grid=4,
                                max_gauge_pressure_pa=20 * BAR, max_evaluations=60)
@@ -346,7 +374,8 @@ def test_optimiser_rejects_unknown_variable():
 
 
 def test_fill_optimum_with_flight_module():
-    """The same one-third check flown with sizing.physics.trajectory.fly_vertical."""
+    """The same one-third check flown with sizing.physics.trajectory.fly_vertical (hobby rule of
+    thumb: common practice, no source)."""
     pytest.importorskip("sizing.physics.trajectory")
     s = bottle(water_fill_fraction=0.5)
     opt = optimise_water_stage(s, vary=("fill",), site=LaunchSite(), n_grid=9)
