@@ -17,6 +17,7 @@ Case statuses
 
 from __future__ import annotations
 
+import difflib
 import math
 import time
 import traceback
@@ -175,7 +176,9 @@ def _check(metrics: Mapping[str, float], ctx: EvalContext) -> tuple[str, str]:
     """Status and message from the study constraints and objective metrics."""
     for ob in ctx.objectives:
         if ob.metric not in metrics:
-            return "error", (f"objective metric {ob.metric!r} is not produced by this case; "
+            near = difflib.get_close_matches(ob.metric, list(metrics), n=1)
+            hint = f"; did you mean {near[0]!r}?" if near else ";"
+            return "error", (f"objective metric {ob.metric!r} is not produced by this case{hint} "
                              f"available: {', '.join(sorted(metrics))}")
     for b in ctx.bounds:
         v = metrics.get(b.metric)

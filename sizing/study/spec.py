@@ -43,6 +43,7 @@ __all__ = [
     "MSG_FIELD_PATH",
     "MSG_UNKNOWN_PROPELLANT",
     "MSG_SAMPLED_NEEDS_METHOD",
+    "unknown_metric_text",
     "load_study",
     "study_from_dict",
     "expand_cases",
@@ -64,6 +65,7 @@ CORE_METRICS: dict[str, str] = {
     "propellant_mass_kg": "min",
     "n_stages": "min",
     "cost": "min",
+    "payload_fraction": "max",
 }
 #: Flight metrics known to come from flight-aware results (apogee / orbit targets).
 FLIGHT_METRICS: dict[str, str] = {
@@ -72,6 +74,7 @@ FLIGHT_METRICS: dict[str, str] = {
     "liftoff_thrust_to_weight": "max",
     "apogee_m": "max",
     "losses_total_m_s": "min",
+    "rail_exit_speed_m_s": "max",
 }
 METRIC_SENSES: dict[str, str] = {**CORE_METRICS, **FLIGHT_METRICS}
 
@@ -335,7 +338,30 @@ _MODELS: dict[str, type[BaseModel]] = {
 }
 
 
-def _render(exc: ValidationError) -> list[str]:
+#: The validation library's error kinds, in the project's words ("must be ...").
+_KIND_WORDS = {
+    "float_parsing": "must be a number", "float_type": "must be a number",
+    "int_parsing": "must be a whole number", "int_type": "must be a whole number",
+    "int_from_float": "must be a whole number", "string_type": "must be text (a quoted string)",
+    "list_type": "must be a list [...]", "bool_type": "must be true or false",
+    "bool_parsing": "must be true or false", "dict_type": "must be a table",
+    "model_type": "must be a table", "model_attributes_type": "must be a table",
+    "finite_number": "must be a finite number",
+}
+_BOUND_WORDS = {"greater_than": ("gt", ">"), "greater_than_equal": ("ge", ">="),
+                "less_than": ("lt", "<"), "less_than_equal": ("le", "<=")}
+_AXIS_NUMBERS = ("start", "stop", "low", "high")
+
+
+def _axis_field(data: Mapping[str, Any] | None, index: int) -> str | None:
+    try:
+        f = data["axis"][index]["field"]  # type: ignore[index]
+    except (KeyError, IndexError, TypeError):
+        return None
+    return f if isinstance(f, str) else None
+
+
+def _render(exc: ValidationError, data: Mapping[str, Any] | None = None) -> list[str]:
     faults: dict[str, str] = {}
     for err in exc.errors():
         loc = tuple(p for p in err["loc"] if not (isinstance(p, str) and (
@@ -362,6 +388,23 @@ def _render(exc: ValidationError) -> list[str]:
         elif kind == "value_error":
             msg = str(err["ctx"].get("error", err["msg"])).rstrip(".")
             faults[where] = f"{where}: {msg}."
+        elif kind in _KIND_WORDS:
+            words = _KIND_WORDS[kind]
+            if (len(loc) == 3 and loc[0] == "axis" and isinstance(loc[1], int)
+                    and loc[2] in _AXIS_NUMBERS):
+                fld = _axis_field(data, loc[1])
+                unit = FIELD_UNITS.get(fld.rsplit(".", 1)[-1]) if fld else None
+                words += (f" in the field's SI unit ({unit} for {fld})" if unit
+                          else " in the field's SI unit")
+                words += "; unit strings such as '4 kg' are allowed in values = [...] only"
+            faults[where] = f"{where}: {words}. Got {got!r}."
+        elif kind in _BOUND_WORDS:
+            key, op = _BOUND_WORDS[kind]
+            faults[where] = f"{where}: must be {op} {err['ctx'][key]}. Got {got!r}."
+        elif kind in ("too_short", "too_long"):
+            n = err["ctx"].get("min_length" if kind == "too_short" else "max_length")
+            words = f"needs at least {n}" if kind == "too_short" else f"allows at most {n}"
+            faults[where] = f"{where}: {words} entries. Got {err['ctx'].get('actual_length')}."
         else:
             msg = err["msg"].rstrip(".")
             faults[where] = f"{where}: {msg}. Got {got!r}."
@@ -426,7 +469,7 @@ def study_from_dict(data: Mapping[str, Any], *, source: str = "<dict>",
     try:
         spec = StudyFile.model_validate(data)
     except ValidationError as exc:
-        raise StudyDefinitionError(source, _render(exc)) from None
+        raise StudyDefinitionError(source, _render(exc, data)) from None
     faults: list[str] = []
 
     # -- base problem
@@ -529,8 +572,8 @@ def study_from_dict(data: Mapping[str, Any], *, source: str = "<dict>",
         seen.add(ob.metric)
         sense = ob.sense or METRIC_SENSES.get(ob.metric)
         if sense is None:
-            faults.append(f"objective[{i + 1}].sense: required for metric {ob.metric!r} "
-                          f"(known metrics: {', '.join(METRIC_SENSES)}); give 'min' or 'max'.")
+            faults.append(f"objective[{i + 1}].metric: {unknown_metric_text(ob.metric)} Another "
+                          f"numeric result entry needs sense = 'min' or 'max'.")
             sense = "min"
         if ob.metric == "cost" and spec.cost is None and not _base_has_costs(stages):
             faults.append(f"objective[{i + 1}].metric: 'cost' needs a [cost] table (per_dry_kg, "
@@ -563,6 +606,14 @@ def study_from_dict(data: Mapping[str, Any], *, source: str = "<dict>",
     fp = hashlib.sha256(_canonical({"study": raw, "base": base_text}).encode()).hexdigest()
     return Study(source=source, spec=spec, base=base, objectives=tuple(objectives),
                  bounds=tuple(bounds), fingerprint=fp, raw=raw)
+
+
+def unknown_metric_text(metric: str, known: Mapping[str, Any] | None = None) -> str:
+    """"unknown metric 'costs'; did you mean 'cost'? Known metrics: ..." (one sentence)."""
+    names = list(known if known is not None else METRIC_SENSES)
+    near = difflib.get_close_matches(metric, names, n=1)
+    hint = f"; did you mean {near[0]!r}?" if near else "."
+    return f"unknown metric {metric!r}{hint} Known metrics: {', '.join(names)}."
 
 
 def _base_has_costs(stages: list) -> bool:

@@ -107,6 +107,10 @@ def test_study_bad_base_problem_fails_before_running(tmp_path):
     data = small_study(objective=[{"metric": "apogee_m"}])
     with pytest.raises(StudyDefinitionError, match="objective metric 'apogee_m' is not produced"):
         run_study(study_from_dict(data), tmp_path / "b", engine="serial")
+    data = small_study(objective=[{"metric": "gross_mas_kg", "sense": "min"}])
+    with pytest.raises(StudyDefinitionError, match="did you mean 'gross_mass_kg'"):
+        run_study(study_from_dict(data), tmp_path / "c", engine="serial")
+    assert not (tmp_path / "c").exists()
 
 
 def test_study_bad_first_case_leaves_no_store_and_fixed_file_reuses_folder(tmp_path):

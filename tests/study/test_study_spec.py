@@ -91,8 +91,39 @@ def test_spec_literal_and_type_errors():
 def test_spec_unknown_metric_needs_sense_and_wrong_unit():
     data = small_study(objective=[{"metric": "thing_kg"}], constraints={"max_gross_mass": "3 m/s"})
     faults = _faults(data).faults
-    assert faults[0].startswith("objective[1].sense: required for metric 'thing_kg'")
+    assert faults[0].startswith("objective[1].metric: unknown metric 'thing_kg'")
+    assert "needs sense = 'min' or 'max'" in faults[0]
     assert faults[1].startswith("constraints.max_gross_mass: '3 m/s' has the wrong dimension")
+
+
+def test_spec_misspelt_metric_suggests_the_known_one():
+    data = small_study(objective=[{"metric": "gross_mass_kg"}, {"metric": "costs"}])
+    (fault,) = _faults(data).faults
+    assert fault.startswith("objective[2].metric: unknown metric 'costs'; did you mean 'cost'? "
+                            "Known metrics: gross_mass_kg, ")
+    assert "Input should" not in fault
+
+
+def test_spec_axis_number_with_unit_string_one_line():
+    """A unit string where start/stop take a plain SI number: file, field, value, what is allowed."""
+    data = small_study(axis=[{"field": "mission.payload_mass", "start": 120.0, "stop": "240 m/s",
+                              "num": 3}])
+    err = _faults(data)
+    assert err.faults == ("axis[1].stop: must be a number in the field's SI unit (kg for "
+                          "mission.payload_mass); unit strings such as '4 kg' are allowed in "
+                          "values = [...] only. Got '240 m/s'.",)
+    assert str(err).startswith("s.toml: axis[1].stop: must be a number")
+
+
+@pytest.mark.parametrize("study, fault", [
+    ({"samples": "many"}, "study.samples: must be a whole number. Got 'many'."),
+    ({"samples": 0}, "study.samples: must be > 0. Got 0."),
+    ({"seed": 1.5}, "study.seed: must be a whole number. Got 1.5."),
+])
+def test_spec_type_faults_in_project_words(study, fault):
+    data = small_study()
+    data["study"].update(study)
+    assert _faults(data).faults == (fault,)
 
 
 def test_spec_stage_count_beyond_base():
