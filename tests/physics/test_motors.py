@@ -30,9 +30,11 @@ from sizing.physics.motors import (
 ROOT = Path(__file__).resolve().parents[2]
 DEMO = ROOT / "problems" / "motors" / "demo_motors.toml"
 
-# check-values.md section 6 (tag F): class table of secondary sources (en.academic.ru
-# "Model rocket motor classification", everything2 "rocket motor classification"),
-# which attribute it to NFPA 1125 / NAR. (lowest printed value, highest printed value) [N s].
+# Motor impulse class table as printed by two Wikipedia-derived secondary sources (found):
+# en.academic.ru "Model rocket motor classification" and everything2 "rocket motor
+# classification". They attribute it to NFPA 1125 / NAR; the NFPA 1125 text itself was not
+# read (that it is the formal source is from memory). Also tabulated in the project's shared
+# check values, sec. 6. (lowest printed value, highest printed value) [N s].
 PUBLISHED_CLASSES = {
     "1/2A": (0.626, 1.25), "A": (1.26, 2.50), "B": (2.51, 5.00), "C": (5.01, 10.0),
     "D": (10.01, 20.0), "E": (20.01, 40.0), "F": (40.01, 80.0), "G": (80.01, 160.0),
@@ -44,8 +46,9 @@ PUBLISHED_CLASSES = {
 
 @pytest.mark.parametrize("name", list(PUBLISHED_CLASSES))
 def test_impulse_class_matches_published_boundaries(name):
-    """check-values.md section 6, motor impulse class table (F; secondary sources citing
-    NFPA 1125 / NAR): both printed ends of each range fall in the class."""
+    """Motor impulse class table of en.academic.ru "Model rocket motor classification" and
+    everything2 "rocket motor classification" (Wikipedia-derived, found; they attribute it to
+    NFPA 1125 / NAR, NFPA text not read): both printed ends of each range fall in the class."""
     lo, hi = PUBLISHED_CLASSES[name]
     assert impulse_class(lo) == name
     assert impulse_class(hi) == name
@@ -53,7 +56,8 @@ def test_impulse_class_matches_published_boundaries(name):
 
 
 def test_impulse_class_micro_and_quarter_a_from_memory():
-    """check-values.md section 6: micro 0-0.3125 and 1/4A 0.3126-0.625 N s (from memory, M)."""
+    """Micro 0-0.3125 and 1/4A 0.3126-0.625 N s (from memory; not in the secondary sources read,
+    no source found)."""
     assert impulse_class(0.1) == "micro"
     assert impulse_class(0.3125) == "micro"
     assert impulse_class(0.3126) == "1/4A"
@@ -61,7 +65,9 @@ def test_impulse_class_micro_and_quarter_a_from_memory():
 
 
 def test_impulse_class_upper_bound_is_inclusive_and_doubles():
-    """check-values.md section 6: upper(A) = 2.5 N s, upper(k-th letter after A) = 2.5 * 2**k."""
+    """Doubling rule upper(A) = 2.5 N s, upper(k-th letter after A) = 2.5 * 2**k (en.academic.ru
+    "Model rocket motor classification", everything2 "rocket motor classification";
+    Wikipedia-derived, found; attributed there to NFPA 1125 / NAR)."""
     for k, letter in enumerate("ABCDEFGHIJKLMNO"):
         upper = 2.5 * 2**k
         assert impulse_class(upper) == letter
@@ -78,7 +84,8 @@ def test_impulse_class_rejects_out_of_range(bad):
 @settings(max_examples=40, derandomize=True, deadline=None)
 @given(a=st.floats(1e-3, 1e7), b=st.floats(1e-3, 1e7))
 def test_impulse_class_is_monotone(a, b):
-    """Property: more total impulse never gives a lower class."""
+    """Property: more total impulse never gives a lower class (consistency check, no external
+    source)."""
     lo, hi = sorted((a, b))
     assert impulse_class_index(lo) <= impulse_class_index(hi)
 
@@ -86,7 +93,8 @@ def test_impulse_class_is_monotone(a, b):
 @settings(max_examples=30, derandomize=True, deadline=None)
 @given(x=st.floats(0.3126, 1e6))
 def test_impulse_class_doubling_moves_one_class(x):
-    """Property: above micro, doubling the impulse moves exactly one class up (each class doubles)."""
+    """Property: above micro, doubling the impulse moves exactly one class up (the published
+    doubling rule, see test_impulse_class_upper_bound_is_inclusive_and_doubles)."""
     assert impulse_class_index(2 * x) == impulse_class_index(x) + 1
 
 
@@ -96,7 +104,8 @@ def _triangle(peak_n, duration_s):
 
 
 def test_integrate_thrust_triangle_is_exact():
-    """Area of a triangle, F_peak * T / 2 (plane geometry); the table is piecewise linear."""
+    """Area of a triangle, F_peak * T / 2 (plane geometry, computed by hand); the table is
+    piecewise linear."""
     pts = _triangle(40.0, 2.0)
     cum = integrate_thrust([p[0] for p in pts], [p[1] for p in pts])
     assert cum[-1] == pytest.approx(40.0, rel=1e-15)
@@ -104,8 +113,9 @@ def test_integrate_thrust_triangle_is_exact():
 
 def test_demo_motor_tables_integrate_to_stated_impulse_within_1_percent():
     """Issue 5 check: total impulse from the thrust table equals the stated total impulse
-    within 1 %. Integrated here independently with scipy.integrate.trapezoid (exact for a
-    linearly interpolated table) on the raw TOML numbers."""
+    within 1 %. Integrated here independently with scipy.integrate.trapezoid (scipy 1.17,
+    general-purpose library; exact for a linearly interpolated table) on the raw TOML numbers
+    of the invented demo motors."""
     import tomllib
 
     raw = tomllib.loads(DEMO.read_text(encoding="utf-8"))
@@ -149,7 +159,9 @@ def test_motor_rejects_propellant_heavier_than_motor():
 
 def test_motor_derived_values_follow_definitions():
     """Effective Isp = I / (m_p g0) (Sutton & Biblarz, Rocket Propulsion Elements, 9th ed.,
-    eq. 2-5, g0 = 9.80665 m/s^2 by definition); average thrust = I / t_b."""
+    eq. 2-5, equation number from memory; g0 = 9.80665 m/s^2 by definition, scipy.constants.g);
+    average thrust = I / t_b; class J spans 640.01-1280 N s (en.academic.ru / everything2 class
+    table, found)."""
     m = Motor("m", 1000.0, 0.5, 1.2, 4.0)
     assert m.effective_isp_s == pytest.approx(1000.0 / (0.5 * 9.80665), rel=1e-15)
     assert m.average_thrust_n == 250.0
@@ -159,6 +171,8 @@ def test_motor_derived_values_follow_definitions():
 
 
 def test_average_only_motor_trapezoid_keeps_total_impulse():
+    """The trapezoid built from an average-thrust motor keeps its total impulse, integrated with
+    scipy.integrate.trapezoid (consistency check, no external source)."""
     m = Motor("m", 24.0, 0.027, 0.061, 2.0)
     table = m.thrust_table()
     assert table[0] == (0.0, 0.0) and table[-1][1] == 0.0 and table[-1][0] == 2.0
@@ -166,7 +180,8 @@ def test_average_only_motor_trapezoid_keeps_total_impulse():
 
 
 def test_propellant_table_runs_down_with_impulse():
-    """Propellant used in proportion to impulse delivered (constant effective exhaust velocity)."""
+    """Propellant used in proportion to impulse delivered (constant effective exhaust velocity);
+    values computed by hand (consistency check, no external source)."""
     m = Motor("m", 40.0, 0.02, 0.05, 2.0, thrust_curve=_triangle(40.0, 2.0))
     prop = m.propellant_mass_table()
     assert prop[0][1] == pytest.approx(0.02) and prop[-1][1] == 0.0
@@ -175,6 +190,8 @@ def test_propellant_table_runs_down_with_impulse():
 
 
 def test_motor_flight_stage_carries_motor_impulse_and_masses():
+    """Consistency check, no external source: the flight stage carries the motor's impulse and
+    masses."""
     m = Motor("m", 40.0, 0.02, 0.05, 2.0, thrust_curve=_triangle(40.0, 2.0))
     stage = motor_flight_stage(m, name="booster", airframe_mass_kg=0.3, diameter_m=0.04, ballast_mass_kg=0.05)
     assert stage.total_impulse_vac_n_s == pytest.approx(40.0, rel=1e-12)
@@ -193,7 +210,8 @@ def test_motor_flight_stage_rejects_negative_airframe():
 @settings(max_examples=25, derandomize=True, deadline=None)
 @given(k=st.floats(0.2, 5.0))
 def test_scaled_curve_scales_impulse_and_never_lowers_class(k):
-    """Property: scaling thrust by k >= 1 scales the impulse by k and never lowers the class."""
+    """Property: scaling thrust by k >= 1 scales the impulse by k and never lowers the class
+    (consistency check, no external source)."""
     base = Motor("m", 40.0, 0.02, 0.05, 2.0, thrust_curve=_triangle(40.0, 2.0))
     scaled = Motor("m", 40.0 * k, 0.02, 0.05, 2.0, thrust_curve=_triangle(40.0 * k, 2.0))
     assert scaled.total_impulse_n_s == pytest.approx(40.0 * k)
