@@ -170,8 +170,10 @@ average_thrust = "40 N"
 
 def test_load_defaults_rail_and_rules(tmp_path):
     """Defaults: motor rail 1.0 m (assumption, flagged); water rail = launch tube length; the rail
-    rule 'hobby' is 15 m/s (common practice, check-values.md 6, M) and 'dteg' 30.48 m/s (100 ft/s,
-    Spaceport America Cup DTEG 10.2.1, check-values.md 6, F)."""
+    rule 'hobby' is 15 m/s (common practice, no source; from memory) and 'dteg' 30.48 m/s
+    (100 ft/s, Spaceport America Cup Design, Test & Evaluation Guide, req. 10.2.1, as quoted on a
+    university rocket-team wiki, found; 1 ft = 0.3048 m exactly). (Tabulated in the project's
+    shared check values, sec. 6.)"""
     p = _load(tmp_path, MOTOR_FILE.replace("[launch]\nrail_length = 1.5\n", ""))
     assert p.site.rail_length_m == DEFAULT_RAIL_LENGTH_M and not p.rail_length_given
     assert rail_exit_minimum_m_s(p) == HOBBY_RAIL_EXIT_SPEED_M_S == 15.0
@@ -349,7 +351,9 @@ def test_validate_launch_tube(tmp_path):
 
 def test_validate_pressure_above_rating_over_safety_factor_is_refused(tmp_path):
     """Safety rule (docs/hobby.md, sizing.physics.water): launch pressure <= rated / safety factor,
-    default factor 2 from burst >= 2 x MEOP (Spaceport America Cup DTEG, check-values.md 6, F)."""
+    default factor 2 from burst >= 2 x MEOP (Spaceport America Cup Design, Test & Evaluation
+    Guide, as quoted on a university rocket-team wiki, found; tabulated in the project's shared
+    check values, sec. 6)."""
     f = _one(tmp_path, WATER_FILE.replace('pressure = "5 bar"', 'pressure = "6 bar"'), r"\.pressure:")
     assert f.startswith(f"stage[1] (bottle).pressure: {MSG_PRESSURE_LIMIT}")
     assert "5 bar gauge" in f and "Got '6 bar'." in f
@@ -372,7 +376,8 @@ def test_validate_collects_every_fault(tmp_path):
 # ---------------------------------------------------------------- solving: stage table physics
 def test_stage_rows_follow_the_rocket_equation(tmp_path):
     """Tsiolkovsky rocket equation dv = c ln(m0/mf) with c = I/m_p (Sutton & Biblarz, Rocket
-    Propulsion Elements, 9th ed., eqs. 2-5 and 4-6), masses summed by hand from the motor list."""
+    Propulsion Elements, 9th ed., eqs. 2-5 and 4-6; equation numbers from memory), masses summed
+    by hand from the invented demo motor list."""
     p = _load(tmp_path, MOTOR_FILE)
     by = {m.name: m for m in p.motors}
     booster, sustainer = by["Egret H230"], by["Finch F52"]
@@ -400,9 +405,12 @@ def test_stage_rows_follow_the_rocket_equation(tmp_path):
 
 
 def test_water_stage_rows_hold_water_and_air(tmp_path):
-    """Water mass rho V f with rho = 998.21 kg/m^3 (20 degC, CoolProp 8.0.0, check-values.md 8, L);
-    air p V / (R T) (ideal gas, R = R*/M0 of the US Standard Atmosphere 1976). Propellant = water +
-    expelled air; structure = dry mass + air left at ambient pressure, so their sum is the launch mass."""
+    """Water mass rho V f with rho = 998.21 kg/m^3 at 20 degC (CoolProp 8.0.0 PropsSI,
+    general-purpose PyPI library; tabulated in the project's shared check values, sec. 8); air
+    p V / (R T) (ideal gas, R = R*/M0 with R* = 8.31432 J/(mol K), M0 = 28.9644 kg/kmol, the
+    US Standard Atmosphere 1976 / ICAO Doc 7488 constants, found). Propellant = water + expelled
+    air; structure = dry mass + air left at ambient pressure, so their sum is the launch mass
+    (consistency check)."""
     p = _load(tmp_path, WATER_FILE)
     res = solve_hobby(p)
     assert res.success, res.message
@@ -423,8 +431,9 @@ def test_water_stage_rows_hold_water_and_air(tmp_path):
 # ---------------------------------------------------------------- solving: motor stacks
 def test_solve_motor_demo_matches_search_and_energy_bound():
     """The reported apogee never exceeds the energy bound of the stack's ideal delta-v
-    (mu/r0 - mu/r_a <= dv^2/2 from the equations of vertical flight; sizing.optimize.hobby) and
-    meets every limit of the file."""
+    (mu/r0 - mu/r_a <= dv^2/2, energy equation of vertical flight in inverse-square gravity,
+    Curtis, Orbital Mechanics for Engineering Students, 3rd ed., ch. 2, from memory) and meets
+    every limit of the file (consistency check)."""
     p = load_hobby_problem(MOTOR_DEMO)
     res = solve_hobby(p)
     assert res.success and res.status == Status.OPTIMAL, res.message
@@ -466,7 +475,8 @@ def _surrogate(vehicle, site):
 
 def test_solve_unreachable_target_reports_exact_best_apogee(tmp_path):
     """The best reachable apogee equals the maximum over every combination meeting the T/W and
-    rail limits (brute force with a stand-in flight that respects the energy bound)."""
+    rail limits (brute force with a stand-in flight that respects the energy bound; consistency
+    check, no external source)."""
     p = _load(tmp_path, MOTOR_FILE.replace("target_apogee = 800", 'target_apogee = "900 km"'))
     res = solve_hobby(p, flight=_surrogate)
     assert not res.success and res.status == Status.INFEASIBLE
@@ -514,7 +524,7 @@ def test_solve_assumed_rail_is_said(tmp_path):
 # ---------------------------------------------------------------- solving: water
 def test_solve_water_fill_optimum_near_one_third_and_never_above_allowed_pressure(tmp_path):
     """One-third fill for a 1.5 L bottle at 5 bar: hobby rule of thumb (common practice, no source;
-    check-values.md 7, M). With pressure varied and a user cap above the allowed pressure, the
+    from memory). With pressure varied and a user cap above the allowed pressure, the
     result keeps to rated / safety factor (docs/hobby.md safety rule)."""
     text = WATER_FILE.replace("vary = []", 'vary = ["fill"]\nn_grid = 5\nmax_evaluations = 40')
     res = solve_hobby(_load(tmp_path, text))
