@@ -15,7 +15,8 @@ from pathlib import Path
 from sizing.study.evaluate import evaluate_case, evaluate_cases
 
 #: Curtis, Orbital Mechanics for Engineering Students, 3rd ed., Example 11.6 inputs
-#: (g0 = 9.81 m/s^2 as in the book).
+#: (g0 = 9.81 m/s^2 as in the book; example number and inputs from memory, reproduced by
+#: computation -- tabulated in the project's shared check values, sec. 1.1).
 CURTIS_11_6 = {
     "mission": {"name": "Curtis Example 11.6", "payload_mass": 5000.0, "delta_v": 10000.0,
                 "standard_gravity": 9.81},
