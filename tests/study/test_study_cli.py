@@ -62,7 +62,9 @@ def test_cli_study_ok_then_resume(tmp_path, capsys):
 
 
 def test_cli_study_nothing_feasible_exit_1(tmp_path, capsys):
-    """Two stages cannot reach 20 km/s: sum c ln(1/eps) = 15.5 km/s (Curtis Sec. 11.6 bound)."""
+    """Two stages cannot reach 20 km/s: sum c ln(1/eps) = 15.5 km/s, the zero-payload limit of the
+    Tsiolkovsky rocket equation per stage (Curtis, Orbital Mechanics for Engineering Students,
+    3rd ed., Sec. 11.6; section number from memory), computed."""
     p = _write(tmp_path, dv="20000.0")
     assert main(["study", str(p), "--out", str(tmp_path / "r"), "--quiet", "--engine", "serial"]) == 1
     err = capsys.readouterr().err
