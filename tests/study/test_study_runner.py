@@ -30,10 +30,11 @@ def _rows(folder):
 
 
 def test_study_case_matches_curtis_example_11_6(tmp_path):
-    """Curtis, Orbital Mechanics for Engineering Students, 3rd ed., Sec. 11.6, Example 11.6:
-    m_PL = 5000 kg, v = 10 km/s, Isp 400/350/300 s, eps 0.10/0.15/0.20, g0 = 9.81 m/s^2;
-    the book gives m0 ~ 191 200 kg (n = 4.541, 2.507, 1.361). Both the batch and the
-    one-by-one paths of the study must reproduce it."""
+    """Curtis, Orbital Mechanics for Engineering Students, 3rd ed., Sec. 11.6, Example 11.6 (example
+    number and printed values from memory; reproduced by computation, tabulated in the project's
+    shared check values, sec. 1.1): m_PL = 5000 kg, v = 10 km/s, Isp 400/350/300 s, eps
+    0.10/0.15/0.20, g0 = 9.81 m/s^2; the book gives m0 ~ 191 200 kg (n = 4.541, 2.507, 1.361). Both
+    the batch and the one-by-one paths of the study must reproduce it."""
     for solver in ("batch", "each"):
         data = small_study()
         data["study"]["solver"] = solver
@@ -63,8 +64,8 @@ def test_study_case_matches_curtis_example_11_6(tmp_path):
 
 
 def test_study_failures_are_recorded_and_study_continues(tmp_path):
-    """An unreachable delta-v (beyond sum c ln(1/eps), Curtis Sec. 11.6), an invalid axis
-    value and a violated cap each get their status and reason; the rest still run."""
+    """An unreachable delta-v (beyond sum c ln(1/eps), Curtis 3rd ed. Sec. 11.6, from memory), an
+    invalid axis value and a violated cap each get their status and reason; the rest still run."""
     data = small_study(axis=[
         {"field": "mission.delta_v", "values": [9000.0, 30000.0]},
         {"field": "stage.third.structural_coefficient", "values": [0.2, 1.2]},
@@ -140,8 +141,8 @@ def test_study_store_with_no_finished_case_is_taken_over(tmp_path):
 
 
 def test_study_progress_counts_each_outcome_kind(tmp_path):
-    """Infeasible (beyond sum c ln(1/eps), Curtis Sec. 11.6), rejected and error cases are
-    counted apart in the progress callback and the progress bar text."""
+    """Infeasible (beyond sum c ln(1/eps), Curtis 3rd ed. Sec. 11.6, from memory), rejected and
+    error cases are counted apart in the progress callback and the progress bar text."""
     from sizing.cli_study import progress_text
 
     data = small_study(axis=[
