@@ -29,7 +29,9 @@ def _problem(**mission_extra):
 
 
 def test_solve_single_stage_matches_closed_form():
-    """One stage: m0 = m_PL n (1 - eps)/(1 - n eps) with n = exp(dv/c) (Tsiolkovsky; Curtis eq. 11.63)."""
+    """One stage: m0 = m_PL n (1 - eps)/(1 - n eps) with n = exp(dv/c) (Tsiolkovsky rocket
+    equation; Curtis, Orbital Mechanics for Engineering Students, 3rd ed., eq. 11.63, equation
+    number from memory); value computed from the closed form."""
     p = _problem(delta_v=4000.0, stages=[{"name": "only", "exhaust_velocity": 3000.0, "structural_coefficient": 0.1}])
     r = solve(p)
     n = math.exp(4000 / 3000)
@@ -38,7 +40,9 @@ def test_solve_single_stage_matches_closed_form():
 
 @pytest.mark.parametrize("solve_for", ["gross_mass", "payload_mass", "delta_v"])
 def test_solve_methods_agree_without_limits(solve_for):
-    """cvxpy and SLSQP reproduce the Lagrange closed form to 1e-6 relative in every mode.
+    """cvxpy and SLSQP reproduce the Lagrange closed form to 1e-6 relative in every mode
+    (consistency check between solvers; scipy.optimize.minimize(method='SLSQP') is a
+    general-purpose library, the closed form is checked against Curtis in tests/reference).
 
     In the two dual modes the objective is flat to first order in the split, so
     the mass ratios are compared at 2e-5 there (the objective still at 1e-6)."""
@@ -61,7 +65,8 @@ def test_solve_methods_agree_without_limits(solve_for):
 
 
 def test_solve_dual_modes_are_consistent():
-    """Max payload at the min-gross-mass optimum's gross mass returns the same payload (duality)."""
+    """Max payload at the min-gross-mass optimum's gross mass returns the same payload (duality;
+    consistency check, no external source)."""
     r1 = solve(_problem())
     r2 = solve(_problem(payload_mass=None, gross_mass=r1.gross_mass_kg))
     r3 = solve(_problem(delta_v=None, gross_mass=r1.gross_mass_kg))
@@ -70,6 +75,8 @@ def test_solve_dual_modes_are_consistent():
 
 
 def test_solve_target_beyond_supremum_reports_maximum():
+    """The reported maximum is sum c ln(1/eps), the zero-payload limit of the Tsiolkovsky rocket
+    equation per stage (consistency check, no external source)."""
     p = _problem(delta_v=21000.0)
     r = solve(p)
     assert not r.success and r.status == Status.INFEASIBLE
@@ -127,7 +134,8 @@ def _limited():
 
 @pytest.mark.parametrize("method", ["cvxpy", "slsqp"])
 def test_solve_limits_hold_at_returned_design(method):
-    """Every limit re-evaluated at the returned design holds (to solver tolerance)."""
+    """Every limit re-evaluated at the returned design holds (to solver tolerance; consistency
+    check, no external source)."""
     r = solve(_limited(), method=method)
     assert r.success, r.message
     for name, v in r.violations.items():
@@ -149,8 +157,9 @@ def test_solve_limits_cost_gross_mass():
 
 
 def test_solve_constraint_sensitivities_match_finite_differences():
-    """Dual values (Boyd & Vandenberghe, Convex Optimization, Sec. 5.6) equal the
-    change of the optimum when a binding limit is relaxed, by central differences."""
+    """Dual values (sensitivity interpretation of Lagrange multipliers, Boyd & Vandenberghe, Convex
+    Optimization, 2004, Sec. 5.6 (section number from memory)) equal the change of the optimum when
+    a binding limit is relaxed, by central differences (consistency check)."""
     p = _limited()
     r = solve(p, method="cvxpy")
     binding = {c.name: c for c in r.constraints if c.binding}
@@ -170,6 +179,8 @@ def test_solve_constraint_sensitivities_match_finite_differences():
 
 
 def test_solve_contradictory_limits_report_best_reachable():
+    """Best reachable delta-v with both mass ratios capped at 2: sum Isp g0 ln 2 (Tsiolkovsky
+    rocket equation, g0 = 9.80665 m/s^2, scipy.constants.g); computed by hand."""
     stages = [
         {"name": "a", "isp": 285, "structural_coefficient": 0.075, "max_mass_ratio": 2.0},
         {"name": "b", "isp": 320, "structural_coefficient": 0.095, "max_mass_ratio": 2.0},
@@ -192,7 +203,9 @@ def _gross(p):
 
 
 def test_trade_factors_match_finite_differences():
-    """Analytic trade factors (envelope theorem on the Lagrangian) equal re-solved central differences."""
+    """Analytic trade factors (envelope theorem on the Lagrangian, Boyd & Vandenberghe, Convex
+    Optimization, 2004, Sec. 5.6 (section number from memory)) equal re-solved central differences
+    (consistency check, no external numbers)."""
     p = _problem()
     r = solve(p)
     tf = r.trade_factors
@@ -218,8 +231,9 @@ def test_trade_factors_match_finite_differences():
 
 
 def test_trade_factor_structural_mass_matches_slsqp_with_inert_mass():
-    """Adding inert mass to a stage and re-optimising (scipy SLSQP over propellant masses)
-    changes gross mass by the analytic factor m0/(mass above the stage)."""
+    """Adding inert mass to a stage and re-optimising (scipy.optimize.minimize(method='SLSQP') over
+    propellant masses, general-purpose library) changes gross mass by the analytic factor
+    m0/(mass above the stage)."""
     import numpy as np
     from scipy.optimize import minimize
 
@@ -260,7 +274,8 @@ def test_trade_factor_structural_mass_matches_slsqp_with_inert_mass():
 @settings(max_examples=40)
 @given(problem=ideal_problems(), factor=st.floats(0.1, 10.0))
 def test_payload_scaling_is_linear(problem, factor):
-    """Property: with no mass-dependent losses, scaling payload scales every stage mass."""
+    """Property: with no mass-dependent losses, scaling payload scales every stage mass (the
+    rocket equation is homogeneous in mass; consistency check, no external source)."""
     a = solve(problem)
     b = solve(replace(problem, payload_mass_kg=problem.payload_mass_kg * factor))
     assert b.gross_mass_kg == pytest.approx(a.gross_mass_kg * factor, rel=1e-9)
@@ -271,7 +286,8 @@ def test_payload_scaling_is_linear(problem, factor):
 @settings(max_examples=40)
 @given(problem=ideal_problems())
 def test_solve_meets_target_exactly(problem):
-    """Property: the returned design's Tsiolkovsky delta-v equals the target."""
+    """Property: the returned design's Tsiolkovsky delta-v equals the target (consistency check,
+    no external source)."""
     from sizing.physics.rocket import stack_delta_v
 
     r = solve(problem)
@@ -284,7 +300,8 @@ def test_solve_meets_target_exactly(problem):
 @settings(max_examples=15)
 @given(problem=ideal_problems(max_stages=3))
 def test_solve_cvxpy_agrees_with_lagrange_property(problem):
-    """Property: the convex program reproduces the closed form to 1e-6 (no limits)."""
+    """Property: the convex program reproduces the closed form to 1e-6 (no limits; consistency
+    check between solvers, no external source)."""
     with warnings.catch_warnings():
         warnings.simplefilter("ignore")
         a = solve(problem, method="lagrange")
@@ -297,7 +314,7 @@ def test_trade_factor_structural_mass_with_limits_matches_reoptimisation():
     """With binding limits, the structural-mass factor (m0/A_i)(1 + sum of cap duals) equals a
     scipy SLSQP re-optimisation over propellant masses with inert mass added to the stage and the
     same limits kept (general-purpose library check; envelope theorem, Boyd & Vandenberghe,
-    Convex Optimization, 2004, Sec. 5.6)."""
+    Convex Optimization, 2004, Sec. 5.6, section number from memory)."""
     import numpy as np
     from scipy.optimize import minimize
 
