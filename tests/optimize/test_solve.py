@@ -88,7 +88,8 @@ def test_solve_target_beyond_supremum_reports_maximum():
 
 
 def test_solve_weak_stage_is_reported_not_nan():
-    """Consistency check, no external source: a stage too weak to help gets n = 1 and a warning, never NaN."""
+    """Consistency check, no external source: a stage too weak to help gets n = 1 and a warning,
+    never NaN."""
     stages = [{"name": "good", "exhaust_velocity": 3000.0, "structural_coefficient": 0.1},
               {"name": "dud", "exhaust_velocity": 3000.0, "structural_coefficient": 0.9}]
     r = solve(_problem(delta_v=2000.0, stages=stages))
@@ -196,7 +197,8 @@ def test_solve_contradictory_limits_report_best_reachable():
 
 
 def test_solve_gross_mass_cap_too_small_is_infeasible():
-    """Consistency check, no external source: a gross-mass cap below the optimum is reported infeasible."""
+    """Consistency check, no external source: a gross-mass cap below the optimum is reported
+    infeasible."""
     r = solve(_problem(max_gross_mass=5000.0))
     assert r.status == Status.INFEASIBLE
     assert r.best["max_delta_v_m_s"] < 9300.0
