@@ -22,7 +22,7 @@ def test_reference_curtis_three_stage(method):
 
 
 def test_reference_akin_single_stage():
-    """D. Akin, ENAE 791 Launch and Entry Vehicle Design, University of Maryland, lecture notes
+    """D. Akin, ENAE 791 Launch and Entry Vehicle Design, University of Maryland, slides
     "Mass Estimating Relations" (2016), slides 3-5 (found; read as scribd document 557678347):
     M0 = 153 000 kg, M_inert = 12 240 kg, M_prop = 135 800 kg (g0 = 9.8)."""
     case = load_reference_case("akin_single_stage")
