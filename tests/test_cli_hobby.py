@@ -15,7 +15,7 @@ import pytest
 
 from sizing.cli import EXIT_BAD_INPUT, EXIT_FAILED, EXIT_OK, main
 from sizing.optimize.hobby import HOBBY_CAUTION
-from sizing.physics.water import MSG_PRESSURE_LIMIT, WATER_CAUTION
+from sizing.physics.water import MSG_PRESSURE_LIMIT, MSG_SAFETY_FACTOR, WATER_CAUTION
 
 ROOT = Path(__file__).resolve().parents[1]
 MOTOR_DEMO = ROOT / "problems" / "hobby_motor_two_stage.toml"
@@ -122,6 +122,20 @@ def test_cli_pressure_above_rating_is_refused_exit_2(tmp_path, capsys):
     assert str(p) in lines[0] and "stage[1] (bottle).pressure" in lines[0]
     assert MSG_PRESSURE_LIMIT in lines[0] and "refuses" in lines[0] and "'7 bar'" in lines[0]
     assert "Traceback" not in cap.err
+
+
+def test_cli_safety_factor_one_is_refused_exit_2(tmp_path, capsys):
+    """Burst pressure >= 2 x maximum expected operating pressure: Spaceport America Cup design,
+    test & evaluation guide, as quoted on a university rocket-team wiki (found; tabulated in the
+    project's shared check values, sec. 6). 9 bar on a 10 bar bottle with factor 1 is refused."""
+    text = WATER_FAST.replace('pressure = "5 bar"', 'pressure = "9 bar"').replace(
+        'rated_pressure = "10 bar"', 'rated_pressure = "10 bar"\nsafety_factor = 1')
+    p = _write(tmp_path, text)
+    assert main(["hobby", str(p)]) == EXIT_BAD_INPUT
+    cap = capsys.readouterr()
+    assert cap.out == "" and "Traceback" not in cap.err
+    lines = cap.err.strip().splitlines()
+    assert lines == [f"error: {p}: stage[1] (bottle).safety_factor: {MSG_SAFETY_FACTOR}. Got 1."]
 
 
 def test_cli_bad_inputs_exit_2_one_line_per_fault(tmp_path, capsys):

@@ -50,11 +50,11 @@ Safety
 ------
 A bottle is a pressure vessel that can burst violently. Every stage carries
 its rated (or tested burst) gauge pressure, and the initial pressure must not
-exceed rated / safety_factor: the default safety factor 2 follows the
-student-rocketry rule burst >= 2 x maximum expected operating pressure
-(Spaceport America Cup DTEG, as quoted in check-values.md section 6) and the
-suggestion of check-values.md section 7 to warn above about half the burst
-pressure. These figures are estimates, not clearance to fly: follow the
+exceed rated / safety_factor. The safety factor defaults to 2 and may not be
+set below 2: the student-rocketry rule burst >= 2 x maximum expected operating
+pressure (Spaceport America Cup design, test & evaluation guide, as quoted on a
+university team wiki); a factor of 1 would allow launching at the burst
+pressure itself. These figures are estimates, not clearance to fly: follow the
 applicable hobby safety code and local aviation rules, keep clear distances,
 never exceed a vessel's rating and pressure-test behind shielding.
 """
@@ -78,6 +78,8 @@ __all__ = [
     "R_AIR_J_KG_K",
     "GAMMA_AIR",
     "DEFAULT_SAFETY_FACTOR",
+    "MIN_SAFETY_FACTOR",
+    "MSG_SAFETY_FACTOR",
     "WATER_CAUTION",
     "MSG_PRESSURE_LIMIT",
     "MSG_FILL_FRACTION",
@@ -97,8 +99,11 @@ RHO_WATER_KG_M3 = 998.21
 R_AIR_J_KG_K = 8314.32 / 28.9644
 #: Ratio of specific heats of air [-] (1.4022 at 288 K per CoolProp, check-values.md section 8; 1.4 used).
 GAMMA_AIR = 1.4
-#: Default safety factor on the rated/burst pressure [-]: burst >= 2 x MEOP (DTEG, check-values.md 6).
+#: Default safety factor on the rated/burst pressure [-]: burst >= 2 x MEOP (Spaceport America Cup
+#: design, test & evaluation guide, as quoted on a university team wiki; check-values.md section 6).
 DEFAULT_SAFETY_FACTOR = 2.0
+#: Smallest accepted safety factor [-]: the same rule, burst >= 2 x maximum expected operating pressure.
+MIN_SAFETY_FACTOR = 2.0
 
 WATER_CAUTION = (
     "Preliminary estimates only, not clearance to fly. A pressurised bottle can burst violently: "
@@ -107,6 +112,10 @@ WATER_CAUTION = (
 )
 MSG_PRESSURE_LIMIT = (
     "is above the allowed pressure rated_pressure / safety_factor; the tool refuses it"
+)
+MSG_SAFETY_FACTOR = (
+    "must be >= 2: the burst (or rated) pressure must be at least 2 x the maximum expected operating "
+    "pressure (Spaceport America Cup design, test & evaluation guide, as quoted on a university team wiki)"
 )
 MSG_FILL_FRACTION = "must be in (0, 1)"
 MSG_TUBE_FIT = "launch tube must fit: tube diameter <= nozzle diameter and water + tube volume < bottle volume"
@@ -155,7 +164,8 @@ class WaterStage:
         The vessel's rated or tested burst gauge pressure [Pa], > 0.
     safety_factor : float
         Divides `rated_pressure_pa` to give the highest allowed launch
-        pressure [-], >= 1. Default 2 (burst >= 2 x MEOP, see module notes).
+        pressure [-], >= 2 (`MIN_SAFETY_FACTOR`). Default 2 (burst >= 2 x
+        MEOP, see module notes).
     launch_tube_length_m : float
         Length of launch tube inside the bottle [m], >= 0 (0: no tube).
     launch_tube_diameter_m : float or None
@@ -174,7 +184,8 @@ class WaterStage:
     ------
     FieldError
         On any bad field; for a launch pressure above rated / safety_factor
-        the message starts with `MSG_PRESSURE_LIMIT`.
+        the message starts with `MSG_PRESSURE_LIMIT`, for a safety factor
+        below 2 with `MSG_SAFETY_FACTOR`.
     """
 
     name: str
@@ -205,8 +216,8 @@ class WaterStage:
         s("rated_pressure_pa", _pos(self.rated_pressure_pa, p + "rated_pressure"))
         s("air_temperature_k", _pos(self.air_temperature_k, p + "air_temperature"))
         sf = _pos(self.safety_factor, p + "safety_factor")
-        if sf < 1.0:
-            raise FieldError(p + "safety_factor", "must be >= 1.", self.safety_factor)
+        if sf < MIN_SAFETY_FACTOR:
+            raise FieldError(p + "safety_factor", MSG_SAFETY_FACTOR + ".", self.safety_factor)
         s("safety_factor", sf)
         f = _pos(self.water_fill_fraction, p + "fill_fraction")
         if not f < 1.0:

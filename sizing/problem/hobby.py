@@ -28,7 +28,7 @@ from pydantic import (BaseModel, ConfigDict, Field, StrictBool, StrictFloat, Str
 from ..errors import MSG_MISSING_KEY, MSG_UNKNOWN_KEY, FieldError, ProblemDefinitionError
 from ..physics.motors import Motor, load_motors, parse_motors
 from ..physics.vehicle import DragCurve, LaunchSite
-from ..physics.water import DEFAULT_SAFETY_FACTOR, WaterStage
+from ..physics.water import DEFAULT_SAFETY_FACTOR, MIN_SAFETY_FACTOR, MSG_SAFETY_FACTOR, WaterStage
 from .load import _Collector, read_toml
 
 __all__ = [
@@ -561,7 +561,8 @@ def hobby_problem_from_dict(data: Mapping[str, Any], *, source: str = "<dict>",
             fill = q(f"{where}.fill_fraction", st.fill_fraction, "dimensionless", lo=0.0, hi=1.0)
             rated = q(f"{where}.rated_pressure", st.rated_pressure, "pressure", lo=0.0,
                       allowed="must be > 0 Pa (gauge)")
-            sf = q(f"{where}.safety_factor", st.safety_factor, "dimensionless", lo=1.0, lo_open=False)
+            sf = q(f"{where}.safety_factor", st.safety_factor, "dimensionless", lo=MIN_SAFETY_FACTOR,
+                   lo_open=False, allowed=MSG_SAFETY_FACTOR)
             tl = q(f"{where}.launch_tube_length", st.launch_tube_length, "length", lo=0.0, lo_open=False)
             td = q(f"{where}.launch_tube_diameter", st.launch_tube_diameter, "length", lo=0.0)
             n_exp = q(f"{where}.polytropic_exponent", st.polytropic_exponent, "dimensionless", lo=1.0, hi=1.4,

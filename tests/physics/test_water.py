@@ -15,7 +15,9 @@ from sizing.errors import FieldError
 from sizing.physics.vehicle import P0_PA, LaunchSite
 from sizing.physics.water import (
     GAMMA_AIR,
+    MIN_SAFETY_FACTOR,
     MSG_PRESSURE_LIMIT,
+    MSG_SAFETY_FACTOR,
     MSG_TUBE_FIT,
     RHO_WATER_KG_M3,
     R_AIR_J_KG_K,
@@ -209,9 +211,16 @@ def test_refuses_pressure_above_rating_over_safety_factor():
         bottle(rated_pressure_pa=12.1 * BAR, safety_factor=3.0, initial_gauge_pressure_pa=4.1 * BAR)
 
 
-def test_safety_factor_below_one_is_refused():
-    with pytest.raises(FieldError, match="safety_factor"):
-        bottle(safety_factor=0.9)
+@pytest.mark.parametrize("factor", [0.9, 1.0, 1.5, 1.99])
+def test_safety_factor_below_two_is_refused(factor):
+    """Burst pressure >= 2 x maximum expected operating pressure: Spaceport America Cup design,
+    test & evaluation guide, as quoted on a university rocket-team wiki (found; tabulated in the
+    project's shared check values, sec. 6). A factor of 1 would allow launching at burst pressure."""
+    with pytest.raises(FieldError, match=re.escape(MSG_SAFETY_FACTOR)) as info:
+        bottle(safety_factor=factor)
+    assert "stages.bottle.safety_factor" in str(info.value)
+    assert bottle(safety_factor=MIN_SAFETY_FACTOR).max_gauge_pressure_pa == pytest.approx(
+        bottle().rated_pressure_pa / 2.0)
 
 
 @pytest.mark.parametrize("fill", [0.0, 1.0, -0.1, 1.5])
