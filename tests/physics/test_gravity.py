@@ -19,7 +19,7 @@ from sizing.units import GM_EARTH_M3_S2, R_EARTH_EQ_M
 
 
 @pytest.mark.parametrize("alt, v", [(200e3, 7784.26), (300e3, 7725.76), (400e3, 7668.56)])
-def test_circular_speed_matches_check_values(alt, v):
+def test_circular_speed_matches_computed_wgs84_value(alt, v):
     """Circular speed v = sqrt(GM/r) from WGS 84 GM = 3.986004418e14 m^3/s^2 and equatorial
     radius a = 6 378 137 m (constants from memory); speeds computed from these published inputs.
     (Tabulated in the project's shared check values, sec. 3.)"""
