@@ -2,7 +2,8 @@
 
 The page shows the Pareto front (hover: a design's inputs; click a point or a
 table row to select it), a parallel-coordinates view of inputs and objectives
-over every feasible case, stacked stage-mass bars of the Pareto designs, and
+over every feasible case (WebGL; where the browser has no WebGL, a static SVG
+drawing of the same lines), stacked stage-mass bars of the Pareto designs, and
 for the selected design its delta-v budget and stage mass table. It carries
 the caution that the numbers are preliminary estimates.
 
@@ -179,7 +180,8 @@ _JS = r"""
   }
   var cfg = {displaylogo: false, responsive: true};
   var axisFont = {family: "DejaVu Sans, sans-serif", size: 12, color: "#1d2327"};
-  var base = {margin: {l: 70, r: 20, t: 10, b: 60}, paper_bgcolor: "#ffffff", plot_bgcolor: "#fbfaf6",
+  // t: 44 keeps the plot toolbar (mode bar, top right) in the margin, clear of the data
+  var base = {margin: {l: 70, r: 20, t: 44, b: 60}, paper_bgcolor: "#ffffff", plot_bgcolor: "#fbfaf6",
               font: axisFont, hoverlabel: {bgcolor: "#ffffff", bordercolor: "#186a73"}};
 
   // Pareto front
@@ -210,7 +212,7 @@ _JS = r"""
   Plotly.newPlot(frontDiv, tr, Object.assign({}, base, {
     xaxis: {title: {text: esc(mlabel(xm))}, gridcolor: "#e6e1d6"},
     yaxis: {title: {text: esc(mlabel(ym))}, gridcolor: "#e6e1d6"},
-    legend: {orientation: "h", y: -0.18}}), cfg);
+    legend: {orientation: "h", y: -0.3}}), cfg);
   frontDiv.on("plotly_click", function (ev) {
     if (ev && ev.points && ev.points.length) select(ev.points[0].customdata);
   });
@@ -246,21 +248,95 @@ _JS = r"""
       marker: {color: palette[i % palette.length]}, hovertemplate: "%{y:,.1f} kg<extra>" + esc(n) + " propellant</extra>"});
     bars.push({type: "bar", name: esc(n) + " structure",
       x: labels, y: front.map(function (c) { var d = D.designs[String(c.case_id)]; var s = d && d.stages.filter(function (q) { return q.name === n; })[0]; return s ? s.structural_mass_kg : 0; }),
-      marker: {color: palette[i % palette.length], opacity: 0.45,
-               line: {color: palette[i % palette.length], width: 1}},
+      // hatched on white, so its legend swatch differs from the solid propellant swatch
+      marker: {color: "#ffffff", line: {color: palette[i % palette.length], width: 1.2},
+               pattern: {shape: "/", fgcolor: palette[i % palette.length], bgcolor: "#ffffff",
+                         size: 7, solidity: 0.35}},
       hovertemplate: "%{y:,.1f} kg<extra>" + esc(n) + " structure</extra>"});
   });
   bars.push({type: "bar", name: "payload", x: labels,
     y: front.map(function (c) { var d = D.designs[String(c.case_id)]; return d ? d.payload_mass_kg : 0; }),
     marker: {color: "#2b2b2b"}, hovertemplate: "%{y:,.1f} kg<extra>payload</extra>"});
   var stackDiv = document.getElementById("plot-stack");
+  var tallest = 0;
+  front.forEach(function (c) { var d = D.designs[String(c.case_id)]; if (d && d.gross_mass_kg > tallest) tallest = d.gross_mass_kg; });
   Plotly.newPlot(stackDiv, bars, Object.assign({}, base, {barmode: "stack",
-    yaxis: {title: {text: "mass [kg]"}, gridcolor: "#e6e1d6"}, legend: {orientation: "h", y: -0.25}}), cfg);
+    // 12 % headroom above the tallest bar: the toolbar never covers it
+    yaxis: {title: {text: "mass [kg]"}, gridcolor: "#e6e1d6", range: tallest > 0 ? [0, 1.12 * tallest] : undefined},
+    legend: {orientation: "h", y: -0.25, traceorder: "normal"}}), cfg);
   stackDiv.on("plotly_click", function (ev) {
     if (ev && ev.points && ev.points.length) select(front[ev.points[0].pointIndex].case_id);
   });
 
   // parallel coordinates over every feasible case
+  function intTicks(dim) {  // an axis whose values are all whole numbers is ticked at them only
+    var seen = [];
+    var whole = dim.values.every(function (v) {
+      if (v === null || v === undefined || isNaN(v)) return true;
+      if (Math.round(v) !== v) return false;
+      if (seen.indexOf(v) < 0) seen.push(v);
+      return true;
+    });
+    if (whole && seen.length && seen.length <= 25 && !dim.tickvals) {
+      seen.sort(function (a, b) { return a - b; });
+      var lo = seen[0], hi = seen[seen.length - 1];
+      dim.tickvals = []; for (var t = lo; t <= hi; t++) dim.tickvals.push(t);
+      dim.ticktext = dim.tickvals.map(String);
+      if (lo === hi) dim.range = [lo - 1, hi + 1];
+    }
+    return dim;
+  }
+  function hasWebGL() {
+    try {
+      var cv = document.createElement("canvas");
+      return !!(window.WebGLRenderingContext && (cv.getContext("webgl") || cv.getContext("experimental-webgl")));
+    } catch (e) { return false; }
+  }
+  function drawStaticParcoords(div, dims, cases) {  // SVG lines, for browsers without WebGL
+    var n = dims.length, spans = dims.map(function (d) {
+      var v = d.values.filter(function (x) { return x !== null && !isNaN(x); });
+      var lo = d.range ? d.range[0] : Math.min.apply(null, v.concat(d.tickvals || []));
+      var hi = d.range ? d.range[1] : Math.max.apply(null, v.concat(d.tickvals || []));
+      if (!(hi > lo)) { lo -= 1; hi += 1; }
+      return [lo, hi];
+    });
+    function lines(pick) {
+      var x = [], y = [];
+      cases.forEach(function (c, i) {
+        if (pick(c)) {
+          dims.forEach(function (d, j) {
+            var v = d.values[i];
+            x.push(j); y.push(v === null || isNaN(v) ? null : (v - spans[j][0]) / (spans[j][1] - spans[j][0]));
+          });
+          x.push(null); y.push(null);
+        }
+      });
+      return {x: x, y: y};
+    }
+    var rest = lines(function (c) { return c.rank !== 0; }), best = lines(function (c) { return c.rank === 0; });
+    var ann = [], shapes = [];
+    dims.forEach(function (d, j) {
+      shapes.push({type: "line", x0: j, x1: j, y0: 0, y1: 1, line: {color: "#5b6770", width: 1}});
+      ann.push({x: j, y: j % 2 ? 1.15 : 1.07, text: d.label, showarrow: false, font: {size: 11}});
+      var v = d.values.filter(function (x) { return x !== null && !isNaN(x); });
+      var vlo = Math.min.apply(null, v), vhi = Math.max.apply(null, v);
+      var ticks = d.tickvals ? d.tickvals.map(function (t, q) { return [t, d.ticktext ? d.ticktext[q] : fmt(t)]; })
+                : vlo === vhi ? [[vlo, fmt(vlo)]]
+                : [[spans[j][0], fmt(spans[j][0])], [spans[j][1], fmt(spans[j][1])]];
+      ticks.forEach(function (t) {
+        ann.push({x: j, y: (t[0] - spans[j][0]) / (spans[j][1] - spans[j][0]), text: t[1], showarrow: false,
+                  xanchor: "right", xshift: -4, font: {size: 10, color: "#5b6770"}});
+      });
+    });
+    Plotly.newPlot(div, [
+      {type: "scatter", mode: "lines", name: "other feasible designs", x: rest.x, y: rest.y,
+       line: {color: "#cfc8b8", width: 1}, hoverinfo: "skip", connectgaps: false},
+      {type: "scatter", mode: "lines", name: "Pareto designs", x: best.x, y: best.y,
+       line: {color: "#c8792a", width: 2}, hoverinfo: "skip", connectgaps: false}],
+      Object.assign({}, base, {margin: {l: 80, r: 40, t: 60, b: 30}, showlegend: false,
+        xaxis: {visible: false, range: [-0.5, n - 0.5]}, yaxis: {visible: false, range: [-0.05, 1.2]},
+        annotations: ann, shapes: shapes}), cfg);
+  }
   var dims = [];
   var sample = feas.length > 4000 ? feas.filter(function (_, i) { return i % Math.ceil(feas.length / 4000) === 0; }) : feas;
   D.input_names.forEach(function (k) {
@@ -269,7 +345,7 @@ _JS = r"""
     if (numeric) {
       var nums = vals.map(function (v) { return v === null ? NaN : v; });
       if (nums.some(function (v) { return !isNaN(v); }))
-        dims.push({label: esc(k + unitOf(k)), values: nums});
+        dims.push(intTicks({label: esc(k + unitOf(k)), values: nums}));
     } else {
       var cats = [];
       vals.forEach(function (v) { var s = v === null ? "n/a" : String(v); if (cats.indexOf(s) < 0) cats.push(s); });
@@ -277,15 +353,24 @@ _JS = r"""
                  tickvals: cats.map(function (_, i) { return i; }), ticktext: cats.map(esc)});
     }
   });
-  obs.forEach(function (o) { dims.push({label: esc(mlabel(o[0])), values: sample.map(function (c) { return c.metrics[o[0]]; })}); });
+  obs.forEach(function (o) { dims.push(intTicks({label: esc(mlabel(o[0])), values: sample.map(function (c) { return c.metrics[o[0]]; })})); });
   var pcDiv = document.getElementById("plot-parcoords");
-  Plotly.newPlot(pcDiv, [{type: "parcoords", dimensions: dims,
-    line: {color: sample.map(function (c) { return c.rank === 0 ? 1 : 0; }),
-           colorscale: [[0, "#cfc8b8"], [1, "#c8792a"]], cmin: 0, cmax: 1}}],
-    Object.assign({}, base, {margin: {l: 80, r: 80, t: 60, b: 30}}), cfg);
-  document.getElementById("parcoords-note").textContent =
-    "Orange lines: Pareto designs. " + (sample.length < feas.length ? "Every " + Math.ceil(feas.length / 4000) + "th feasible case shown. " : "") +
-    "Drag along an axis to filter.";
+  var thinned = sample.length < feas.length ? "Every " + Math.ceil(feas.length / 4000) + "th feasible case shown. " : "";
+  if (hasWebGL()) {
+    Plotly.newPlot(pcDiv, [{type: "parcoords", dimensions: dims,
+      line: {color: sample.map(function (c) { return c.rank === 0 ? 1 : 0; }),
+             colorscale: [[0, "#cfc8b8"], [1, "#c8792a"]], cmin: 0, cmax: 1}}],
+      Object.assign({}, base, {margin: {l: 80, r: 80, t: 60, b: 30}}), cfg);
+    document.getElementById("parcoords-note").textContent =
+      "Orange lines: Pareto designs. " + thinned + "Drag along an axis to filter.";
+    document.body.dataset.parcoords = "webgl";
+  } else {
+    drawStaticParcoords(pcDiv, dims, sample);
+    document.getElementById("parcoords-note").textContent =
+      "Orange lines: Pareto designs. " + thinned + "This browser has no WebGL, so the view is " +
+      "drawn as a static chart without axis filtering; cases.csv holds every value.";
+    document.body.dataset.parcoords = "svg";
+  }
 
   // selected design
   var budgetDiv = document.getElementById("plot-budget");

@@ -35,7 +35,7 @@ def report(tmp_path_factory) -> Path:
     data["base"]["stage"][2]["name"] = EVIL_STAGE
     data["propellants"] = {"<b>bold</b>": {"isp": 300.0, "structural_coefficient": 0.2},
                            "plain": {"isp": 320.0, "structural_coefficient": 0.2}}
-    data["choices"] = {"propellant": {EVIL_STAGE: ["<b>bold</b>", "plain"]}}
+    data["choices"] = {"propellant": {EVIL_STAGE: ["<b>bold</b>", "plain"]}, "stage_count": [2, 3]}
     out = tmp_path_factory.mktemp("html")
     summary = run_study(study_from_dict(data), out, engine="serial")
     assert summary.n_ok > 0
@@ -48,6 +48,69 @@ def test_report_is_self_contained(report):
     assert 'src="http' not in text and "src='http" not in text
     assert "Preliminary estimates only" in text
     assert EVIL_TITLE not in text and EVIL_VEHICLE not in text
+
+
+#: Makes every WebGL context request fail, as in a browser with WebGL disabled.
+NO_WEBGL = """(function () { var g = HTMLCanvasElement.prototype.getContext;
+  HTMLCanvasElement.prototype.getContext = function (t) {
+    return /webgl/i.test(String(t)) ? null : g.apply(this, arguments); }; })();"""
+
+
+def _open(p, report, problems, *, webgl=True):
+    browser = p.chromium.launch(executable_path=CHROMIUM, args=ARGS)
+    page = browser.new_page()
+    if not webgl:
+        page.add_init_script(NO_WEBGL)
+    page.on("console", lambda m: problems.append(m.text) if m.type == "error" else None)
+    page.on("pageerror", lambda e: problems.append(str(e)))
+    page.goto(report.as_uri())
+    page.wait_for_selector('body[data-ready="1"]', timeout=30000)
+    return browser, page
+
+
+@pytest.mark.browser
+def test_report_plots_readable_in_headless_chromium(report):
+    """Integer axes ticked at whole numbers; structure and propellant legend swatches
+    differ; the tallest bar has headroom below the toolbar; no WebGL -> SVG fallback."""
+    if not os.path.exists(CHROMIUM):
+        pytest.skip("Debian chromium is not installed at /usr/bin/chromium")
+    sync_api = pytest.importorskip("playwright.sync_api")
+    problems: list[str] = []
+    with sync_api.sync_playwright() as p:
+        browser, page = _open(p, report, problems)
+        try:
+            assert page.get_attribute("body", "data-parcoords") == "webgl"
+            dims = page.evaluate("document.getElementById('plot-parcoords').data[0].dimensions"
+                                 ".map(function (d) { return [d.label, d.tickvals || null]; })")
+            (ticks,) = [t for label, t in dims if label.startswith("stage_count")]
+            assert ticks == [2, 3]
+            bars = page.evaluate("document.getElementById('plot-stack').data.map(function (t) {"
+                                 " return [t.name, t.marker.color, (t.marker.pattern || {}).shape || ''];})")
+            swatches = {name: (color, shape) for name, color, shape in bars}
+            for name, (color, shape) in swatches.items():
+                if name.endswith(" structure"):
+                    prop = swatches[name[: -len(" structure")] + " propellant"]
+                    assert (color, shape) != prop and shape
+            assert page.locator("#plot-stack .legend .legendpoints path[style*='url(']").count() > 0
+            top, gross = page.evaluate(
+                "[document.getElementById('plot-stack').layout.yaxis.range[1], Math.max.apply(null,"
+                " document.getElementById('plot-stack').data[0].x.map(function (_, i) { return"
+                " document.getElementById('plot-stack').data.reduce(function (s, t) { return s + t.y[i]; }, 0); }))]")
+            assert top >= 1.1 * gross
+            for div in ("#plot-stack", "#plot-front", "#plot-budget"):
+                bar = page.locator(f"{div} .modebar").bounding_box()
+                area = page.locator(f"{div} .nsewdrag").first.bounding_box()
+                assert bar["y"] + bar["height"] <= area["y"] + 1, div
+        finally:
+            browser.close()
+        browser, page = _open(p, report, problems, webgl=False)
+        try:
+            assert page.get_attribute("body", "data-parcoords") == "svg"
+            assert page.locator("#plot-parcoords .scatterlayer .trace").count() == 2
+            assert "no WebGL" in page.text_content("#parcoords-note")
+        finally:
+            browser.close()
+    assert problems == []
 
 
 @pytest.mark.browser
