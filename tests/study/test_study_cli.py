@@ -90,6 +90,21 @@ def test_cli_study_changed_file_exit_2_and_restart(tmp_path, capsys):
     assert main(["study", str(p), "--out", str(out), "--quiet", "--engine", "serial", "--restart"]) == 0
 
 
+def test_cli_study_bad_first_case_then_fixed_file_same_folder(tmp_path, capsys):
+    """Exit 2 for a first case the problem rejects; the folder stays free, so the fixed
+    file runs into it without --restart."""
+    p = _write(tmp_path)
+    p.write_text(p.read_text().replace("values = [4000.0, 5000.0]",
+                                       "start = -120.0\nstop = 240.0\nnum = 4"))
+    out = tmp_path / "run"
+    assert main(["study", str(p), "--out", str(out), "--quiet", "--engine", "serial"]) == 2
+    err = capsys.readouterr().err
+    assert "payload_mass" in err and "Traceback" not in err
+    assert not (out / "study.sqlite").exists()
+    p.write_text(p.read_text().replace("start = -120.0", "start = 120.0"))
+    assert main(["study", str(p), "--out", str(out), "--quiet", "--engine", "serial"]) == 0
+
+
 @pytest.mark.parametrize("argv, msg", [
     (["--engine", "dask"], "--scheduler: required with --engine dask"),
     (["--workers", "0"], "--workers: must be >= 1"),
