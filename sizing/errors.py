@@ -116,3 +116,14 @@ class StudyOutputConflictError(SizingError, ValueError):
 
 
 __all__ += ["StudyOutputConflictError"]
+
+
+class CannotLiftOffError(FieldError):
+    """A hobby candidate (motor stack or water stage) whose thrust cannot lift it off or off the rail."""
+
+
+class FlightTimeCapError(FieldError):
+    """A hobby candidate whose flight could last longer than the simulated-time cap."""
+
+
+__all__ += ["CannotLiftOffError", "FlightTimeCapError"]

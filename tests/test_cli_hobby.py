@@ -15,7 +15,7 @@ import pytest
 
 from sizing.cli import EXIT_BAD_INPUT, EXIT_FAILED, EXIT_OK, main
 from sizing.optimize.hobby import HOBBY_CAUTION
-from sizing.physics.water import MSG_PRESSURE_LIMIT, MSG_SAFETY_FACTOR, WATER_CAUTION
+from sizing.physics.water import MSG_NO_LIFTOFF, MSG_PRESSURE_LIMIT, MSG_SAFETY_FACTOR, WATER_CAUTION
 
 ROOT = Path(__file__).resolve().parents[1]
 MOTOR_DEMO = ROOT / "problems" / "hobby_motor_two_stage.toml"
@@ -188,6 +188,20 @@ def test_cli_water_target_out_of_reach_exit_1(tmp_path, capsys):
     assert main(["hobby", str(p)]) == EXIT_FAILED
     out = capsys.readouterr().out
     assert "falls short of the target apogee" in out and WATER_CAUTION in out
+
+
+def test_cli_water_low_pressure_no_liftoff_exit_1(tmp_path, capsys):
+    """The water demo at 5 psi gauge (the review's hanging input, with a smaller search): no
+    fill/nozzle candidate clears the 1 m rail, so the command ends with exit 1 and one clear
+    message instead of simulating each stalled candidate to the time limit."""
+    text = (WATER_DEMO.read_text(encoding="utf-8").replace('pressure = "5 bar"                # gauge',
+                                                          'pressure = "5 psi"                # gauge')
+            .replace('fill_bounds = [0.1, 0.6]', 'fill_bounds = [0.1, 0.6]\nn_grid = 3\nmax_evaluations = 12'))
+    assert 'pressure = "5 psi"' in text
+    assert main(["hobby", str(_write(tmp_path, text))]) == EXIT_FAILED
+    out = capsys.readouterr().out
+    assert MSG_NO_LIFTOFF in out and "0.345 bar gauge" in out and ".." not in out
+    assert WATER_CAUTION in out
 
 
 @pytest.mark.parametrize("ext", [".csv", ".md", ".json", ".xlsx"])

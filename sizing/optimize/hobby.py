@@ -23,7 +23,10 @@ Method (exact branch and bound on a known objective)
    bound. A combination that flies too fast for the acceleration limit gets
    the least nose ballast that brings it under (bisection; acceleration falls
    with mass), and with ``match_target=True`` the ballast that brings the
-   apogee down to the target. The search stops as soon as the next lower
+   apogee down to the target. A stack that cannot lift off (peak
+   thrust-to-weight <= 1, or stalls on the rail) or whose flight-time bound
+   exceeds 300 s is rejected at once (`sizing.physics.liftoff.fly_hobby`).
+   The search stops as soon as the next lower
    bound is not better than the best feasible objective found: the result is
    then the exact optimum over the list (up to the bisection tolerance).
 4. Lists whose number of combinations exceeds `max_combinations` are first
@@ -54,7 +57,8 @@ from types import MappingProxyType
 
 import numpy as np
 
-from sizing.errors import FieldError
+from sizing.errors import CannotLiftOffError, FieldError, FlightTimeCapError
+from sizing.physics.liftoff import fly_hobby
 from sizing.physics.motors import Motor, motor_flight_stage
 from sizing.physics.vehicle import DragCurve, LaunchSite, Vehicle
 from sizing.units import G0_M_S2, GM_EARTH_M3_S2, R_EARTH_EQ_M
@@ -93,6 +97,8 @@ REJECT_REASONS: tuple[str, ...] = (
     "rail_exit_speed",    # too slow off the rail
     "max_acceleration",   # too hard, and ballast cannot fix it within the other limits
     "overshoot",          # match_target: cannot ballast down to the target
+    "cannot_lift_off",    # peak thrust-to-weight <= 1, or stalls on the rail (sizing.physics.liftoff)
+    "flight_time_cap",    # flight-time bound above HOBBY_MAX_FLIGHT_TIME_S (sizing.physics.liftoff)
     "flight_error",       # the flight could not be built or simulated
     "worse_than_best",    # flown and feasible, but a better stack was found
     "objective_bound",    # never flown: cannot beat the optimum found
@@ -296,9 +302,7 @@ def build_motor_vehicle(
 
 
 def _default_flight(vehicle: Vehicle, site: LaunchSite):
-    from sizing.physics.trajectory import fly_vertical
-
-    return fly_vertical(vehicle, site, record_history=False)
+    return fly_hobby(vehicle, site)
 
 
 def _pareto(cands: list[Motor]) -> list[Motor]:
@@ -381,8 +385,10 @@ def search_hobby_stack(
     flight : callable or None
         ``flight(vehicle, site)`` returning an object with ``apogee_m``
         (above mean sea level), ``rail_exit_speed_m_s`` and
-        ``max_acceleration_m_s2``; None uses
-        `sizing.physics.trajectory.fly_vertical` (flat Earth, drag on).
+        ``max_acceleration_m_s2``; None uses `sizing.physics.liftoff.fly_hobby`
+        (`fly_vertical`, flat Earth, drag on; a stack that cannot lift off
+        or whose flight-time bound exceeds `HOBBY_MAX_FLIGHT_TIME_S` = 300 s
+        is rejected without a long simulation).
         With ``site.rail_length_m == 0`` the rail-exit check is skipped.
     max_combinations : int
         Above this, dominance pruning (heuristic) is applied first.
@@ -491,6 +497,12 @@ def search_hobby_stack(
                                 min_tw=min_thrust_to_weight, min_rail=min_rail_exit_speed_m_s,
                                 max_acc=max_acceleration_m_s2, match=match_target,
                                 tol=apogee_tolerance_m)
+        except CannotLiftOffError:
+            rejected["cannot_lift_off"] += 1
+            continue
+        except FlightTimeCapError:
+            rejected["flight_time_cap"] += 1
+            continue
         except (FieldError, ValueError, FloatingPointError):
             rejected["flight_error"] += 1
             continue

@@ -36,6 +36,7 @@ from typing import Any
 
 from ..errors import FieldError, SizingConvergenceWarning
 from ..physics.atmosphere import pressure_density_sound_speed
+from ..physics.liftoff import fly_hobby
 from ..physics.vehicle import LaunchSite, Vehicle
 from ..physics.water import WATER_CAUTION, optimise_water_stage, water_vehicle
 from ..problem.hobby import HobbyProblem
@@ -67,22 +68,18 @@ MSG_CANNOT_FLY = "the design as given cannot fly"
 FlightFn = Callable[[Vehicle, LaunchSite], Any]
 
 
-#: Largest RK4 step of water flights [s]. The simulator's default (burn time / 100) is
-#: ~0.5 ms for a water burn and would also apply to the seconds-long coast; 10 ms changes
-#: the demo's apogee by less than 1e-6 m and makes each flight about 3x faster.
-WATER_MAX_STEP_S = 0.01
-
-
 def _fly(vehicle: Vehicle, site: LaunchSite):
-    from ..physics.trajectory import fly_vertical  # heavy; imported when flying
+    """Default flight of motor and water candidates: `sizing.physics.liftoff.fly_hobby`.
 
-    return fly_vertical(vehicle, site, record_history=False)
+    Vertical flight with adaptive steps; a candidate that cannot lift off (peak
+    thrust-to-weight <= 1, or stalls on the rail or launch tube) raises
+    `CannotLiftOffError` and one whose flight-time bound exceeds
+    `HOBBY_MAX_FLIGHT_TIME_S` raises `FlightTimeCapError`, both at once.
+    """
+    return fly_hobby(vehicle, site)
 
 
-def _fly_water(vehicle: Vehicle, site: LaunchSite):
-    from ..physics.trajectory import fly_vertical
-
-    return fly_vertical(vehicle, site, record_history=False, max_step_s=WATER_MAX_STEP_S)
+_fly_water = _fly
 
 
 def rail_exit_minimum_m_s(problem: HobbyProblem) -> float:
@@ -353,6 +350,7 @@ def _solve_water(problem: HobbyProblem, fly: FlightFn) -> SizingResult:
     n_eval = 1
     method = "flown as given (nothing varied)"
     opt_ok, opt_msg = True, ""
+    opt_rejected: dict[str, int] = {}
     if problem.vary:
         kw: dict[str, Any] = {}
         if problem.fill_bounds is not None:
@@ -379,15 +377,17 @@ def _solve_water(problem: HobbyProblem, fly: FlightFn) -> SizingResult:
         initial_apogee = opt.initial_apogee_m - site.altitude_m if math.isfinite(opt.initial_apogee_m) else None
         method = f"fill grid + bounded Powell (scipy) over {', '.join(opt.varied)}"
         opt_ok, opt_msg = opt.success, opt.message
+        opt_rejected = dict(opt.rejected)
         if not math.isfinite(opt.apogee_m):
-            return _water_fail(problem, f"{MSG_CANNOT_FLY}: {opt.message}", method, n_eval, limits, notes)
-    vehicle = water_vehicle(design, problem.payload_mass_kg, ambient_pressure_pa=p_amb,
-                            payload_diameter_m=problem.payload_diameter_m)
+            pressures = ", ".join(f"{s.name} {_bar(s.initial_gauge_pressure_pa)}" for s in problem.water_stages)
+            msg = _sentence(opt.message) + " " + _sentence(f"Launch pressure as given: {pressures}")
+            return _water_fail(problem, msg, method, n_eval, limits, notes, opt.rejected)
     try:
+        vehicle = water_vehicle(design, problem.payload_mass_kg, ambient_pressure_pa=p_amb,
+                                payload_diameter_m=problem.payload_diameter_m)
         fr = fly(vehicle, site)
     except FieldError as exc:
-        return _water_fail(problem, f"{MSG_CANNOT_FLY}: {exc}. Lower the fill or raise the pressure.", method,
-                           n_eval, limits, notes)
+        return _water_fail(problem, f"{MSG_CANNOT_FLY}: " + _sentence(str(exc)), method, n_eval, limits, notes)
     rows, dv = stage_results_from_vehicle(vehicle)
     flight = _flight_dict(fr, site, target=problem.target_apogee_m, tw=fr.liftoff_thrust_to_weight)
     apo = flight["apogee_m"]
@@ -407,6 +407,7 @@ def _solve_water(problem: HobbyProblem, fly: FlightFn) -> SizingResult:
         "kind": "water", "varied": list(problem.vary), "n_evaluations": n_eval,
         "initial_apogee_m": initial_apogee, "max_pressure_pa": problem.max_gauge_pressure_pa,
         "ambient_pressure_pa": p_amb, "stages": settings, "limits": limits, "caution": WATER_CAUTION,
+        "rejected": opt_rejected,
     }
     tw_min, rail_min = limits["min_thrust_to_weight"], limits["min_rail_exit_speed_m_s"]
     if fr.liftoff_thrust_to_weight < tw_min:
@@ -436,12 +437,24 @@ def _solve_water(problem: HobbyProblem, fly: FlightFn) -> SizingResult:
     )
 
 
-def _water_fail(problem, msg, method, n_eval, limits, notes) -> SizingResult:
+def _bar(pressure_pa: float) -> str:
+    """A gauge pressure in bar, rounded for messages ("0.34 bar gauge")."""
+    return f"{pressure_pa / 1e5:.3g} bar gauge"
+
+
+def _sentence(text: str) -> str:
+    """`text` ending in exactly one period (messages are joined from parts that may end in one)."""
+    return text.strip().rstrip(".").rstrip() + "."
+
+
+def _water_fail(problem, msg, method, n_eval, limits, notes, rejected=None) -> SizingResult:
+    hobby: dict[str, Any] = {"kind": "water", "limits": limits, "caution": WATER_CAUTION}
+    if rejected:
+        hobby["rejected"] = dict(rejected)
     return SizingResult(
         status=Status.INFEASIBLE, success=False, message=msg, problem_name=problem.name,
         solve_for="water settings", method=method, n_iterations=n_eval, gross_mass_kg=math.nan,
         payload_mass_kg=problem.payload_mass_kg, delta_v_m_s=math.nan, stages=(),
         warnings=(WATER_CAUTION, *notes),
-        flight={"target_apogee_m": problem.target_apogee_m,
-                "hobby": {"kind": "water", "limits": limits, "caution": WATER_CAUTION}},
+        flight={"target_apogee_m": problem.target_apogee_m, "hobby": hobby},
     )

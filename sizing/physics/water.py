@@ -62,14 +62,15 @@ never exceed a vessel's rating and pressure-test behind shielding.
 from __future__ import annotations
 
 import math
-from collections.abc import Callable, Sequence
+from collections.abc import Callable, Mapping, Sequence
 from dataclasses import dataclass, field, replace
 
 import numpy as np
 from scipy import optimize
 from scipy.integrate import cumulative_trapezoid
 
-from sizing.errors import FieldError, SizingConvergenceWarning
+from sizing.errors import CannotLiftOffError, FieldError, FlightTimeCapError, SizingConvergenceWarning
+from sizing.physics.liftoff import fly_hobby
 from sizing.physics.vehicle import P0_PA, DragCurve, FlightStage, LaunchSite, Vehicle
 from sizing.units import G0_M_S2
 
@@ -84,6 +85,7 @@ __all__ = [
     "MSG_PRESSURE_LIMIT",
     "MSG_FILL_FRACTION",
     "MSG_TUBE_FIT",
+    "MSG_NO_LIFTOFF",
     "WaterStage",
     "WaterThrust",
     "WaterOptimum",
@@ -118,6 +120,7 @@ MSG_SAFETY_FACTOR = (
     "pressure (Spaceport America Cup design, test & evaluation guide, as quoted on a university team wiki)"
 )
 MSG_FILL_FRACTION = "must be in (0, 1)"
+MSG_NO_LIFTOFF = "no design within the bounds can lift off and clear the rail or launch tube"
 MSG_TUBE_FIT = "launch tube must fit: tube diameter <= nozzle diameter and water + tube volume < bottle volume"
 
 _N_TUBE = 24
@@ -397,8 +400,9 @@ def simulate_water_thrust(
 
     Raises
     ------
-    FieldError
-        When the launch-tube force cannot lift the rocket.
+    CannotLiftOffError
+        When the launch-tube force cannot lift the rocket, or the rocket
+        stalls part-way up the tube (a `FieldError`).
 
     Notes
     -----
@@ -435,11 +439,10 @@ def simulate_water_thrust(
         lt = stage.launch_tube_length_m
         m_tot = stage.dry_mass_kg + mw0 + ma0 + m_above
         if (p0 - pa) * a_t <= m_tot * g_m_s2:
-            raise FieldError(
+            raise CannotLiftOffError(
                 f"stages.{stage.name}.launch_tube_diameter",
-                f"the tube force (p - p_a) A_t = {(p0 - pa) * a_t:.3g} N must exceed the weight "
-                f"{m_tot * g_m_s2:.3g} N; widen the tube, raise the pressure or lighten the rocket.",
-                stage.launch_tube_diameter_m,
+                f"cannot lift off: the tube force (p - p_a) A_t = {(p0 - pa) * a_t:.3g} N must exceed the "
+                f"weight {m_tot * g_m_s2:.3g} N; widen the tube, raise the pressure or lighten the rocket.",
             )
         # Energy along the stroke: 1/2 m v^2 = W_gas(x) - m g x, with the polytropic work
         # W_gas(x) = integral_0^x (p(x') - p_a) A_t dx'. Time by quadrature dt = dx / v.
@@ -451,7 +454,16 @@ def simulate_water_thrust(
             work = p0 * va0 * np.log(vol / va0) - pa * a_t * x
         else:
             work = p0 * va0 / (n - 1) * (1 - (va0 / vol) ** (n - 1)) - pa * a_t * x
-        v = np.sqrt(np.maximum(2 * (work - m_tot * g_m_s2 * x) / m_tot, 0.0))
+        v2 = 2 * (work - m_tot * g_m_s2 * x) / m_tot
+        if not np.all(v2[1:] > 0.0):
+            stall = float(x[1:][v2[1:] <= 0.0][0])
+            raise CannotLiftOffError(
+                f"stages.{stage.name}.launch_tube_length",
+                f"cannot lift off: the rocket stalls {stall * 1e3:.0f} mm up the "
+                f"{lt * 1e3:.0f} mm launch tube (the gas work falls below the lift); raise the pressure, "
+                "shorten or widen the tube, or lighten the rocket.",
+            )
+        v = np.sqrt(v2)
         # dt/ds = (dx/ds) / v; near s=0, x = lt s^2 and v ~ sqrt(2 a0 x) so dt/ds -> 2 sqrt(lt / (2 a0))
         a0 = (p0 - pa) * a_t / m_tot - g_m_s2
         dtds = np.empty_like(s)
@@ -663,6 +675,11 @@ class WaterOptimum:
         Which of ``"fill"``, ``"pressure"``, ``"nozzle"`` were optimised.
     caution : str
         `WATER_CAUTION`.
+    rejected : Mapping[str, int]
+        Designs not flown to apogee, per reason: ``cannot_lift_off`` (peak
+        thrust-to-weight <= 1, a launch-tube force below the weight, or a
+        stall on the rail or tube), ``flight_time_cap``, ``invalid`` (a
+        field out of range).
     """
 
     success: bool
@@ -673,6 +690,7 @@ class WaterOptimum:
     n_evaluations: int
     varied: tuple[str, ...]
     caution: str = field(default=WATER_CAUTION)
+    rejected: Mapping[str, int] = field(default_factory=dict)
 
 
 _VARY = ("fill", "pressure", "nozzle")
@@ -680,9 +698,7 @@ _PENALTY_M = 1.0e6
 
 
 def _default_flight(vehicle: Vehicle, site: LaunchSite) -> float:
-    from sizing.physics.trajectory import fly_vertical  # physics layer, imported late (heavy)
-
-    return float(fly_vertical(vehicle, site, record_history=False).apogee_m)
+    return float(fly_hobby(vehicle, site).apogee_m)
 
 
 def optimise_water_stage(
@@ -731,7 +747,10 @@ def optimise_water_stage(
         Outside pressure for the thrust model [Pa].
     apogee : callable or None
         ``apogee(vehicle, site) -> apogee_m``; None uses
-        `sizing.physics.trajectory.fly_vertical`.
+        `sizing.physics.liftoff.fly_hobby` (vertical flight; a design that
+        cannot lift off, i.e. peak thrust-to-weight <= 1 or stalling on the
+        rail or launch tube, is rejected at once, and so is one whose
+        flight-time bound exceeds 300 s).
     n_grid : int
         Points of the seeding grid over the fill fraction, >= 2.
     max_evaluations : int
@@ -798,6 +817,7 @@ def optimise_water_stage(
 
     n_eval = 0
     cache: dict[tuple[float, ...], float] = {}
+    rejected = {"cannot_lift_off": 0, "flight_time_cap": 0, "invalid": 0}
 
     def apogee_of(x) -> float:
         nonlocal n_eval
@@ -807,12 +827,20 @@ def optimise_water_stage(
         design = build(x)
         if design is None:
             val = -math.inf
+            rejected["invalid"] += 1
         else:
             try:
                 veh = water_vehicle(design, payload_mass_kg, ambient_pressure_pa=ambient_pressure_pa)
                 val = float(fly(veh, site))
+            except CannotLiftOffError:
+                val = -math.inf
+                rejected["cannot_lift_off"] += 1
+            except FlightTimeCapError:
+                val = -math.inf
+                rejected["flight_time_cap"] += 1
             except FieldError:
                 val = -math.inf
+                rejected["invalid"] += 1
         n_eval += 1
         cache[key] = val
         return val
@@ -861,8 +889,13 @@ def optimise_water_stage(
         best_x, best = x_res, val
     design = build(best_x)
     if design is None or not math.isfinite(best):
-        return WaterOptimum(False, "no design in the bounds could be flown.", stack, math.nan, initial,
-                            n_eval, vary)
+        if rejected["cannot_lift_off"] == sum(rejected.values()):
+            msg = (f"{MSG_NO_LIFTOFF} ({n_eval} designs tried within the bounds): raise the pressure, "
+                   "widen the nozzle bounds or lighten the rocket")
+        else:
+            parts = ", ".join(f"{k.replace('_', ' ')} {v}" for k, v in rejected.items() if v)
+            msg = f"no design within the bounds could be flown ({n_eval} tried; {parts})"
+        return WaterOptimum(False, msg, stack, math.nan, initial, n_eval, vary, rejected=rejected)
     ok = bool(res.success)
     msg = "optimum found" if ok else f"Powell stopped: {res.message}"
     if not ok:
@@ -870,7 +903,7 @@ def optimise_water_stage(
 
         warnings.warn(f"optimise_water_stage: {msg}. Raise max_evaluations.", SizingConvergenceWarning,
                       stacklevel=2)
-    return WaterOptimum(ok, msg, design, best, initial, n_eval, vary)
+    return WaterOptimum(ok, msg, design, best, initial, n_eval, vary, rejected=rejected)
 
 
 def _grid_product(grid: np.ndarray, n: int):

@@ -227,3 +227,19 @@ def test_search_with_flight_module(motors):
     assert again.apogee_m == pytest.approx(res.apogee_m, rel=1e-9)
     assert again.apogee_m >= 300.0
     assert again.rail_exit_speed_m_s >= HOBBY_RAIL_EXIT_SPEED_M_S
+
+
+def test_search_rejects_a_stack_that_stalls_on_the_rail_as_cannot_lift_off():
+    """Impulse-momentum bound (Newton's second law): an invented 0.1 s spike motor at 1.5 x the
+    weight of a ~1 kg rocket gives it at most (1.5 - 1) g0 x 0.1 s ~ 0.5 m/s, a rise of a few cm:
+    it cannot clear a 1.5 m rail. With the real flight module (no stand-in) the search refuses it
+    as cannot_lift_off instead of flying it to the simulator's time limit."""
+    m_loaded, airframe = 0.02, 1.0
+    f = 1.5 * (m_loaded + airframe) * G0
+    spike = Motor("Spike", 0.1 * f, 0.01, m_loaded, 0.11,
+                  thrust_curve=((0.0, 0.0), (0.01, f), (0.1, f), (0.11, 0.0)))
+    res = search_hobby_stack([spike], [StackStage("only", airframe, 0.05)], payload_mass_kg=0.0,
+                             target_apogee_m=0.001, site=SITE, min_thrust_to_weight=1.1)
+    assert not res.success and res.status == "infeasible"
+    assert res.rejected["cannot_lift_off"] == 1 and res.n_simulated == 1
+    assert "cannot_lift_off 1" in res.message

@@ -23,6 +23,7 @@ from sizing.optimize.hobby import (
     build_motor_vehicle,
 )
 from sizing.optimize.hobby_problem import (
+    MSG_CANNOT_FLY,
     MSG_NO_STACK,
     MSG_NO_STACK_YET,
     MSG_WATER_SHORT,
@@ -30,6 +31,7 @@ from sizing.optimize.hobby_problem import (
     solve_hobby,
     stage_results_from_vehicle,
 )
+from sizing.physics.liftoff import MSG_CANNOT_LIFT_OFF
 from sizing.physics.motors import MSG_CURVE_IMPULSE
 from sizing.physics.water import (
     MSG_PRESSURE_LIMIT,
@@ -563,6 +565,28 @@ def test_solve_water_target_out_of_reach(tmp_path):
 
 
 def test_solve_water_design_that_cannot_lift_off(tmp_path):
+    """Newton's second law: 2 p_g A_e = 2 x 5 bar x pi (9 mm)^2 / 4 = 63.6 N of water thrust
+    (Kagan, Buchholz & Klein 1995) cannot lift 50 kg; the message says so once, rounded."""
     heavy = WATER_FILE.replace("payload_mass = 0.05", "payload_mass = 50")
     res = solve_hobby(_load(tmp_path, heavy))
-    assert not res.success and "cannot fly" in res.message
+    assert not res.success and res.status == Status.INFEASIBLE
+    assert res.message.startswith(f"{MSG_CANNOT_FLY}: stages.bottle.thrust: {MSG_CANNOT_LIFT_OFF}")
+    assert "peak thrust-to-weight 0.13" in res.message
+    assert ".." not in res.message and res.message.endswith(".") and WATER_CAUTION in res.warnings
+
+
+def test_solve_water_low_pressure_returns_best_reachable_not_a_hang(tmp_path):
+    """At 1 bar gauge many fill/nozzle candidates of the demo bottle stall on the 1 m rail; they
+    are refused at once as cannot lift off (they used to sit on the rail until the simulator's
+    flight-time limit). The solve ends infeasible with the best apogee reached. Consistency
+    check: the refused count is reported and the best design clears the rail."""
+    text = (WATER_FILE.replace('kind = "water"', 'kind = "water"\ntarget_apogee = "40 m"')
+            .replace("vary = []", 'vary = ["fill", "nozzle"]\nfill_bounds = [0.1, 0.6]\n'
+                     'nozzle_diameter_bounds = ["6 mm", "21 mm"]\nn_grid = 5\nmax_evaluations = 40')
+            .replace('pressure = "5 bar"', 'pressure = "1 bar"'))
+    res = solve_hobby(_load(tmp_path, text))
+    assert not res.success and res.status == Status.INFEASIBLE
+    assert res.message.startswith(MSG_WATER_SHORT) and ".." not in res.message
+    assert 0 < res.best["apogee_m"] < 40
+    assert res.flight["hobby"]["rejected"]["cannot_lift_off"] >= 1
+    assert res.flight["rail_exit_speed_m_s"] > 0

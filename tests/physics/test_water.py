@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import math
 import re
+from dataclasses import replace
 
 import numpy as np
 import pytest
@@ -16,6 +17,7 @@ from sizing.physics.vehicle import P0_PA, LaunchSite
 from sizing.physics.water import (
     GAMMA_AIR,
     MIN_SAFETY_FACTOR,
+    MSG_NO_LIFTOFF,
     MSG_PRESSURE_LIMIT,
     MSG_SAFETY_FACTOR,
     MSG_TUBE_FIT,
@@ -188,6 +190,41 @@ def test_launch_tube_obeys_momentum_theorem():
     impulse = np.trapezoid(thr.thrust_n[tube], thr.times_s[tube])
     assert m * thr.tube_exit_speed_m_s == pytest.approx(impulse - m * G0 * thr.tube_end_s, rel=2e-3)
     assert thr.tube_exit_speed_m_s > 0
+
+
+def test_launch_tube_stall_is_refused_as_cannot_lift_off():
+    """Work-energy theorem on the tube: 1/2 m v(x)^2 = int_0^x (p - p_a) A_t dx' - m g x with
+    polytropic gas p (V0 + A_t x)^1.4 = const (integrated here with scipy.integrate.quad). A
+    force only 2 % above the weight at release falls below it within the stroke, the energy
+    turns negative and the rocket stalls in the tube: refused as cannot lift off."""
+    from scipy.integrate import quad
+
+    from sizing.errors import CannotLiftOffError
+
+    d_t, l_t, m_above = 0.009, 0.4, 0.05
+    a_t = 0.25 * math.pi * d_t**2
+    probe = bottle(water_fill_fraction=0.6, launch_tube_length_m=l_t, launch_tube_diameter_m=d_t)
+    m = probe.dry_mass_kg + probe.water_mass_kg + m_above  # air (~1 g) adds below 0.2 %
+    pg = 1.02 * m * G0 / a_t
+    s = bottle(water_fill_fraction=0.6, launch_tube_length_m=l_t, launch_tube_diameter_m=d_t,
+               initial_gauge_pressure_pa=pg)
+    m_tot = s.launch_mass_kg() + m_above
+    p0, v0 = P0_PA + pg, s.bottle_volume_m3 - s.water_volume_m3
+
+    def energy(x):
+        work = quad(lambda y: (p0 * (v0 / (v0 + a_t * y)) ** 1.4 - P0_PA) * a_t, 0.0, x)[0]
+        return work - m_tot * G0 * x
+
+    stroke = np.linspace(l_t / 50, l_t, 50)
+    assert min(energy(x) for x in stroke) < 0.0  # the independent integral stalls within the stroke
+    with pytest.raises(CannotLiftOffError, match="cannot lift off: the rocket stalls") as info:
+        simulate_water_thrust(s, mass_above_kg=m_above)
+    assert "launch_tube_length" in str(info.value) and ".." not in str(info.value)
+    # a little more pressure and the same integral stays positive: it flies off the tube
+    p0 = P0_PA + 1.5 * pg
+    assert min(energy(x) for x in stroke) > 0.0
+    ok = replace(s, initial_gauge_pressure_pa=1.5 * pg)
+    assert simulate_water_thrust(ok, mass_above_kg=m_above).tube_exit_speed_m_s > 0
 
 
 def test_launch_tube_must_fit():
@@ -375,6 +412,19 @@ def test_optimiser_keeps_pressure_within_rating():
     assert best.initial_gauge_pressure_pa <= s.max_gauge_pressure_pa * (1 + 1e-12)
     # more pressure is better in this model, so the optimiser ends at (or next to) the limit
     assert best.initial_gauge_pressure_pa == pytest.approx(s.max_gauge_pressure_pa, rel=0.02)
+
+
+def test_optimiser_reports_when_no_design_can_lift_off():
+    """Newton's second law: with 5 kg above a 1.5 L bottle at 5 psi (0.345 bar) gauge, the largest
+    water thrust in the bounds, 2 p_g A_e (Kagan, Buchholz & Klein 1995; nozzle 22 mm) = 26 N, is
+    below the weight (> 50 N): every design is refused at once as cannot lift off."""
+    s = bottle(initial_gauge_pressure_pa=0.345 * BAR)
+    assert 2 * 0.345 * BAR * 0.25 * math.pi * 0.022**2 < 5.0 * G0
+    opt = optimise_water_stage(s, payload_mass_kg=5.0, vary=("fill", "nozzle"), site=LaunchSite(rail_length_m=1.0),
+                               n_grid=3, max_evaluations=20)
+    assert not opt.success and math.isnan(opt.apogee_m)
+    assert opt.message.startswith(MSG_NO_LIFTOFF) and ".." not in opt.message
+    assert opt.rejected["cannot_lift_off"] == opt.n_evaluations > 0
 
 
 def test_optimiser_rejects_unknown_variable():
