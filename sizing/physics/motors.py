@@ -505,7 +505,7 @@ def load_motors(path: str | Path) -> tuple[Motor, ...]:
     try:
         data = tomllib.loads(text)
     except tomllib.TOMLDecodeError as exc:
-        raise ProblemDefinitionError(source, [f"is not valid TOML: {exc}."]) from None
+        raise ProblemDefinitionError(source, [f"is not valid TOML: {str(exc).rstrip('.')}."]) from None
     return parse_motors(data, source=source)
 
 

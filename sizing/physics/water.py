@@ -897,7 +897,7 @@ def optimise_water_stage(
             msg = f"no design within the bounds could be flown ({n_eval} tried; {parts})"
         return WaterOptimum(False, msg, stack, math.nan, initial, n_eval, vary, rejected=rejected)
     ok = bool(res.success)
-    msg = "optimum found" if ok else f"Powell stopped: {res.message}"
+    msg = "optimum found" if ok else f"Powell stopped: {str(res.message).strip().rstrip('.')}"
     if not ok:
         import warnings
 

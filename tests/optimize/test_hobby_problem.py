@@ -575,6 +575,17 @@ def test_solve_water_design_that_cannot_lift_off(tmp_path):
     assert ".." not in res.message and res.message.endswith(".") and WATER_CAUTION in res.warnings
 
 
+def test_solve_water_evaluation_cap_message_reads_as_one_sentence(tmp_path):
+    """Message formatting only: scipy's own stop message ends with a period; the joined message
+    must not show '..' or '.;'."""
+    text = WATER_FILE.replace("vary = []", 'vary = ["fill"]\nn_grid = 2\nmax_evaluations = 2')
+    res = solve_hobby(_load(tmp_path, text))
+    assert res.status == Status.MAX_ITERATIONS and not res.success
+    assert res.message.startswith("Powell stopped:")
+    assert ".." not in res.message and ".;" not in res.message
+    assert "Raise hobby.optimise.max_evaluations." in res.message
+
+
 def test_solve_water_low_pressure_returns_best_reachable_not_a_hang(tmp_path):
     """At 1 bar gauge many fill/nozzle candidates of the demo bottle stall on the 1 m rail; they
     are refused at once as cannot lift off (they used to sit on the rail until the simulator's
