@@ -120,8 +120,8 @@ def result_metrics(result: Mapping[str, Any], problem, inputs: Mapping[str, Any]
     ``target_tolerance`` get their unit suffix, ``_m`` for an apogee target and
     ``_m_s`` for an orbit target);
     a numeric sub-table ``x`` gives ``x.key`` entries and, for ``losses_m_s``,
-    ``losses_total_m_s``; each stage gives ``stage.NAME.ignition_mass_kg``,
-    ``.propellant_mass_kg``, ``.structural_mass_kg`` and ``.delta_v_m_s``.
+    ``losses_total_m_s``; ``stage.NAME.ignition_mass_kg``, ``.propellant_mass_kg``,
+    ``.structural_mass_kg`` and ``.delta_v_m_s`` when an objective or bound names one.
     Derived: ``dry_mass_kg`` and ``propellant_mass_kg``
     (sums over stages), ``n_stages``, ``cost`` (cost model), and
     ``liftoff_thrust_to_weight`` when the bottom stage states thrust or
@@ -149,10 +149,15 @@ def result_metrics(result: Mapping[str, Any], problem, inputs: Mapping[str, Any]
             if k == "losses_m_s" and vals:
                 m["losses_total_m_s"] = float(v.get("total", sum(vals.values())))
     stages = result.get("stages") or []
-    for st in stages:
-        for q in ("ignition_mass_kg", "propellant_mass_kg", "structural_mass_kg", "delta_v_m_s"):
-            if _num(st.get(q)):
-                m[f"stage.{st.get('name')}.{q}"] = float(st[q])
+    # per-stage metrics only where the study ranks or limits one (they are also in the
+    # stored result's stages; keeping them out of every row keeps the store's writes small)
+    wanted = {o.metric for o in ctx.objectives} | {b.metric for b in ctx.bounds}
+    if any(w.startswith("stage.") for w in wanted):
+        for st in stages:
+            for q in ("ignition_mass_kg", "propellant_mass_kg", "structural_mass_kg", "delta_v_m_s"):
+                key = f"stage.{st.get('name')}.{q}"
+                if key in wanted and _num(st.get(q)):
+                    m[key] = float(st[q])
     m["n_stages"] = float(len(stages))
     m["dry_mass_kg"] = float(sum(s.get("structural_mass_kg", 0.0) for s in stages))
     m["propellant_mass_kg"] = float(sum(s.get("propellant_mass_kg", 0.0) for s in stages))
