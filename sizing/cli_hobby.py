@@ -12,7 +12,7 @@ import math
 from pathlib import Path
 from typing import Any
 
-__all__ = ["register", "run_hobby", "check_hobby", "hobby_rows", "limit_rows"]
+__all__ = ["register", "run_hobby", "check_hobby", "hobby_rows", "limit_rows", "caution_text"]
 
 
 def register(subparsers) -> None:
@@ -127,16 +127,50 @@ def _search_line(result) -> str | None:
     return None
 
 
+class _WithoutGeneralCaution:
+    """Console proxy that drops the general caution line `print_result` prints after the core tables.
+
+    Work-around until `sizing.cli.print_result` takes ``caution=False``: the hobby output then
+    prints one caution block at the end (the hobby caution, which contains every element of the
+    general one). Every other call goes to the wrapped console unchanged.
+    """
+
+    def __init__(self, console, caution: str) -> None:
+        self._console = console
+        self._caution = caution
+
+    def print(self, *objects, **kwargs) -> None:
+        if len(objects) == 1 and isinstance(objects[0], str) and self._caution in objects[0]:
+            return
+        self._console.print(*objects, **kwargs)
+
+    def __getattr__(self, name):
+        return getattr(self._console, name)
+
+
+def caution_text(result) -> str:
+    """The one caution of a hobby output: the hobby or water caution of the result.
+
+    Both contain every element of the general caution (preliminary estimates only, not
+    clearance to fly; follow the applicable safety code, local law, range and aviation rules
+    and licensed practice) plus the hobby-specific advice.
+    """
+    from .optimize.hobby import HOBBY_CAUTION
+
+    return ((result.flight or {}).get("hobby") or {}).get("caution") or HOBBY_CAUTION
+
+
 def _print_hobby(result) -> None:
     from rich.markup import escape
     from rich.table import Table
 
     from .cli import _console, print_result
+    from .result import CAUTION
 
     con = _console()
-    caution = [w for w in result.warnings if w == (result.flight or {}).get("hobby", {}).get("caution")]
-    shown = dataclasses.replace(result, warnings=tuple(w for w in result.warnings if w not in caution))
-    print_result(shown, console=con)
+    hobby_caution = caution_text(result)
+    shown = dataclasses.replace(result, warnings=tuple(w for w in result.warnings if w != hobby_caution))
+    print_result(shown, console=_WithoutGeneralCaution(con, CAUTION))
     title, header, rows = hobby_rows(result)
     if rows:
         t = Table(title=title, title_justify="left")
@@ -156,8 +190,7 @@ def _print_hobby(result) -> None:
     line = _search_line(result)
     if line:
         con.print(escape(line))
-    for c in caution:
-        con.print(f"[bold yellow]caution:[/] {escape(c)}")
+    con.print(f"[bold yellow]caution:[/] {escape(hobby_caution)}")
 
 
 def _markdown_section(result) -> str:

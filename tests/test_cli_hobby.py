@@ -15,6 +15,7 @@ import pytest
 
 from sizing.cli import EXIT_BAD_INPUT, EXIT_FAILED, EXIT_OK, main
 from sizing.optimize.hobby import HOBBY_CAUTION
+from sizing.result import CAUTION
 from sizing.physics.water import MSG_NO_LIFTOFF, MSG_PRESSURE_LIMIT, MSG_SAFETY_FACTOR, WATER_CAUTION
 
 ROOT = Path(__file__).resolve().parents[1]
@@ -70,6 +71,23 @@ def test_cli_hobby_motor_demo_prints_tables_units_and_caution(capsys):
                  "caution:", HOBBY_CAUTION):
         assert text in out, text
     assert "Traceback" not in out
+
+
+@pytest.mark.parametrize("which", ["motors", "water"])
+def test_cli_hobby_prints_one_caution_block_at_the_end(tmp_path, capsys, which):
+    """Project rule (binding): hobby outputs carry the caution -- preliminary estimates only; follow
+    local law, the applicable safety code, range and aviation rules and licensed practice. It is
+    printed once, after every table, and covers each element of the general caution."""
+    path = MOTOR_DEMO if which == "motors" else _write(tmp_path, WATER_FAST)
+    assert main(["hobby", str(path)]) == EXIT_OK
+    lines = [ln for ln in capsys.readouterr().out.splitlines() if ln.strip()]
+    assert sum("caution" in ln.lower() for ln in lines) == 1
+    assert CAUTION not in "\n".join(lines)
+    last = lines[-1]
+    assert last.startswith("caution: ") and last.endswith(HOBBY_CAUTION if which == "motors" else WATER_CAUTION)
+    for part in ("Preliminary estimates only", "not clearance to fly", "safety code", "local law",
+                 "range and aviation rules", "licensed practice"):
+        assert part in last, part
 
 
 def test_cli_solve_hands_hobby_files_over_and_json_has_contract_keys(capsys):

@@ -109,8 +109,8 @@ MIN_SAFETY_FACTOR = 2.0
 
 WATER_CAUTION = (
     "Preliminary estimates only, not clearance to fly. A pressurised bottle can burst violently: "
-    "never exceed the vessel's rating, pressure-test behind shielding, keep clear distances, and "
-    "follow the applicable hobby safety code, local law and aviation rules."
+    "never exceed the vessel's rating, pressure-test behind shielding and keep clear distances. "
+    "Follow the applicable hobby safety code, local law, range and aviation rules and licensed practice."
 )
 MSG_PRESSURE_LIMIT = (
     "is above the allowed pressure rated_pressure / safety_factor; the tool refuses it"
