@@ -12,7 +12,8 @@ import math
 from pathlib import Path
 from typing import Any
 
-__all__ = ["register", "run_hobby", "check_hobby", "hobby_rows", "limit_rows", "caution_text"]
+__all__ = ["register", "run_hobby", "check_hobby", "hobby_rows", "limit_rows", "caution_text",
+           "hobby_export_table"]
 
 
 def register(subparsers) -> None:
@@ -211,6 +212,130 @@ def _markdown_section(result) -> str:
     return "\n".join(out)
 
 
+#: Per-stage export columns, SI units in brackets: (header, key in the hobby stage dict).
+_MOTOR_EXPORT = (
+    ("stage [name]", "stage"), ("motor [name]", "motor"), ("impulse class [letter]", "impulse_class"),
+    ("designation [text]", "designation"), ("total impulse [N s]", "total_impulse_n_s"),
+    ("average thrust [N]", "average_thrust_n"), ("burn time [s]", "burn_time_s"),
+    ("motor loaded mass [kg]", "motor_loaded_mass_kg"), ("motor propellant mass [kg]", "propellant_mass_kg"),
+    ("effective Isp [s]", "effective_isp_s"), ("motor diameter [m]", "diameter_m"),
+    ("airframe mass [kg]", "airframe_mass_kg"), ("cost [list currency]", "cost"), ("maker [name]", "maker"),
+)
+_WATER_EXPORT = (
+    ("stage [name]", "stage"), ("bottle volume [m^3]", "bottle_volume_m3"), ("fill fraction [-]", "fill_fraction"),
+    ("water mass [kg]", "water_mass_kg"), ("launch pressure [Pa gauge]", "pressure_pa"),
+    ("allowed pressure = rated / safety factor [Pa gauge]", "allowed_pressure_pa"),
+    ("rated pressure [Pa gauge]", "rated_pressure_pa"), ("safety factor [-]", "safety_factor"),
+    ("nozzle diameter [m]", "nozzle_diameter_m"), ("launch tube length [m]", "launch_tube_length_m"),
+    ("launch tube diameter [m]", "launch_tube_diameter_m"), ("dry mass [kg]", "dry_mass_kg"),
+    ("fill fraction as given [-]", ("given", "fill_fraction")),
+    ("launch pressure as given [Pa gauge]", ("given", "pressure_pa")),
+    ("nozzle diameter as given [m]", ("given", "nozzle_diameter_m")),
+)
+
+
+def hobby_export_table(result) -> tuple[str, list[str], list[list[Any]]]:
+    """(title, header, rows) of the chosen motors or water settings for --out .csv / .xlsx.
+
+    One row per stage, bottom first; SI values as plain numbers (None when not given); every
+    header carries its unit in brackets. Empty when nothing was chosen (failed solve).
+    """
+    h = (result.flight or {}).get("hobby") or {}
+    stages = h.get("stages") or []
+    if not stages:
+        return "", [], []
+    water = h.get("kind") == "water"
+    spec = _WATER_EXPORT if water else _MOTOR_EXPORT
+
+    def get(s, key):
+        return s.get(key[0], {}).get(key[1]) if isinstance(key, tuple) else s.get(key)
+
+    rows = [[get(s, key) for _hd, key in spec] for s in stages]
+    if water:
+        title = "water settings (bottom stage first; pressures are gauge)"
+    else:
+        title = "chosen motors (bottom stage first)"
+    return title, [hd for hd, _k in spec], rows
+
+
+#: Header of the rows below the stage table in the exports.
+_EXTRAS_HEADER = ["item [-]", "value [unit column]", "unit [-]", "limit [unit column]"]
+
+
+def _export_extras(result) -> list[list[Any]]:
+    """(item, value, unit, limit) rows below the stage table: ballast, limits, search and caution."""
+    f = result.flight or {}
+    h = f.get("hobby") or {}
+    lim = h.get("limits") or {}
+    out: list[list[Any]] = []
+
+    def num(x):
+        return None if x is None or (isinstance(x, float) and not math.isfinite(x)) else x
+
+    if h.get("kind") == "motors":
+        out.append(["nose ballast", h.get("ballast_mass_kg") or 0.0, "kg", ""])
+        if h.get("cost") is not None:
+            out.append(["motor cost", h["cost"], "list currency", ""])
+    elif h.get("kind") == "water":
+        out.append(["ambient pressure at the site", num(h.get("ambient_pressure_pa")), "Pa", ""])
+        if h.get("max_pressure_pa") is not None:
+            out.append(["user pressure cap", h["max_pressure_pa"], "Pa gauge", ""])
+    if f.get("apogee_m") is not None and lim:
+        if f.get("target_apogee_m") is not None:
+            out.append(["apogee above site", num(f["apogee_m"]), "m", f">= {f['target_apogee_m']:g}"])
+        else:
+            out.append(["apogee above site", num(f["apogee_m"]), "m", "maximised"])
+        tw = lim["min_thrust_to_weight"]
+        out.append(["liftoff thrust-to-weight", num(f.get("liftoff_thrust_to_weight")), "-",
+                    f">= {tw:g}" + (" (DTEG 5.18.2)" if tw == 5 else "")])
+        rule = {"hobby": " (hobby practice)", "dteg": " (DTEG 10.2.1)"}.get(lim.get("rail_rule"), "")
+        out.append([f"rail-exit speed, {lim['rail_length_m']:g} m rail", num(f.get("rail_exit_speed_m_s")), "m/s",
+                    f">= {lim['min_rail_exit_speed_m_s']:g}{rule}"])
+        amax = lim.get("max_acceleration_m_s2")
+        out.append(["max acceleration", num(f.get("max_acceleration_m_s2")), "m/s^2",
+                    "no limit" if amax is None else f"<= {amax:g}"])
+    line = _search_line(result)
+    if line:
+        out.append(["search", line, "-", ""])
+    out.append(["caution", caution_text(result), "-", ""])
+    return out
+
+
+def _append_csv_section(result, path: Path) -> None:
+    """Append the hobby section (chosen motors or water settings, extras, caution) to a CSV."""
+    import csv
+
+    title, header, rows = hobby_export_table(result)
+    with path.open("a", newline="", encoding="utf-8") as fh:
+        w = csv.writer(fh)
+        w.writerow([])
+        w.writerow([title])
+        w.writerow(header)
+        for r in rows:
+            w.writerow(["" if v is None else v for v in r])
+        w.writerow([])
+        w.writerow(_EXTRAS_HEADER)
+        for r in _export_extras(result):
+            w.writerow(["" if v is None else v for v in r])
+
+
+def _add_xlsx_sheets(result, path: Path) -> None:
+    """Add a sheet of the chosen motors or water settings (with extras and the caution) to an XLSX."""
+    from openpyxl import load_workbook
+
+    title, header, rows = hobby_export_table(result)
+    wb = load_workbook(path)
+    ws = wb.create_sheet("hobby motors" if title.startswith("chosen") else "hobby water settings")
+    ws.append(header)
+    for r in rows:
+        ws.append(r)
+    ws.append([])
+    ws.append(_EXTRAS_HEADER)
+    for r in _export_extras(result):
+        ws.append(r)
+    wb.save(path)
+
+
 def run_hobby(args) -> int:
     """Load, solve and print a hobby problem; used by `sizing hobby` and `sizing solve`.
 
@@ -257,9 +382,14 @@ def run_hobby(args) -> int:
             error_line(f"--out {out}: not written, no stack or design reaches the target.")
         else:
             path = write_stage_table(result, out)
-            if path.suffix.lower() == ".md":
+            ext = path.suffix.lower()
+            if ext == ".md":
                 with path.open("a", encoding="utf-8") as fh:
                     fh.write("\n" + _markdown_section(result))
+            elif ext == ".csv":
+                _append_csv_section(result, path)
+            elif ext == ".xlsx":
+                _add_xlsx_sheets(result, path)
             print(f"wrote {path}", file=sys.stderr if args.json else sys.stdout)
     return EXIT_OK if result.success else EXIT_FAILED
 

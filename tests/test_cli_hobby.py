@@ -237,6 +237,64 @@ def test_cli_hobby_out_writes_each_format(tmp_path, capsys, ext):
         assert rows[0][0] == "stage" and rows[1][0] == "bottle"
 
 
+def _csv_section(path, title):
+    rows = list(csv.reader(path.open(encoding="utf-8")))
+    i = rows.index([title])
+    header = rows[i + 1]
+    body = []
+    for r in rows[i + 2:]:
+        if not r:
+            break
+        body.append(dict(zip(header, r)))
+    extras = {r[0]: r for r in rows if r and r[0] in ("caution", "nose ballast", "apogee above site")}
+    return header, body, extras
+
+
+def test_cli_hobby_csv_and_xlsx_name_the_chosen_motors(tmp_path, capsys):
+    """Export contents only: the chosen motors, a unit in every header, and the hobby caution."""
+    from openpyxl import load_workbook
+
+    assert main(["hobby", str(MOTOR_DEMO), "--json"]) == EXIT_OK
+    chosen = json.loads(capsys.readouterr().out)["hobby"]["stages"]
+    out = tmp_path / "stack.csv"
+    assert main(["hobby", str(MOTOR_DEMO), "--out", str(out)]) == EXIT_OK
+    header, body, extras = _csv_section(out, "chosen motors (bottom stage first)")
+    assert all("[" in h and h.endswith("]") for h in header), header
+    assert [r["motor [name]"] for r in body] == [s["motor"] for s in chosen]
+    assert [float(r["total impulse [N s]"]) for r in body] == [s["total_impulse_n_s"] for s in chosen]
+    assert extras["caution"][1] == HOBBY_CAUTION and extras["nose ballast"][2] == "kg"
+    xl = tmp_path / "stack.xlsx"
+    assert main(["hobby", str(MOTOR_DEMO), "--out", str(xl)]) == EXIT_OK
+    ws = load_workbook(xl)["hobby motors"]
+    rows = [r for r in ws.iter_rows(values_only=True)]
+    assert list(rows[0]) == header
+    assert [r[1] for r in rows[1:1 + len(chosen)]] == [s["motor"] for s in chosen]
+    assert any(r[0] == "caution" and r[1] == HOBBY_CAUTION for r in rows)
+
+
+def test_cli_hobby_csv_and_xlsx_give_the_water_settings(tmp_path, capsys):
+    """Export contents only: fill, pressure (Pa gauge), safety factor and nozzle per stage, units in
+    every header, and the water caution."""
+    from openpyxl import load_workbook
+
+    src = _write(tmp_path, WATER_FAST)
+    out = tmp_path / "w.csv"
+    assert main(["hobby", str(src), "--out", str(out)]) == EXIT_OK
+    header, body, extras = _csv_section(out, "water settings (bottom stage first; pressures are gauge)")
+    assert all("[" in h and h.endswith("]") for h in header), header
+    (row,) = body
+    assert row["stage [name]"] == "bottle" and float(row["fill fraction [-]"]) == 0.33
+    assert float(row["launch pressure [Pa gauge]"]) == 5e5 and float(row["safety factor [-]"]) == 2.0
+    assert float(row["nozzle diameter [m]"]) == pytest.approx(0.009)
+    assert float(row["allowed pressure = rated / safety factor [Pa gauge]"]) == 5e5
+    assert extras["caution"][1] == WATER_CAUTION and extras["apogee above site"][2] == "m"
+    xl = tmp_path / "w.xlsx"
+    assert main(["hobby", str(src), "--out", str(xl)]) == EXIT_OK
+    rows = list(load_workbook(xl)["hobby water settings"].iter_rows(values_only=True))
+    assert list(rows[0]) == header and rows[1][0] == "bottle" and rows[1][4] == 5e5
+    assert any(r[0] == "caution" and r[1] == WATER_CAUTION for r in rows)
+
+
 def test_cli_hobby_out_bad_extension_exit_2(tmp_path, capsys):
     assert main(["hobby", str(_write(tmp_path, WATER_FAST)), "--out", str(tmp_path / "x.pdf")]) == EXIT_BAD_INPUT
     assert "extension must be one of" in capsys.readouterr().err
