@@ -279,10 +279,13 @@ def solve_flight_problem(problem: Problem, *, method: str = "auto") -> SizingRes
         target = OrbitTarget(altitude_m=problem.orbit_altitude_m, inclination_deg=incl,
                              profile=ascent_profile(problem))
         goal = f"{problem.orbit_altitude_m / 1000:,.0f} km circular orbit"
+    tolerance = problem.target_tolerance_m
+    if tolerance is not None and problem.orbit_altitude_m is not None:
+        tolerance = orbit_speed_tolerance_m_s(problem.orbit_altitude_m, tolerance)
     try:
         fs = size_to_target(
             specs, problem.payload_mass_kg, target, site,
-            tolerance=problem.target_tolerance_m, max_iterations=problem.max_iterations or 12,
+            tolerance=tolerance, max_iterations=problem.max_iterations or 12,
             payload_diameter_m=problem.launch.payload_diameter_m,
             staging_delay_s=problem.launch.staging_delay_s,
             acceleration_limit_m_s2=problem.max_acceleration_m_s2,
@@ -334,6 +337,25 @@ def solve_flight_problem(problem: Problem, *, method: str = "auto") -> SizingRes
     }
     out = _with_flight(result, fs.flight, problem, extra)
     return replace(out, warnings=tuple(dict.fromkeys(tuple(out.warnings) + tuple(fs.warnings))))
+
+
+def orbit_speed_tolerance_m_s(orbit_altitude_m: float, altitude_tolerance_m: float) -> float:
+    """Burnout-speed tolerance equivalent to an apsis-altitude tolerance on a circular orbit.
+
+    A speed error dv at insertion (flight-path angle 0, radius r) moves the
+    opposite apsis by about 4 r dv / v_c (vis-viva, first order), so
+    dv = v_c dh / (4 r).
+
+    References
+    ----------
+    .. [1] H. D. Curtis, Orbital Mechanics for Engineering Students, 3rd ed., 2014,
+       eq. 2.71 (vis-viva energy equation); first-order expansion here.
+    """
+    from ..physics.gravity import circular_speed_m_s
+    from ..units import R_EARTH_EQ_M
+
+    r = R_EARTH_EQ_M + orbit_altitude_m
+    return circular_speed_m_s(orbit_altitude_m) * altitude_tolerance_m / (4.0 * r)
 
 
 def _with_flight(result: SizingResult, fr: FlightResult, problem: Problem, extra: dict[str, Any]) -> SizingResult:

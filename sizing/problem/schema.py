@@ -34,7 +34,7 @@ class MissionTable(_Strict):
     solve_for: Literal["gross_mass", "payload_mass", "delta_v"] | None = None
     max_gross_mass: Quantity | None = None  # kg, cap
     standard_gravity: Quantity | None = None  # m/s^2, g0 used to turn Isp into exhaust velocity
-    target_tolerance: Quantity | None = None  # m (apogee) or m (orbit altitude)
+    target_tolerance: Quantity | None = None  # m: apogee error, or error of the far apsis altitude for orbits
     max_acceleration: Quantity | None = None  # m/s^2, review limit
     notes: str | None = None
 

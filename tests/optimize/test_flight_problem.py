@@ -125,3 +125,17 @@ def test_solve_orbit_target_reaches_circular_orbit():
     assert abs(f["flight_path_angle_deg"]) < 0.5
     assert 1000.0 < sum(f["losses_m_s"].values()) < 3500.0
     assert r.status == Status.OPTIMAL
+
+
+def test_orbit_speed_tolerance_matches_vis_viva():
+    """A burnout-speed error of v_c dh/(4r) raises the far apsis by dh: checked against the
+    vis-viva equation (Curtis, Orbital Mechanics for Engineering Students, 3rd ed., eq. 2.71,
+    from memory for the number) with WGS 84 GM and radius."""
+    from sizing.optimize.flight_problem import orbit_speed_tolerance_m_s
+    from sizing.physics.gravity import circular_speed_m_s
+    from sizing.units import GM_EARTH_M3_S2, R_EARTH_EQ_M
+
+    r = R_EARTH_EQ_M + 500e3
+    v = circular_speed_m_s(500e3) + orbit_speed_tolerance_m_s(500e3, 1000.0)
+    a = 1.0 / (2.0 / r - v * v / GM_EARTH_M3_S2)
+    assert 2 * a - r - r == pytest.approx(1000.0, rel=1e-3)
