@@ -38,10 +38,11 @@ Method (exact branch and bound on a known objective)
    status ``max_simulations``.
 
 The minimum liftoff thrust-to-weight defaults to 5 (Spaceport America Cup
-DTEG req. 5.18.2; also the common hobby rule of thumb). The minimum rail-exit
-speed defaults to 15 m/s (about 50 ft/s, common hobby practice, from memory);
-`DTEG_RAIL_EXIT_SPEED_M_S` = 30.48 m/s (100 ft/s, DTEG 10.2.1) is the stricter
-student-competition rule. See shared/reference/check-values.md section 6.
+DTEG req. 5.18.2, as quoted on a university team wiki; also the common hobby
+rule of thumb). The minimum rail-exit speed defaults to 15 m/s (about 50 ft/s,
+common hobby practice, from memory); `DTEG_RAIL_EXIT_SPEED_M_S` = 30.48 m/s
+(100 ft/s, Spaceport America Cup DTEG 10.2.1, as quoted on the same wiki) is the
+stricter student-competition rule.
 
 Results are preliminary estimates, not clearance to fly.
 """
@@ -77,11 +78,11 @@ __all__ = [
     "search_hobby_stack",
 ]
 
-#: Minimum liftoff thrust-to-weight [-]: Spaceport America Cup DTEG req. 5.18.2 (check-values.md 6).
+#: Minimum liftoff thrust-to-weight [-]: Spaceport America Cup DTEG req. 5.18.2, as quoted on a university team wiki.
 HOBBY_MIN_THRUST_TO_WEIGHT = 5.0
-#: Minimum rail-exit speed [m/s]: ~50 ft/s, common hobby practice (from memory, check-values.md 6).
+#: Minimum rail-exit speed [m/s]: ~50 ft/s, common hobby practice (from memory, no source).
 HOBBY_RAIL_EXIT_SPEED_M_S = 15.0
-#: Minimum rail-exit speed [m/s]: 100 ft/s, Spaceport America Cup DTEG 10.2.1 (check-values.md 6).
+#: Minimum rail-exit speed [m/s]: 100 ft/s, Spaceport America Cup DTEG 10.2.1, as quoted on a university team wiki.
 DTEG_RAIL_EXIT_SPEED_M_S = 30.48
 
 HOBBY_CAUTION = (

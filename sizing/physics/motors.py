@@ -14,9 +14,9 @@ Motors) and used by the national hobby associations: class A covers
 (1.25, 2.5] N s and each following letter doubles the upper bound,
 upper(k-th letter after A) = 2.5 * 2**k N s. Below A come 1/2A (0.625, 1.25],
 1/4A (0.3125, 0.625] and "micro" (0, 0.3125] N s. The A-O bounds were read in
-secondary sources that attribute them to NFPA 1125; that NFPA 1125 is the
-formal source, and the 1/4A and micro bounds, are from memory (see
-/work/shared/reference/check-values.md, section 6).
+secondary sources (reference pages derived from Wikipedia's "model rocket
+motor classification") that attribute them to NFPA 1125 and the NAR; that
+NFPA 1125 is the formal source, and the 1/4A and micro bounds, are from memory.
 
 Thrust-curve convention
 -----------------------
@@ -102,7 +102,7 @@ def impulse_class_index(total_impulse_n_s: float) -> int:
     ----------
     .. [1] NFPA 1125, Code for the Manufacture of Model Rocket and High Power
        Rocket Motors, motor classification table (from memory that it is the
-       formal source; bounds as in check-values.md section 6).
+       formal source; bounds as tabulated on Wikipedia-derived reference pages).
     """
     x = float(total_impulse_n_s)
     top = IMPULSE_CLASS_A_UPPER_N_S * 2.0 ** (len(IMPULSE_CLASSES) - 1 - _INDEX_A)
@@ -137,7 +137,7 @@ def impulse_class(total_impulse_n_s: float) -> str:
     References
     ----------
     .. [1] NFPA 1125 motor classification, as reproduced in secondary sources
-       (check-values.md section 6, tag F for 1/2A-O; micro and 1/4A from memory).
+       (Wikipedia-derived pages, found for 1/2A-O; micro and 1/4A from memory).
 
     Examples
     --------

@@ -102,7 +102,7 @@ R_AIR_J_KG_K = 8314.32 / 28.9644
 #: Ratio of specific heats of air [-] (1.4022 at 288 K per CoolProp, check-values.md section 8; 1.4 used).
 GAMMA_AIR = 1.4
 #: Default safety factor on the rated/burst pressure [-]: burst >= 2 x MEOP (Spaceport America Cup
-#: design, test & evaluation guide, as quoted on a university team wiki; check-values.md section 6).
+#: design, test & evaluation guide, as quoted on a university team wiki).
 DEFAULT_SAFETY_FACTOR = 2.0
 #: Smallest accepted safety factor [-]: the same rule, burst >= 2 x maximum expected operating pressure.
 MIN_SAFETY_FACTOR = 2.0
