@@ -69,8 +69,9 @@ def check_out_path(out: Path | None, allowed: Sequence[str] | None = None) -> No
         raise ValueError(f"--out {out}: the folder {parent} does not exist; create it or choose another path.")
 
 
-def print_result(result, console=None) -> None:
-    """Human-readable stage mass table, limits, trade factors, notes and caution."""
+def print_result(result, console=None, *, caution: bool = True) -> None:
+    """Human-readable stage mass table, limits, trade factors, notes and (unless `caution` is
+    False, for callers that print a fuller caution of their own) the caution."""
     from rich.markup import escape
     from rich.table import Table
 
@@ -125,7 +126,8 @@ def print_result(result, console=None) -> None:
         con.print(escape("best reachable: " + ", ".join(f"{k} = {v:,.6g}" for k, v in result.best.items())))
     for w in result.warnings:
         con.print(f"[yellow]review note:[/] {escape(w)}")
-    con.print(f"[dim]{escape(CAUTION)}[/]")
+    if caution:
+        con.print(f"[dim]{escape(CAUTION)}[/]")
 
 
 def _cmd_check(args) -> int:

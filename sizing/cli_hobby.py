@@ -128,27 +128,6 @@ def _search_line(result) -> str | None:
     return None
 
 
-class _WithoutGeneralCaution:
-    """Console proxy that drops the general caution line `print_result` prints after the core tables.
-
-    Work-around until `sizing.cli.print_result` takes ``caution=False``: the hobby output then
-    prints one caution block at the end (the hobby caution, which contains every element of the
-    general one). Every other call goes to the wrapped console unchanged.
-    """
-
-    def __init__(self, console, caution: str) -> None:
-        self._console = console
-        self._caution = caution
-
-    def print(self, *objects, **kwargs) -> None:
-        if len(objects) == 1 and isinstance(objects[0], str) and self._caution in objects[0]:
-            return
-        self._console.print(*objects, **kwargs)
-
-    def __getattr__(self, name):
-        return getattr(self._console, name)
-
-
 def caution_text(result) -> str:
     """The one caution of a hobby output: the hobby or water caution of the result.
 
@@ -166,12 +145,11 @@ def _print_hobby(result) -> None:
     from rich.table import Table
 
     from .cli import _console, print_result
-    from .result import CAUTION
 
     con = _console()
     hobby_caution = caution_text(result)
     shown = dataclasses.replace(result, warnings=tuple(w for w in result.warnings if w != hobby_caution))
-    print_result(shown, console=_WithoutGeneralCaution(con, CAUTION))
+    print_result(shown, console=con, caution=False)
     title, header, rows = hobby_rows(result)
     if rows:
         t = Table(title=title, title_justify="left")

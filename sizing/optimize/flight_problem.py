@@ -20,7 +20,6 @@ from ..physics.vehicle import (
     FlightStageSpec,
     LaunchSite,
     Vehicle,
-    build_vehicle,
 )
 from ..problem.model import Problem, StageDef
 from ..result import SizingResult, Status

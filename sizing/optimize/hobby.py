@@ -56,7 +56,6 @@ from collections.abc import Callable, Mapping, Sequence
 from dataclasses import dataclass, field
 from types import MappingProxyType
 
-import numpy as np
 
 from sizing.errors import CannotLiftOffError, FieldError, FlightTimeCapError
 from sizing.physics.liftoff import fly_hobby

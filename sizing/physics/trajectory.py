@@ -834,7 +834,6 @@ def simulate(
         h6 = h / 6.0
         return [a + h6 * (b + 2.0 * (c + d) + e) for a, b, c, d, e in zip(s, k1, k2, k3, k4)]
 
-    atol = 10.0 * rtol  # [m], [m/s], [kg] components alike
 
     def dp_step(t, s, h):
         """One Dormand-Prince 5(4) step: (state, error norm, stages, (der, diag) at the end)."""
@@ -998,7 +997,7 @@ def simulate(
         return best * 1.003
 
     def mach_of(st_):
-        x, y, z, vx, vy, vz = st_[0], st_[1], st_[2], st_[3], st_[4], st_[5]
+        x, y, vx, vy, vz = st_[0], st_[1], st_[3], st_[4], st_[5]
         if w != 0.0:
             vx, vy = vx + w * y, vy - w * x
         alt = altitude(st_)

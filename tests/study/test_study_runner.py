@@ -3,7 +3,6 @@
 from __future__ import annotations
 
 import copy
-import math
 import os
 import random
 import signal
@@ -15,7 +14,7 @@ from pathlib import Path
 import pytest
 
 from sizing.errors import StudyDefinitionError, StudyOutputConflictError
-from sizing.study.results import load_results, write_outputs, write_review_pack
+from sizing.study.results import load_results, write_review_pack
 from sizing.study.runner import MSG_WORKER_DIED, run_study
 from sizing.study.spec import study_from_dict
 from sizing.study.store import MSG_OTHER_STUDY, StudyStore
