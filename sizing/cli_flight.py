@@ -77,7 +77,7 @@ def run_fly(args) -> int:
     from .cli import EXIT_BAD_INPUT, EXIT_OK, _console, error_line
     from .optimize.flight_problem import flight_summary, fly_problem
     from .problem.load import load_problem
-    from .result import CAUTION
+    from .result import CAUTION, finite_json
 
     if args.out is not None and Path(args.out).suffix.lower() != ".csv":
         error_line(f"--out {args.out}: the time history is written as .csv. Got {Path(args.out).suffix or 'none'!r}.")
@@ -94,7 +94,7 @@ def run_fly(args) -> int:
     summary["warnings"] = list(fr.warnings)
     summary["caution"] = CAUTION
     if args.json:
-        print(json.dumps(_finite(summary), indent=2))
+        print(json.dumps(finite_json(summary), indent=2))
     else:
         con = _console()
         con.print(f"[bold]flight[/] {escape(problem.name)}: {fr.profile} profile, ended at {fr.terminated_by}, "
@@ -131,12 +131,3 @@ def run_fly(args) -> int:
         print(f"wrote {path}", file=sys.stderr if args.json else sys.stdout)
     return EXIT_OK
 
-
-def _finite(obj):
-    if isinstance(obj, float):
-        return obj if math.isfinite(obj) else None
-    if isinstance(obj, dict):
-        return {k: _finite(v) for k, v in obj.items()}
-    if isinstance(obj, list):
-        return [_finite(v) for v in obj]
-    return obj

@@ -7,7 +7,7 @@ from dataclasses import asdict, dataclass, field
 from enum import StrEnum
 from typing import Any, Mapping
 
-__all__ = ["Status", "StageResult", "ConstraintReport", "SizingResult", "CAUTION"]
+__all__ = ["Status", "StageResult", "ConstraintReport", "SizingResult", "CAUTION", "finite_json"]
 
 #: Printed with every report and table export.
 CAUTION = (
@@ -144,7 +144,7 @@ class SizingResult:
             out["best"] = dict(self.best)
         if self.flight is not None:
             out.update(_plain(self.flight))
-        return _finite(out)
+        return finite_json(out)
 
     def to_frame(self):
         """One row per stage, columns named by their unit-suffixed field names."""
@@ -170,12 +170,12 @@ def _plain(obj: Any) -> Any:
     return obj
 
 
-def _finite(obj: Any) -> Any:
-    """Replace NaN/inf with None so the JSON is standard."""
+def finite_json(obj: Any) -> Any:
+    """Replace NaN/inf with None (recursively) so the JSON is standard."""
     if isinstance(obj, float):
         return obj if math.isfinite(obj) else None
     if isinstance(obj, dict):
-        return {k: _finite(v) for k, v in obj.items()}
+        return {k: finite_json(v) for k, v in obj.items()}
     if isinstance(obj, list):
-        return [_finite(v) for v in obj]
+        return [finite_json(v) for v in obj]
     return obj

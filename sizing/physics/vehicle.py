@@ -75,6 +75,9 @@ def _interp(xs: tuple[float, ...], ys: tuple[float, ...], x: float) -> float:
 
 
 def _check_positive(value, field_name: str, *, allow_zero: bool = False) -> float:
+    """A finite number > 0 (>= 0 with `allow_zero`), else FieldError naming the field."""
+    if isinstance(value, bool):
+        raise FieldError(field_name, "must be a number.", value)
     try:
         v = float(value)
     except (TypeError, ValueError):

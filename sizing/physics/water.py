@@ -71,7 +71,7 @@ from scipy.integrate import cumulative_trapezoid
 
 from sizing.errors import CannotLiftOffError, FieldError, FlightTimeCapError, SizingConvergenceWarning
 from sizing.physics.liftoff import fly_hobby
-from sizing.physics.vehicle import P0_PA, DragCurve, FlightStage, LaunchSite, Vehicle
+from sizing.physics.vehicle import P0_PA, DragCurve, FlightStage, LaunchSite, Vehicle, _check_positive
 from sizing.units import G0_M_S2
 
 __all__ = [
@@ -130,15 +130,7 @@ _JUMP_S = 1e-5  # time step used to represent a thrust jump between phases
 
 
 def _pos(value, name: str, *, zero_ok: bool = False) -> float:
-    if isinstance(value, bool):
-        raise FieldError(name, "must be a number.", value)
-    try:
-        v = float(value)
-    except (TypeError, ValueError):
-        raise FieldError(name, "must be a number.", value) from None
-    if not math.isfinite(v) or (v < 0 if zero_ok else v <= 0):
-        raise FieldError(name, "must be >= 0." if zero_ok else "must be > 0.", value)
-    return v
+    return _check_positive(value, name, allow_zero=zero_ok)
 
 
 @dataclass(frozen=True, slots=True)
