@@ -85,7 +85,10 @@ from types import MappingProxyType
 import numpy as np
 
 from sizing.errors import FieldError
-from sizing.physics.atmosphere import _H_BASE, _UP_Z_M, _Z86_M, R0_GEOPOTENTIAL_M, pressure_density_sound_speed
+from sizing.physics.atmosphere import (
+    _GMR, _H_BASE, _LAPSE, _P_BASE, _R_AIR, _T_BASE, _UP_LNP, _UP_LNRHO, _UP_Z_M, _Z86_M, GAMMA_AIR, M0_KG_MOL,
+    R0_GEOPOTENTIAL_M, R_STAR_J_MOL_K, _upper_temperature, pressure_density_sound_speed,
+)
 from sizing.physics.gravity import OrbitElements, orbit_elements
 from sizing.physics.vehicle import LaunchSite, Vehicle
 from sizing.units import G0_M_S2, GM_EARTH_M3_S2, OMEGA_EARTH_RAD_S, R_EARTH_EQ_M
@@ -694,6 +697,13 @@ def simulate(
     sqrt = math.sqrt
     pds = pressure_density_sound_speed
     atm_top = _ATMOSPHERE_TOP_M
+    exp = math.exp
+    z86, r0g, gmr, m0_air, r_star = _Z86_M, R0_GEOPOTENTIAL_M, _GMR, M0_KG_MOL, R_STAR_J_MOL_K
+    h_base, t_base, p_base, lapse_b = _H_BASE, _T_BASE, _P_BASE, _LAPSE
+    gmr_lapse = tuple(gmr / lp if lp != 0.0 else 0.0 for lp in _LAPSE)
+    gam_r = GAMMA_AIR * _R_AIR
+    up_z, up_lnp, up_lnr = _UP_Z_M, _UP_LNP, _UP_LNRHO
+    upper_t = _upper_temperature
 
     def rhs(t, s, diag=False):
         x, y, z, vx, vy, vz, m = s[0], s[1], s[2], s[3], s[4], s[5], s[6]
@@ -719,11 +729,36 @@ def simulate(
             vrx, vry, vrz = vx, vy, vz
         vrel2 = vrx * vrx + vry * vry + vrz * vrz
         vrel = sqrt(vrel2)
-        if alt < atm_top:
-            if alt > 0.0 or detect_impact:
-                p_a, rho, a_s = pds(alt)
+        # atmosphere: `pressure_density_sound_speed` (US Standard Atmosphere
+        # 1976) written out here with the same operations, so that the hot
+        # loop makes no function calls for it
+        if alt < atm_top and (alt > 0.0 or detect_impact):
+            if alt < z86:
+                hg = r0g * alt / (r0g + alt)  # geopotential altitude, USSA 1976 eq. 18
+                if hg >= 11000.0:
+                    i = 6
+                    while hg < h_base[i]:
+                        i -= 1
+                else:
+                    i = 0
+                tb = t_base[i]
+                lapse = lapse_b[i]
+                if lapse == 0.0:
+                    tm = tb
+                    p_a = p_base[i] * exp(-gmr * (hg - h_base[i]) / tb)
+                else:
+                    tm = tb + lapse * (hg - h_base[i])
+                    p_a = p_base[i] * (tb / tm) ** gmr_lapse[i]
+                rho = p_a * m0_air / (r_star * tm)
+                a_s = sqrt(gam_r * tm)
             else:
-                p_a, rho, a_s = 0.0, 0.0, 1.0
+                i = 0
+                while alt >= up_z[i + 1]:
+                    i += 1
+                fz = (alt - up_z[i]) / (up_z[i + 1] - up_z[i])
+                p_a = exp(up_lnp[i] + fz * (up_lnp[i + 1] - up_lnp[i]))
+                rho = exp(up_lnr[i] + fz * (up_lnr[i + 1] - up_lnr[i]))
+                a_s = sqrt(gam_r * upper_t(alt))
         else:
             p_a, rho, a_s = 0.0, 0.0, 1.0
         if P_burn:
@@ -842,20 +877,38 @@ def simulate(
         else:
             k1 = rhs(t, s)
         # the right-hand side reads only position, velocity and mass (the
-        # first 7 components); the loss integrals ride along in s1
-        s7 = s[:7]
-        a21 = h * _DP_A21
-        k2 = rhs(t + 0.2 * h, [a + a21 * b for a, b in zip(s7, k1)])
-        a31, a32 = h * _DP_A31, h * _DP_A32
-        k3 = rhs(t + 0.3 * h, [a + a31 * b + a32 * c for a, b, c in zip(s7, k1, k2)])
-        a41, a42, a43 = h * _DP_A41, h * _DP_A42, h * _DP_A43
-        k4 = rhs(t + 0.8 * h, [a + a41 * b + a42 * c + a43 * d for a, b, c, d in zip(s7, k1, k2, k3)])
-        a51, a52, a53, a54 = h * _DP_A51, h * _DP_A52, h * _DP_A53, h * _DP_A54
-        k5 = rhs(t + h * (8.0 / 9.0), [a + a51 * b + a52 * c + a53 * d + a54 * e
-                                       for a, b, c, d, e in zip(s7, k1, k2, k3, k4)])
-        a61, a62, a63, a64, a65 = h * _DP_A61, h * _DP_A62, h * _DP_A63, h * _DP_A64, h * _DP_A65
-        k6 = rhs(t + h, [a + a61 * b + a62 * c + a63 * d + a64 * e + a65 * f
-                         for a, b, c, d, e, f in zip(s7, k1, k2, k3, k4, k5)])
+        # first 7 components); the loss integrals ride along in s1. The stage
+        # sums are written out on scalars (no per-stage lists or loops).
+        x0, y0, z0, u0, v0, w0, m0_ = s[0], s[1], s[2], s[3], s[4], s[5], s[6]
+        x1, y1, z1, u1, v1, w1, n1 = k1[0], k1[1], k1[2], k1[3], k1[4], k1[5], k1[6]
+        a = h * _DP_A21
+        k2 = rhs(t + 0.2 * h, (x0 + a * x1, y0 + a * y1, z0 + a * z1, u0 + a * u1, v0 + a * v1, w0 + a * w1,
+                               m0_ + a * n1))
+        x2, y2, z2, u2, v2, w2, n2 = k2[0], k2[1], k2[2], k2[3], k2[4], k2[5], k2[6]
+        a, b = h * _DP_A31, h * _DP_A32
+        k3 = rhs(t + 0.3 * h, (x0 + a * x1 + b * x2, y0 + a * y1 + b * y2, z0 + a * z1 + b * z2,
+                               u0 + a * u1 + b * u2, v0 + a * v1 + b * v2, w0 + a * w1 + b * w2,
+                               m0_ + a * n1 + b * n2))
+        x3, y3, z3, u3, v3, w3, n3 = k3[0], k3[1], k3[2], k3[3], k3[4], k3[5], k3[6]
+        a, b, c = h * _DP_A41, h * _DP_A42, h * _DP_A43
+        k4 = rhs(t + 0.8 * h, (x0 + a * x1 + b * x2 + c * x3, y0 + a * y1 + b * y2 + c * y3,
+                               z0 + a * z1 + b * z2 + c * z3, u0 + a * u1 + b * u2 + c * u3,
+                               v0 + a * v1 + b * v2 + c * v3, w0 + a * w1 + b * w2 + c * w3,
+                               m0_ + a * n1 + b * n2 + c * n3))
+        x4, y4, z4, u4, v4, w4, n4 = k4[0], k4[1], k4[2], k4[3], k4[4], k4[5], k4[6]
+        a, b, c, d = h * _DP_A51, h * _DP_A52, h * _DP_A53, h * _DP_A54
+        k5 = rhs(t + h * (8.0 / 9.0), (
+            x0 + a * x1 + b * x2 + c * x3 + d * x4, y0 + a * y1 + b * y2 + c * y3 + d * y4,
+            z0 + a * z1 + b * z2 + c * z3 + d * z4, u0 + a * u1 + b * u2 + c * u3 + d * u4,
+            v0 + a * v1 + b * v2 + c * v3 + d * v4, w0 + a * w1 + b * w2 + c * w3 + d * w4,
+            m0_ + a * n1 + b * n2 + c * n3 + d * n4))
+        x5, y5, z5, u5, v5, w5, n5 = k5[0], k5[1], k5[2], k5[3], k5[4], k5[5], k5[6]
+        a, b, c, d, e = h * _DP_A61, h * _DP_A62, h * _DP_A63, h * _DP_A64, h * _DP_A65
+        k6 = rhs(t + h, (
+            x0 + a * x1 + b * x2 + c * x3 + d * x4 + e * x5, y0 + a * y1 + b * y2 + c * y3 + d * y4 + e * y5,
+            z0 + a * z1 + b * z2 + c * z3 + d * z4 + e * z5, u0 + a * u1 + b * u2 + c * u3 + d * u4 + e * u5,
+            v0 + a * v1 + b * v2 + c * v3 + d * v4 + e * v5, w0 + a * w1 + b * w2 + c * w3 + d * w4 + e * w5,
+            m0_ + a * n1 + b * n2 + c * n3 + d * n4 + e * n5))
         b1, b3, b4, b5, b6 = h * _DP_B1, h * _DP_B3, h * _DP_B4, h * _DP_B5, h * _DP_B6
         s1 = [a + b1 * b + b3 * d + b4 * e + b5 * f + b6 * g
               for a, b, d, e, f, g in zip(s, k1, k3, k4, k5, k6)]
@@ -864,11 +917,12 @@ def simulate(
         # error norm over position and velocity only: the mass is integrated
         # exactly (mdot linear in t) and the loss integrals are quadratures
         # that follow the state
-        ex, ey, ez, eu, ev, ew = [
-            e1 * b + e3 * d + e4 * e + e5 * f + e6 * g + e7 * k
-            for b, d, e, f, g, k in zip(k1[:6], k3, k4, k5, k6, k7)]
-        ep = max(abs(ex), abs(ey), abs(ez))
-        ev = max(abs(eu), abs(ev), abs(ew))
+        ep = max(abs(e1 * x1 + e3 * x3 + e4 * x4 + e5 * x5 + e6 * k6[0] + e7 * k7[0]),
+                 abs(e1 * y1 + e3 * y3 + e4 * y4 + e5 * y5 + e6 * k6[1] + e7 * k7[1]),
+                 abs(e1 * z1 + e3 * z3 + e4 * z4 + e5 * z5 + e6 * k6[2] + e7 * k7[2]))
+        ev = max(abs(e1 * u1 + e3 * u3 + e4 * u4 + e5 * u5 + e6 * k6[3] + e7 * k7[3]),
+                 abs(e1 * v1 + e3 * v3 + e4 * v4 + e5 * v5 + e6 * k6[4] + e7 * k7[4]),
+                 abs(e1 * w1 + e3 * w3 + e4 * w4 + e5 * w5 + e6 * k6[5] + e7 * k7[5]))
         v_scale = _VEL_SCALE_M_S + sqrt(s1[3] * s1[3] + s1[4] * s1[4] + s1[5] * s1[5])
         err = max(ep / (rtol * _POS_SCALE_M), ev / (rtol * v_scale))
         return s1, err, (k1, k3, k4, k5, k6, k7), k7, dg7
@@ -920,17 +974,23 @@ def simulate(
         if h * (d_hi + p_hi * P_ae) / m_lo < rtol * (_VEL_SCALE_M_S + dg1[1]):
             return None
         best = None
+        s6 = s0[:6]  # altitude and Mach need position and velocity only
         for fun, target in cands:
             a, b = 0.0, 1.0
             fa = fun(s0) - target
             fb = (alt1 if fun is altitude else dg1[2]) - target
             if (fa > 0) == (fb > 0):
                 continue
+            # a crossing in the step's last percent is kept by the caller
+            # (as is a later one, if another comes earlier): one test
+            # instead of the search (the usual case after `predict_kink`)
+            if (fun(dense(s6, h, K, 0.99)) - target > 0) == (fa > 0):
+                continue
             side = 0
             c = 0.5
             for _ in range(30):
                 c = (a * fb - b * fa) / (fb - fa)
-                fc = fun(dense(s0, h, K, c)) - target
+                fc = fun(dense(s6, h, K, c)) - target
                 # a sliver of 1e-6 of the step past the kink costs nothing
                 if b - a < 1e-6 or abs(fc) < 1e-9 * (1.0 + abs(target)):
                     break
@@ -1278,7 +1338,9 @@ def simulate(
                 if remaining <= 1.05 * h:
                     h = remaining
                 hp = predict_kink(t, h)
+                h_uncut = 0.0
                 if hp is not None and hp < h:
+                    h_uncut = h
                     h = hp
                 try:
                     s1, err, K, k7, dg7 = dp_step(t, s, h)
@@ -1312,6 +1374,10 @@ def simulate(
                 fac = 5.0 if err < 1e-10 else min(5.0, 0.9 * err ** -0.2)
                 if h < remaining or h * fac > h_next:
                     h_next = h * fac
+                # a step shortened to end on a predicted kink says nothing
+                # about the step size beyond it: resume the uncut size
+                if h_uncut > h_next:
+                    h_next = h_uncut
                 cur_step[0] = (t, s, h, K, stage_now)
             else:
                 dt_here = dt_vac if altitude(s) > _VACUUM_ALT_M else dt_max
