@@ -704,6 +704,8 @@ def simulate(
     gam_r = GAMMA_AIR * _R_AIR
     up_z, up_lnp, up_lnr = _UP_Z_M, _UP_LNP, _UP_LNRHO
     upper_t = _upper_temperature
+    cos, sin = math.cos, math.sin
+    s_pro, s_up, s_kick, s_ltg = _PRO, _UP, _KICK, _LTG
 
     def rhs(t, s, diag=False):
         x, y, z, vx, vy, vz, m = s[0], s[1], s[2], s[3], s[4], s[5], s[6]
@@ -786,16 +788,19 @@ def simulate(
             dmag = 0.0
         # thrust direction
         st_mode = P_steer
+        if vrel > 1e-6:
+            ivr = 1.0 / vrel
+            vhx, vhy, vhz = vrx * ivr, vry * ivr, vrz * ivr
         if on_rail:
             tx, ty, tz = rux, ruy, ruz
-        elif st_mode == _PRO:
+        elif st_mode == s_pro:
             if vrel > 1e-6:
-                tx, ty, tz = vrx / vrel, vry / vrel, vrz / vrel
+                tx, ty, tz = vhx, vhy, vhz
             else:
                 tx, ty, tz = rux, ruy, ruz
-        elif st_mode == _UP:
+        elif st_mode == s_up:
             tx, ty, tz = upx, upy, upz
-        elif st_mode == _KICK:
+        elif st_mode == s_kick:
             # azimuth direction at the current position: rotate the site's
             # azimuth vector into the local horizontal
             ax_, ay_, az_ = azd
@@ -807,10 +812,13 @@ def simulate(
             tz = kick_c * upz + kick_s * hz / hn
         else:
             frac = (t - L_ts) / L_span
-            if st_mode == _LTG:
+            if st_mode == s_ltg:
+                # pitch th with tan(th) linear in time: cos th = 1/sqrt(1 + tan^2)
                 th = math.atan(L_tan0 + (L_tanf - L_tan0) * frac)
+                c_, s_ = cos(th), sin(th)
             else:
                 th = L_th0 + (L_thf - L_th0) * frac
+                c_, s_ = cos(th), sin(th)
             if plane_n is None:
                 vu = vx * upx + vy * upy + vz * upz
                 hx, hy, hz = vx - vu * upx, vy - vu * upy, vz - vu * upz
@@ -822,12 +830,9 @@ def simulate(
                 hx, hy, hz = hx / hn, hy / hn, hz / hn
             else:
                 hx, hy, hz = azd
-            c_, s_ = math.cos(th), math.sin(th)
             tx, ty, tz = c_ * hx + s_ * upx, c_ * hy + s_ * upy, c_ * hz + s_ * upz
         im = 1.0 / m
-        if vrel > 1e-6:
-            vhx, vhy, vhz = vrx / vrel, vry / vrel, vrz / vrel
-        else:
+        if vrel <= 1e-6:
             vhx, vhy, vhz = tx, ty, tz
         fm = f * im
         dm = dmag * im
@@ -1182,12 +1187,18 @@ def simulate(
 
         (ta, _, _), (tb, _, stb), (tc, _, stc) = q_samples
 
-        def state_at(tt):
+        def state_at(tt, n=13):
             st_ = stb if tt <= tb else stc
-            return dense(st_[1], st_[2], st_[3], (tt - st_[0]) / st_[2]), st_
+            return dense(st_[1][:n], st_[2], st_[3], (tt - st_[0]) / st_[2]), st_
 
         def neg_q(tt):
-            return -rhs(tt, state_at(tt)[0], True)[1][3]
+            # q = rho |v_rel|^2 / 2, as in `rhs` (which it would cost in full)
+            x, y, z, vx, vy, vz = state_at(tt, 6)[0]
+            alt = altitude((x, y, z))
+            if w != 0.0:
+                vx, vy = vx + w * y, vy - w * x
+            rho = pds(alt)[1] if alt < atm_top and (alt > 0.0 or detect_impact) else 0.0
+            return -(0.5 * rho * (vx * vx + vy * vy + vz * vz))
 
         opt = minimize_scalar(neg_q, bounds=(ta, tc), method="bounded",
                               options={"xatol": 1e-6 * max(1.0, tc)})
