@@ -87,7 +87,7 @@ import numpy as np
 from sizing.errors import FieldError
 from sizing.physics.atmosphere import (
     _GMR, _H_BASE, _LAPSE, _P_BASE, _R_AIR, _T_BASE, _UP_LNP, _UP_LNRHO, _UP_Z_M, _Z86_M, GAMMA_AIR, M0_KG_MOL,
-    R0_GEOPOTENTIAL_M, R_STAR_J_MOL_K, _upper_temperature, pressure_density_sound_speed,
+    R0_GEOPOTENTIAL_M, R_STAR_J_MOL_K, pressure_density_sound_speed,
 )
 from sizing.physics.gravity import OrbitElements, orbit_elements
 from sizing.physics.vehicle import LaunchSite, Vehicle
@@ -703,7 +703,8 @@ def simulate(
     gmr_lapse = tuple(gmr / lp if lp != 0.0 else 0.0 for lp in _LAPSE)
     gam_r = GAMMA_AIR * _R_AIR
     up_z, up_lnp, up_lnr = _UP_Z_M, _UP_LNP, _UP_LNRHO
-    upper_t = _upper_temperature
+    r0k = R0_GEOPOTENTIAL_M * 1e-3
+    bisect_r = __import__("bisect").bisect_right
     cos, sin = math.cos, math.sin
     s_pro, s_up, s_kick, s_ltg = _PRO, _UP, _KICK, _LTG
 
@@ -738,9 +739,9 @@ def simulate(
             if alt < z86:
                 hg = r0g * alt / (r0g + alt)  # geopotential altitude, USSA 1976 eq. 18
                 if hg >= 11000.0:
-                    i = 6
-                    while hg < h_base[i]:
-                        i -= 1
+                    i = bisect_r(h_base, hg) - 1
+                    if i > 6:
+                        i = 6
                 else:
                     i = 0
                 tb = t_base[i]
@@ -754,13 +755,24 @@ def simulate(
                 rho = p_a * m0_air / (r_star * tm)
                 a_s = sqrt(gam_r * tm)
             else:
-                i = 0
-                while alt >= up_z[i + 1]:
-                    i += 1
+                i = bisect_r(up_z, alt) - 1
                 fz = (alt - up_z[i]) / (up_z[i + 1] - up_z[i])
                 p_a = exp(up_lnp[i] + fz * (up_lnp[i + 1] - up_lnp[i]))
                 rho = exp(up_lnr[i] + fz * (up_lnr[i + 1] - up_lnr[i]))
-                a_s = sqrt(gam_r * upper_t(alt))
+                # kinetic temperature above 86 km, USSA 1976 eqs. 25-31
+                # (`sizing.physics.atmosphere._upper_temperature`)
+                zk = alt * 1e-3
+                if zk < 91.0:
+                    tk = 186.8673
+                elif zk < 110.0:
+                    xt = (zk - 91.0) / -19.9429
+                    xt = 1.0 - xt * xt
+                    tk = 263.1905 - 76.3232 * sqrt(xt if xt > 0.0 else 0.0)
+                elif zk < 120.0:
+                    tk = 240.0 + 12.0 * (zk - 110.0)
+                else:
+                    tk = 1000.0 - 640.0 * exp(-0.01875 * ((zk - 120.0) * (r0k + 120.0) / (r0k + zk)))
+                a_s = sqrt(gam_r * tk)
         else:
             p_a, rho, a_s = 0.0, 0.0, 1.0
         if P_burn:
@@ -950,7 +962,6 @@ def simulate(
                 for a, b, c, d, e, f, g in zip(s0, k1, k3, k4, k5, k6, k7)]
 
     alt_kinks = _ALT_KINKS_M
-    bisect_r = ctab_bisect
 
     def kink_crossing(dg0, dg1, s0, h, K):
         """Fraction x in (0, 1) of the step where the first atmosphere-layer or
@@ -1033,11 +1044,7 @@ def simulate(
             # Newton form through (ta, fa), (tb, fb), (tc, fc), evaluated at t + tau
             d1 = (fc - fb) / (tc - tb)
             d2 = (d1 - (fb - fa) / (tb - ta)) / (tc - ta)
-
-            def p(tau):
-                return fc + tau * (d1 + d2 * (tau + tc - tb))
-
-            fh = p(h)
+            fh = fc + h * (d1 + d2 * (h + tc - tb))
             i0, i1 = bisect_r(knots, fc), bisect_r(knots, fh)
             if i0 == i1:
                 continue
@@ -1047,7 +1054,7 @@ def simulate(
                 continue
             for _ in range(8):
                 mid = lo - flo * (hi - lo) / (fhi - flo)
-                fm = p(mid) - kb
+                fm = fc + mid * (d1 + d2 * (mid + tc - tb)) - kb
                 if (fm > 0) == (flo > 0):
                     lo, flo = mid, fm
                 else:
