@@ -75,7 +75,14 @@ def print_result(result, console=None, *, caution: bool = True) -> None:
     from rich.markup import escape
     from rich.table import Table
 
-    from .report.tables import TRADE_FACTOR_HEADER, limit_text, stage_columns_table, trade_factor_rows
+    from .report.tables import (
+        TRADE_FACTOR_HEADER,
+        limit_step,
+        limit_text,
+        limit_value_text,
+        stage_columns_table,
+        trade_factor_rows,
+    )
     from .result import CAUTION
 
     con = console or _console()
@@ -91,13 +98,21 @@ def print_result(result, console=None, *, caution: bool = True) -> None:
             t.add_row(*map(escape, row))
         con.print(t)
     if result.constraints:
-        t = Table(title="Design limits", title_justify="left")
-        for h in ("limit", "allowed", "at optimum", "gross change per +1"):
+        obj = {"gross_mass": "gross mass", "payload_mass": "payload", "delta_v": "delta-v"}.get(
+            result.solve_for, result.solve_for)
+        t = Table(title=f"Design limits (change of the optimum's {obj} if a binding limit is relaxed "
+                        "by one step)", title_justify="left")
+        for h in ("limit", "allowed", "at optimum", "if relaxed"):
             t.add_column(h, no_wrap=True)
         for c in result.constraints:
-            effect = (f"{c.sensitivity:+.4g} {c.sensitivity_unit.split(' per ')[0]}" if c.binding
-                      else "not binding")
-            t.add_row(escape(c.name), escape(limit_text(c)), f"{c.value:.5g}", escape(effect))
+            if c.binding:
+                per, step = limit_step(c)
+                sign = 1.0 if c.name.rsplit(".", 1)[-1].startswith("max") else -1.0
+                unit = c.sensitivity_unit.split(" per ")[0].split(" ")[0]
+                effect = f"{sign * per * c.sensitivity:+.4g} {unit} per {step}"
+            else:
+                effect = "not binding"
+            t.add_row(escape(c.name), escape(limit_text(c)), escape(limit_value_text(c)), escape(effect))
         con.print(t)
     tfr = trade_factor_rows(result)
     if tfr:

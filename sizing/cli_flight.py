@@ -74,7 +74,7 @@ def run_fly(args) -> int:
     from rich.markup import escape
     from rich.table import Table
 
-    from .cli import EXIT_BAD_INPUT, EXIT_OK, _console, error_line
+    from .cli import EXIT_BAD_INPUT, EXIT_FAILED, EXIT_OK, _console, error_line
     from .optimize.flight_problem import flight_summary, fly_problem
     from .problem.load import load_problem
     from .result import CAUTION, finite_json
@@ -121,7 +121,8 @@ def run_fly(args) -> int:
             if isinstance(v, (int, float)) and math.isfinite(v):
                 t.add_row(label, format(v, spec), escape(unit))
         for k, v in summary["delta_v_budget_m_s"].items():
-            t.add_row(f"budget: {k}", f"{v:,.1f}", "m/s")
+            if math.isfinite(v):
+                t.add_row(f"budget: {k}", f"{v + 0.0:,.1f}", "m/s")
         con.print(t)
         for w in fr.warnings:
             con.print(f"[yellow]review note:[/] {escape(w)}")
@@ -129,5 +130,6 @@ def run_fly(args) -> int:
     if args.out is not None:
         path = write_trajectory_csv(fr.history, args.out, site_altitude_m=problem.launch.altitude_m)
         print(f"wrote {path}", file=sys.stderr if args.json else sys.stdout)
-    return EXIT_OK
+    failed = fr.terminated_by == "impact" and len(fr.burnouts) < len(vehicle.stages)
+    return EXIT_FAILED if failed else EXIT_OK
 

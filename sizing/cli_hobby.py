@@ -336,10 +336,13 @@ def run_hobby(args) -> int:
     from .problem.hobby import load_hobby_problem
     from .report.export import EXPORT_FORMATS, result_json, write_stage_table
 
+    from .cli import check_out_path
+
     out = getattr(args, "out", None)
-    if out is not None and Path(out).suffix.lower() not in EXPORT_FORMATS:
-        error_line(f"--out {out}: the extension must be one of {', '.join(EXPORT_FORMATS)}. "
-                   f"Got {Path(out).suffix or 'none'!r}.")
+    try:
+        check_out_path(out, EXPORT_FORMATS)
+    except ValueError as exc:
+        error_line(str(exc))
         return EXIT_BAD_INPUT
     try:
         problem = load_hobby_problem(args.file)

@@ -191,13 +191,24 @@ def _fly(vehicle: Vehicle, problem: Problem, *, record_history: bool = True) -> 
                       acceleration_limit_m_s2=problem.max_acceleration_m_s2, max_step_s=2.0)
 
 
+#: Review note when the flight ends on the ground before every stage has burnt out.
+IMPACT_UNDER_POWER_NOTE = ("the vehicle came back to the ground at {t:.1f} s before {stage!r} burnt out: "
+                           "it cannot climb with this thrust (raise thrust-to-weight); the figures "
+                           "above describe a failed flight.")
+
+
 def fly_problem(problem: Problem) -> tuple[Vehicle, FlightResult]:
     """Fly the design given in the problem file (`sizing fly`)."""
     vehicle = design_vehicle(problem)
     try:
-        return vehicle, _fly(vehicle, problem)
+        fr = _fly(vehicle, problem)
     except FieldError as exc:
         raise ProblemDefinitionError(problem.source, [str(exc)]) from None
+    if fr.terminated_by == "impact" and len(fr.burnouts) < len(vehicle.stages):
+        stage = vehicle.stages[len(fr.burnouts)].name
+        note = IMPACT_UNDER_POWER_NOTE.format(t=fr.impact_time_s, stage=stage)
+        fr = replace(fr, warnings=tuple(fr.warnings) + (note,))
+    return vehicle, fr
 
 
 def flight_summary(fr: FlightResult, site_altitude_m: float = 0.0) -> dict[str, Any]:

@@ -150,6 +150,22 @@ def render_validation_error(exc: ValidationError, data: Mapping[str, Any]) -> li
     return list(faults.values())
 
 
+def _other_file_kind(data: Mapping[str, Any]) -> str | None:
+    """A one-line explanation when the file is another kind the project reads, else None."""
+    if "hobby" in data:
+        return ("is a hobby-stack file (it has a [hobby] table): run `sizing hobby FILE` "
+                "(or `sizing solve` / `sizing check`, which hand it over).")
+    if "motor" in data and "mission" not in data:
+        return ("is a motor list ([[motor]] tables), not a problem: name it in a hobby problem file "
+                "([hobby] motors = \"...\").")
+    if "study" in data or "axis" in data:
+        return "is a study file: run `sizing study FILE --out runs/NAME`."
+    if "expected" in data and "source" in data:
+        return ("is a reference case with published values ([source], [expected]) read by the tests "
+                "through sizing.testing.load_reference_case, not by the command line.")
+    return None
+
+
 class _Collector:
     """Converts fields to SI and collects every fault instead of stopping at the first."""
 
@@ -199,6 +215,9 @@ def problem_from_dict(data: Mapping[str, Any], *, source: str = "<dict>") -> Pro
     """
     if not isinstance(data, Mapping):
         raise ProblemDefinitionError(source, ["must be a table of [mission] and [[stage]] tables."])
+    kind = _other_file_kind(data)
+    if kind:
+        raise ProblemDefinitionError(source, [kind])
     try:
         pf = ProblemFile.model_validate(data)
     except ValidationError as exc:

@@ -7,7 +7,7 @@ from typing import Any, Sequence
 
 from ..result import CAUTION, SizingResult
 
-__all__ = ["TRADE_FACTOR_HEADER", "limit_text", "STAGE_COLUMNS", "FLIGHT_QUANTITIES", "flight_summary_rows", "stage_rows", "stage_columns_table", "total_row", "trade_factor_rows",
+__all__ = ["TRADE_FACTOR_HEADER", "limit_text", "limit_value_text", "limit_step", "STAGE_COLUMNS", "FLIGHT_QUANTITIES", "flight_summary_rows", "stage_rows", "stage_columns_table", "total_row", "trade_factor_rows",
            "stage_table_markdown", "result_markdown"]
 
 #: (field, header with unit, format) for each column of the stage mass table.
@@ -121,11 +121,34 @@ def trade_factor_rows(result: SizingResult) -> list[list[str]]:
     return rows
 
 
-def limit_text(c) -> str:
-    """'<= 3.2', '>= 0.12', '<= 1,700 kg' for a design limit."""
-    op = ">=" if c.name.rsplit(".", 1)[-1].startswith("min") else "<="
+def _limit_value(c, value: float) -> str:
+    if c.name.endswith("delta_v_share"):
+        return f"{100.0 * value:.2f} %"
     unit = "" if c.unit in ("-", "") else f" {c.unit}"
-    return f"{op} {c.limit:,.6g}{unit}"
+    return f"{value:,.6g}{unit}"
+
+
+def limit_text(c) -> str:
+    """'<= 3.2', '>= 12.00 %', '<= 1,700 kg' for a design limit (shares in per cent)."""
+    op = ">=" if c.name.rsplit(".", 1)[-1].startswith("min") else "<="
+    return f"{op} {_limit_value(c, c.limit)}"
+
+
+def limit_value_text(c) -> str:
+    """The design's value of a limited quantity, in the limit's unit."""
+    return _limit_value(c, c.value)
+
+
+def limit_step(c) -> tuple[float, str]:
+    """The step a reviewer thinks in for a limit: (size in the limit's unit, label).
+
+    1 percentage point of a delta-v share, 0.1 of a mass ratio, 1 kg of a mass.
+    """
+    if c.name.endswith("delta_v_share"):
+        return 0.01, "1 pt"
+    if c.name.endswith("mass_ratio"):
+        return 0.1, "0.1"
+    return 1.0, "1" + ("" if c.unit in ("-", "") else f" {c.unit}")
 
 
 def _md_table(header: Sequence[str], rows: Sequence[Sequence[str]], align_right_from: int = 1) -> str:

@@ -139,3 +139,21 @@ def test_orbit_speed_tolerance_matches_vis_viva():
     v = circular_speed_m_s(500e3) + orbit_speed_tolerance_m_s(500e3, 1000.0)
     a = 1.0 / (2.0 / r - v * v / GM_EARTH_M3_S2)
     assert 2 * a - r - r == pytest.approx(1000.0, rel=1e-3)
+
+
+def test_cli_fly_impact_under_power_is_a_failed_flight(tmp_path, capsys):
+    text = (ROOT / "problems" / "heron_as_built.toml").read_text().replace('thrust = "3000 N"', 'thrust = "400 N"')
+    p = tmp_path / "weak.toml"
+    p.write_text(text)
+    assert main(["fly", str(p)]) == EXIT_FAILED
+    out = capsys.readouterr().out
+    assert "came back to the ground" in out and "nan" not in out
+
+
+@pytest.mark.parametrize("name, hint", [("hobby_water_rocket.toml", "sizing hobby"),
+                                        ("motors/demo_motors.toml", "motor list"),
+                                        ("reference/curtis_three_stage.toml", "reference case")])
+def test_cli_fly_other_file_kinds_get_one_line(name, hint, capsys):
+    assert main(["fly", str(ROOT / "problems" / name)]) == EXIT_BAD_INPUT
+    err = capsys.readouterr().err.strip().splitlines()
+    assert len(err) == 1 and hint in err[0]
