@@ -709,7 +709,9 @@ def simulate(
     s_pro, s_up, s_kick, s_ltg = _PRO, _UP, _KICK, _LTG
 
     def rhs(t, s, diag=False):
-        x, y, z, vx, vy, vz, m = s[0], s[1], s[2], s[3], s[4], s[5], s[6]
+        """Derivative of the 13-component state (7 read); with `diag` also
+        (altitude, |v_rel|, Mach, q, sensed acceleration, thrust, drag)."""
+        x, y, z, vx, vy, vz, m = s[:7]
         if round_:
             r2 = x * x + y * y + z * z
             r = sqrt(r2)
@@ -865,11 +867,24 @@ def simulate(
         d_cf = w2 * (x * vhx + y * vhy) if w != 0.0 else 0.0
         der = [vx, vy, vz, ax, ay, az, -mdot, d_grav, dm, d_steer, (fv - f) * im, fv * im, d_cf]
         if diag:
-            sens = sqrt((fm * tx - dm * vhx) ** 2 + (fm * ty - dm * vhy) ** 2 + (fm * tz - dm * vhz) ** 2)
-            q = 0.5 * rho * vrel2
-            fpa = math.degrees(math.asin(max(-1.0, min(1.0, (vrx * upx + vry * upy + vrz * upz) / vrel)))) if vrel > 0 else 90.0
-            return der, (alt, vrel, mach, q, sens, f, dmag, fpa)
+            sx, sy, sz = fm * tx - dm * vhx, fm * ty - dm * vhy, fm * tz - dm * vhz
+            return der, (alt, vrel, mach, 0.5 * rho * vrel2, sqrt(sx * sx + sy * sy + sz * sz), f, dmag)
         return der
+
+    def path_angle_deg(s):
+        """Earth-relative flight-path angle above the local horizontal [deg] (90 at rest)."""
+        x, y, z, vx, vy, vz = s[:6]
+        if round_:
+            ir = 1.0 / sqrt(x * x + y * y + z * z)
+            upx, upy, upz = x * ir, y * ir, z * ir
+        else:
+            upx, upy, upz = 0.0, 0.0, 1.0
+        if w != 0.0:
+            vx, vy = vx + w * y, vy - w * x
+        vrel = sqrt(vx * vx + vy * vy + vz * vz)
+        if vrel > 0:
+            return math.degrees(math.asin(max(-1.0, min(1.0, (vx * upx + vy * upy + vz * upz) / vrel))))
+        return 90.0
 
     k1_cache = [None, None, None]  # (t, state object, derivative) of the last record()
 
@@ -896,30 +911,30 @@ def simulate(
         # the right-hand side reads only position, velocity and mass (the
         # first 7 components); the loss integrals ride along in s1. The stage
         # sums are written out on scalars (no per-stage lists or loops).
-        x0, y0, z0, u0, v0, w0, m0_ = s[0], s[1], s[2], s[3], s[4], s[5], s[6]
-        x1, y1, z1, u1, v1, w1, n1 = k1[0], k1[1], k1[2], k1[3], k1[4], k1[5], k1[6]
+        x0, y0, z0, u0, v0, w0, m0_ = s[:7]
+        x1, y1, z1, u1, v1, w1, n1 = k1[:7]
         a = h * _DP_A21
         k2 = rhs(t + 0.2 * h, (x0 + a * x1, y0 + a * y1, z0 + a * z1, u0 + a * u1, v0 + a * v1, w0 + a * w1,
                                m0_ + a * n1))
-        x2, y2, z2, u2, v2, w2, n2 = k2[0], k2[1], k2[2], k2[3], k2[4], k2[5], k2[6]
+        x2, y2, z2, u2, v2, w2, n2 = k2[:7]
         a, b = h * _DP_A31, h * _DP_A32
         k3 = rhs(t + 0.3 * h, (x0 + a * x1 + b * x2, y0 + a * y1 + b * y2, z0 + a * z1 + b * z2,
                                u0 + a * u1 + b * u2, v0 + a * v1 + b * v2, w0 + a * w1 + b * w2,
                                m0_ + a * n1 + b * n2))
-        x3, y3, z3, u3, v3, w3, n3 = k3[0], k3[1], k3[2], k3[3], k3[4], k3[5], k3[6]
+        x3, y3, z3, u3, v3, w3, n3 = k3[:7]
         a, b, c = h * _DP_A41, h * _DP_A42, h * _DP_A43
         k4 = rhs(t + 0.8 * h, (x0 + a * x1 + b * x2 + c * x3, y0 + a * y1 + b * y2 + c * y3,
                                z0 + a * z1 + b * z2 + c * z3, u0 + a * u1 + b * u2 + c * u3,
                                v0 + a * v1 + b * v2 + c * v3, w0 + a * w1 + b * w2 + c * w3,
                                m0_ + a * n1 + b * n2 + c * n3))
-        x4, y4, z4, u4, v4, w4, n4 = k4[0], k4[1], k4[2], k4[3], k4[4], k4[5], k4[6]
+        x4, y4, z4, u4, v4, w4, n4 = k4[:7]
         a, b, c, d = h * _DP_A51, h * _DP_A52, h * _DP_A53, h * _DP_A54
         k5 = rhs(t + h * (8.0 / 9.0), (
             x0 + a * x1 + b * x2 + c * x3 + d * x4, y0 + a * y1 + b * y2 + c * y3 + d * y4,
             z0 + a * z1 + b * z2 + c * z3 + d * z4, u0 + a * u1 + b * u2 + c * u3 + d * u4,
             v0 + a * v1 + b * v2 + c * v3 + d * v4, w0 + a * w1 + b * w2 + c * w3 + d * w4,
             m0_ + a * n1 + b * n2 + c * n3 + d * n4))
-        x5, y5, z5, u5, v5, w5, n5 = k5[0], k5[1], k5[2], k5[3], k5[4], k5[5], k5[6]
+        x5, y5, z5, u5, v5, w5, n5 = k5[:7]
         a, b, c, d, e = h * _DP_A61, h * _DP_A62, h * _DP_A63, h * _DP_A64, h * _DP_A65
         k6 = rhs(t + h, (
             x0 + a * x1 + b * x2 + c * x3 + d * x4 + e * x5, y0 + a * y1 + b * y2 + c * y3 + d * y4 + e * y5,
@@ -1179,8 +1194,8 @@ def simulate(
     q_samples: list = []  # last three (t, q, step) samples, for the max-q search
 
     def history_row(t, s, dg, stage):
-        alt, vrel, mach, q, sens, f, dmag, fpa = dg
-        return (t, alt, downrange(t, s), vrel, sqrt(s[3] ** 2 + s[4] ** 2 + s[5] ** 2), fpa, mach,
+        alt, vrel, mach, q, sens, f, dmag = dg
+        return (t, alt, downrange(t, s), vrel, sqrt(s[3] ** 2 + s[4] ** 2 + s[5] ** 2), path_angle_deg(s), mach,
                 q, sens, s[6], f, dmag, stage)
 
     def refine_max_q():
@@ -1229,7 +1244,7 @@ def simulate(
             kink_track.append((t, dg[0], dg[2]))
             if len(kink_track) > 3:
                 del kink_track[0]
-        alt, vrel, mach, q, sens, f, dmag, fpa = dg
+        alt, vrel, mach, q, sens, f, dmag = dg
         if alt < ground - 1.0:
             went_below = True
         new_max_q = q > maxq[0]
@@ -1309,7 +1324,7 @@ def simulate(
                 downrange_m=downrange(t, s),
                 speed_m_s=vrel,
                 inertial_speed_m_s=sqrt(s[3] ** 2 + s[4] ** 2 + s[5] ** 2),
-                flight_path_angle_deg=dg[7],
+                flight_path_angle_deg=path_angle_deg(s),
                 mass_kg=s[6],
                 ideal_delta_v_m_s=d[4],
                 speed_gain_m_s=vrel - speed_rel_prev,
