@@ -217,6 +217,8 @@ def flight_summary(fr: FlightResult, site_altitude_m: float = 0.0) -> dict[str, 
     def f(x):
         return None if x is None or (isinstance(x, float) and not math.isfinite(x)) else float(x)
 
+    # round-off (1e-14 m/s of steering loss in a vertical flight) is reported as zero
+    losses = {k: (0.0 if abs(v) < 1e-9 else float(v)) for k, v in fr.losses_m_s.items()}
     out: dict[str, Any] = {
         "profile": fr.profile,
         "terminated_by": fr.terminated_by,
@@ -225,7 +227,7 @@ def flight_summary(fr: FlightResult, site_altitude_m: float = 0.0) -> dict[str, 
         "max_q_altitude_m": f(fr.max_q_altitude_m),
         "max_acceleration_m_s2": f(fr.max_acceleration_m_s2),
         "liftoff_thrust_to_weight": f(fr.liftoff_thrust_to_weight),
-        "losses_m_s": {k: float(v) for k, v in fr.losses_m_s.items()},
+        "losses_m_s": losses,
         "ideal_delta_v_flown_m_s": f(fr.ideal_delta_v_m_s),
         "rotation_bonus_m_s": f(fr.rotation_bonus_m_s),
         "budget_residual_m_s": f(fr.budget_residual_m_s),
@@ -253,7 +255,7 @@ def flight_summary(fr: FlightResult, site_altitude_m: float = 0.0) -> dict[str, 
             "inclination_deg": f(o.inclination_deg),
         })
     budget = {"ideal": float(fr.ideal_delta_v_m_s)}
-    budget.update({f"{k} loss": -float(v) for k, v in fr.losses_m_s.items()})
+    budget.update({f"{k} loss": 0.0 - v for k, v in losses.items()})
     if fr.rotation_bonus_m_s:
         budget["Earth rotation"] = float(fr.rotation_bonus_m_s)
     budget["final inertial speed" if fr.profile != "vertical" else "speed at final burnout"] = (

@@ -12,6 +12,7 @@ from typing import Any
 import numpy as np
 
 from ..errors import StudyDefinitionError
+from ..result import CAUTION
 from .pareto import non_dominated_ranks, to_minimisation
 from .spec import FIELD_UNITS, Study, apply_case, study_from_dict
 from .store import StudyStore
@@ -27,12 +28,14 @@ __all__ = [
     "PARETO_CSV",
     "PARETO_XLSX",
     "REPORT_HTML",
+    "CAUTION_TXT",
 ]
 
 PARETO_CSV = "pareto.csv"
 PARETO_XLSX = "pareto.xlsx"
 CASES_CSV = "cases.csv"
 REPORT_HTML = "report.html"
+CAUTION_TXT = "CAUTION.txt"
 
 def field_unit(field: str) -> str:
     """Unit of a problem field path such as ``stage.first.isp`` ('' when unknown)."""
@@ -235,12 +238,23 @@ def write_outputs(folder: str | Path, *, report: bool = True) -> dict[str, Path]
     pf.to_csv(folder / PARETO_CSV, index=False)
     out["pareto_csv"] = folder / PARETO_CSV
     try:
-        pf.to_excel(folder / PARETO_XLSX, index=False, sheet_name="pareto")
+        import pandas as pd
+
+        with pd.ExcelWriter(folder / PARETO_XLSX, engine="openpyxl") as xw:
+            pf.to_excel(xw, index=False, sheet_name="pareto")
+            pd.DataFrame({"caution": [CAUTION]}).to_excel(xw, index=False, sheet_name="caution")
         out["pareto_xlsx"] = folder / PARETO_XLSX
     except ImportError:  # pragma: no cover - openpyxl is a dependency
         pass
     res.frame().to_csv(folder / CASES_CSV, index=False)
     out["cases_csv"] = folder / CASES_CSV
+    caution = folder / CAUTION_TXT
+    caution.write_text(
+        f"{res.study.name}: study results in this folder (cases.csv, pareto.csv, pareto.xlsx, "
+        f"report.html, review packs).\n\n{CAUTION}\n"
+        "Study results are model estimates for comparing designs; every design needs its own "
+        "review before anything is built or flown.\n", encoding="utf-8")
+    out["caution"] = caution
     if report:
         out["report"] = write_report(res)
     return out
@@ -338,10 +352,13 @@ def write_review_pack(folder: str | Path, case_id: int, out_dir: str | Path | No
         lines.append(f"| {s.name} (ideal) | {s.delta_v_m_s:,.1f} |")
     d = result.to_dict()
     losses = d.get("losses_m_s") if isinstance(d.get("losses_m_s"), dict) else {}
+    lines.append(f"| total ideal | {result.delta_v_m_s:,.1f} |")
     for k, v in losses.items():
         if isinstance(v, (int, float)):
-            lines.append(f"| loss: {k} | {-float(v):,.1f} |")
-    lines.append(f"| total ideal | {result.delta_v_m_s:,.1f} |")
+            lines.append(f"| loss: {k} | {0.0 - float(v):,.1f} |")
+    if losses:
+        delivered = result.delta_v_m_s - sum(float(v) for v in losses.values() if isinstance(v, (int, float)))
+        lines.append(f"| delivered (ideal minus losses) | {delivered:,.1f} |")
     lines += ["", "## Study metrics", "", "| metric [unit] | value |", "|:---|---:|"]
     for k, v in row["metrics"].items():
         if "." not in k:

@@ -487,8 +487,10 @@ def study_from_dict(data: Mapping[str, Any], *, source: str = "<dict>",
             base = read_toml(ppath)
             base_text = _canonical(base)
         except ProblemDefinitionError as exc:
-            faults.append(f"base.problem: cannot read {spec.base.problem!r}: "
-                          + "; ".join(exc.faults))
+            # nothing else can be checked without the base problem: stop at this one line
+            raise StudyDefinitionError(source, [f"base.problem: cannot read {spec.base.problem!r} "
+                                                f"(relative to the study file): " + "; ".join(exc.faults)]
+                                       ) from None
     else:
         if not inline:
             faults.append("base: give problem = \"path/to/problem.toml\" or inline "

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import copy
+from pathlib import Path
 import re
 
 import numpy as np
@@ -235,3 +236,30 @@ def test_demo_studies_load_and_fix_their_requirement(name, n):
         p = problem_from_dict(c.problem)
         req.add((p.payload_mass_kg, p.delta_v_m_s, p.apogee_m, p.orbit_altitude_m))
     assert len(req) == 1, req
+
+
+def test_study_missing_base_problem_is_one_line_naming_the_study(tmp_path):
+    from sizing.errors import StudyDefinitionError
+    from sizing.study.spec import load_study
+
+    p = tmp_path / "s.toml"
+    p.write_text('[study]\nname = "x"\n[base]\nproblem = "nothere.toml"\n'
+                 '[[axis]]\nfield = "mission.payload_mass"\nvalues = [1.0, 2.0]\n'
+                 '[[objective]]\nmetric = "gross_mass_kg"\n')
+    with pytest.raises(StudyDefinitionError) as info:
+        load_study(p)
+    assert len(info.value.faults) == 1
+    assert str(info.value).startswith(f"{p}: base.problem: cannot read 'nothere.toml'")
+
+
+def test_study_outputs_carry_the_caution(tmp_path):
+    import pandas as pd
+
+    from sizing.result import CAUTION
+    from sizing.study.runner import run_study
+
+    root = Path(__file__).resolve().parents[2]
+    out = tmp_path / "run"
+    run_study(root / "studies" / "jackdaw_quick.toml", out, engine="serial")
+    assert CAUTION in (out / "CAUTION.txt").read_text()
+    assert pd.read_excel(out / "pareto.xlsx", sheet_name="caution")["caution"][0] == CAUTION
