@@ -96,7 +96,7 @@ def main(argv=None) -> int:
         ideal = _ideal_study(25, 20, 21)
         n_ideal = len(expand_cases(study_from_dict(ideal)))
         t_b, cpu_p, cpu_w = _best(r, lambda: _timed(ideal, tmp))
-        print(f"[1] ideal delta-v study, batch solver, local engine (all cores), SQLite store:")
+        print("[1] ideal delta-v study, batch solver, local engine (all cores), SQLite store:")
         print(f"    {n_ideal:,} cases in {t_b:.2f} s = {n_ideal / t_b:,.0f} cases/s; CPU: runner "
               f"{cpu_p:.2f} s, workers {cpu_w:.2f} s")
 
@@ -105,7 +105,7 @@ def main(argv=None) -> int:
         each["axis"][2]["num"] = 2 if args.quick else 4
         n_each = len(expand_cases(study_from_dict(each)))
         t_e, *_ = _best(r, lambda: _timed(each, tmp))
-        print(f"[2a] per-case solve (Lagrange, one solve() per case), local engine, SQLite:")
+        print("[2a] per-case solve (Lagrange, one solve() per case), local engine, SQLite:")
         print(f"    {n_each:,} cases in {t_e:.2f} s = {n_each / t_e:,.0f} cases/s "
               f"(batch is {n_ideal / t_b / (n_each / t_e):,.1f}x faster per case)")
 
@@ -113,7 +113,7 @@ def main(argv=None) -> int:
         n_c = len(expand_cases(study_from_dict(cons)))
         t1, *_ = _best(r, lambda: _timed(cons, tmp, workers=1))
         t2, *_ = _best(r, lambda: _timed(cons, tmp, workers=2))
-        print(f"[2b] per-case solve (constrained convex program, cvxpy), local engine, SQLite:")
+        print("[2b] per-case solve (constrained convex program, cvxpy), local engine, SQLite:")
         print(f"    {n_c} cases: 1 worker {t1:.2f} s ({n_c / t1:.1f} cases/s), "
               f"2 workers {t2:.2f} s ({n_c / t2:.1f} cases/s)")
         print(f"[3] speed-up of 2 workers over 1 (constrained per-case study): {t1 / t2:.2f}x "
@@ -125,7 +125,7 @@ def main(argv=None) -> int:
         n_f = len(expand_cases(study_from_dict(flight)))
         t1f, *_ = _best(r, lambda: _timed(flight, tmp, workers=1))
         t2f, *_ = _best(r, lambda: _timed(flight, tmp, workers=2))
-        print(f"[2c] loss-aware study (each case sized to a 30 km apogee with simulated flights):")
+        print("[2c] loss-aware study (each case sized to a 30 km apogee with simulated flights):")
         print(f"    {n_f} cases: 1 worker {t1f:.2f} s ({n_f / t1f:.1f} cases/s), "
               f"2 workers {t2f:.2f} s ({n_f / t2f:.1f} cases/s)")
         print(f"    speed-up of 2 workers over 1 (loss-aware study): {t1f / t2f:.2f}x (target >= 1.7x)")
