@@ -504,6 +504,80 @@ def _build_phases(vehicle: Vehicle, windows, extra_times) -> list[_Phase]:
     return phases
 
 
+def _bounded_minimum(func, a: float, b: float, xatol: float, maxfun: int = 500) -> float:
+    """Abscissa of a minimum of `func` on [a, b]: Brent's bounded method on plain floats.
+
+    Golden-section search with parabolic interpolation (R. P. Brent, Algorithms
+    for Minimization without Derivatives, 1973, Ch. 5; the FMIN routine of
+    Forsythe, Malcolm & Moler, Computer Methods for Mathematical Computations,
+    1977, Sec. 8.2), step for step as ``scipy.optimize.minimize_scalar(method=
+    "bounded", options={"xatol": xatol})`` but without its per-call and numpy
+    scalar overhead (it runs once per flight, at max-q).
+    """
+    sqrt_eps = math.sqrt(2.2e-16)
+    golden_mean = 0.5 * (3.0 - math.sqrt(5.0))
+    fulc = a + golden_mean * (b - a)
+    nfc, xf = fulc, fulc
+    rat = e = 0.0
+    fx = func(xf)
+    num = 1
+    ffulc = fnfc = fx
+    xm = 0.5 * (a + b)
+    tol1 = sqrt_eps * abs(xf) + xatol / 3.0
+    tol2 = 2.0 * tol1
+    while abs(xf - xm) > (tol2 - 0.5 * (b - a)):
+        golden = True
+        if abs(e) > tol1:  # try a parabolic step
+            golden = False
+            r = (xf - nfc) * (fx - ffulc)
+            q = (xf - fulc) * (fx - fnfc)
+            p = (xf - fulc) * q - (xf - nfc) * r
+            q = 2.0 * (q - r)
+            if q > 0.0:
+                p = -p
+            q = abs(q)
+            r = e
+            e = rat
+            if abs(p) < abs(0.5 * q * r) and p > q * (a - xf) and p < q * (b - xf):
+                rat = (p + 0.0) / q
+                x = xf + rat
+                if (x - a) < tol2 or (b - x) < tol2:
+                    rat = tol1 if xm - xf >= 0.0 else -tol1
+            else:
+                golden = True
+        if golden:
+            e = (a - xf) if xf >= xm else (b - xf)
+            rat = golden_mean * e
+        step = abs(rat) if abs(rat) > tol1 else tol1
+        x = xf + (step if rat >= 0.0 else -step)
+        fu = func(x)
+        num += 1
+        if fu <= fx:
+            if x >= xf:
+                a = xf
+            else:
+                b = xf
+            fulc, ffulc = nfc, fnfc
+            nfc, fnfc = xf, fx
+            xf, fx = x, fu
+        else:
+            if x < xf:
+                a = x
+            else:
+                b = x
+            if fu <= fnfc or nfc == xf:
+                fulc, ffulc = nfc, fnfc
+                nfc, fnfc = x, fu
+            elif fu <= ffulc or fulc == xf or fulc == nfc:
+                fulc, ffulc = x, fu
+        xm = 0.5 * (a + b)
+        tol1 = sqrt_eps * abs(xf) + xatol / 3.0
+        tol2 = 2.0 * tol1
+        if num >= maxfun:
+            break
+    return xf
+
+
 # ---------------------------------------------------------------------------
 # the simulator
 # ---------------------------------------------------------------------------
@@ -941,21 +1015,32 @@ def simulate(
             z0 + a * z1 + b * z2 + c * z3 + d * z4 + e * z5, u0 + a * u1 + b * u2 + c * u3 + d * u4 + e * u5,
             v0 + a * v1 + b * v2 + c * v3 + d * v4 + e * v5, w0 + a * w1 + b * w2 + c * w3 + d * w4 + e * w5,
             m0_ + a * n1 + b * n2 + c * n3 + d * n4 + e * n5))
+        x6, y6, z6, u6, v6, w6, n6 = k6[:7]
         b1, b3, b4, b5, b6 = h * _DP_B1, h * _DP_B3, h * _DP_B4, h * _DP_B5, h * _DP_B6
-        s1 = [a + b1 * b + b3 * d + b4 * e + b5 * f + b6 * g
-              for a, b, d, e, f, g in zip(s, k1, k3, k4, k5, k6)]
+        s1 = [x0 + b1 * x1 + b3 * x3 + b4 * x4 + b5 * x5 + b6 * x6,
+              y0 + b1 * y1 + b3 * y3 + b4 * y4 + b5 * y5 + b6 * y6,
+              z0 + b1 * z1 + b3 * z3 + b4 * z4 + b5 * z5 + b6 * z6,
+              u0 + b1 * u1 + b3 * u3 + b4 * u4 + b5 * u5 + b6 * u6,
+              v0 + b1 * v1 + b3 * v3 + b4 * v4 + b5 * v5 + b6 * v6,
+              w0 + b1 * w1 + b3 * w3 + b4 * w4 + b5 * w5 + b6 * w6,
+              m0_ + b1 * n1 + b3 * n3 + b4 * n4 + b5 * n5 + b6 * n6]
+        # the loss integrals (components 7-12) ride along
+        s1 += [a + b1 * b + b3 * d + b4 * e + b5 * f + b6 * g
+               for a, b, d, e, f, g in zip(s[7:], k1[7:], k3[7:], k4[7:], k5[7:], k6[7:])]
         k7, dg7 = rhs(t + h, s1, True)
         e1, e3, e4, e5, e6, e7 = h * _DP_E1, h * _DP_E3, h * _DP_E4, h * _DP_E5, h * _DP_E6, h * _DP_E7
         # error norm over position and velocity only: the mass is integrated
         # exactly (mdot linear in t) and the loss integrals are quadratures
         # that follow the state
-        ep = max(abs(e1 * x1 + e3 * x3 + e4 * x4 + e5 * x5 + e6 * k6[0] + e7 * k7[0]),
-                 abs(e1 * y1 + e3 * y3 + e4 * y4 + e5 * y5 + e6 * k6[1] + e7 * k7[1]),
-                 abs(e1 * z1 + e3 * z3 + e4 * z4 + e5 * z5 + e6 * k6[2] + e7 * k7[2]))
-        ev = max(abs(e1 * u1 + e3 * u3 + e4 * u4 + e5 * u5 + e6 * k6[3] + e7 * k7[3]),
-                 abs(e1 * v1 + e3 * v3 + e4 * v4 + e5 * v5 + e6 * k6[4] + e7 * k7[4]),
-                 abs(e1 * w1 + e3 * w3 + e4 * w4 + e5 * w5 + e6 * k6[5] + e7 * k7[5]))
-        v_scale = _VEL_SCALE_M_S + sqrt(s1[3] * s1[3] + s1[4] * s1[4] + s1[5] * s1[5])
+        x7, y7, z7, u7, v7, w7 = k7[:6]
+        ep = max(abs(e1 * x1 + e3 * x3 + e4 * x4 + e5 * x5 + e6 * x6 + e7 * x7),
+                 abs(e1 * y1 + e3 * y3 + e4 * y4 + e5 * y5 + e6 * y6 + e7 * y7),
+                 abs(e1 * z1 + e3 * z3 + e4 * z4 + e5 * z5 + e6 * z6 + e7 * z7))
+        ev = max(abs(e1 * u1 + e3 * u3 + e4 * u4 + e5 * u5 + e6 * u6 + e7 * u7),
+                 abs(e1 * v1 + e3 * v3 + e4 * v4 + e5 * v5 + e6 * v6 + e7 * v7),
+                 abs(e1 * w1 + e3 * w3 + e4 * w4 + e5 * w5 + e6 * w6 + e7 * w7))
+        u0, v0, w0 = s1[3], s1[4], s1[5]
+        v_scale = _VEL_SCALE_M_S + sqrt(u0 * u0 + v0 * v0 + w0 * w0)
         err = max(ep / (rtol * _POS_SCALE_M), ev / (rtol * v_scale))
         return s1, err, (k1, k3, k4, k5, k6, k7), k7, dg7
 
@@ -1201,12 +1286,10 @@ def simulate(
     def refine_max_q():
         """Largest q between the last three samples, on the steps' continuous extension.
 
-        Brent's bounded method (scipy.optimize.minimize_scalar) on q(t) evaluated
+        Brent's bounded method (`_bounded_minimum`) on q(t) evaluated
         on the Dormand-Prince interpolant of the two steps around the sampled peak.
         """
         nonlocal maxq
-        from scipy.optimize import minimize_scalar
-
         (ta, _, _), (tb, _, stb), (tc, _, stc) = q_samples
 
         def state_at(tt, n=13):
@@ -1222,9 +1305,7 @@ def simulate(
             rho = pds(alt)[1] if alt < atm_top and (alt > 0.0 or detect_impact) else 0.0
             return -(0.5 * rho * (vx * vx + vy * vy + vz * vz))
 
-        opt = minimize_scalar(neg_q, bounds=(ta, tc), method="bounded",
-                              options={"xatol": 1e-6 * max(1.0, tc)})
-        tq = float(opt.x)
+        tq = _bounded_minimum(neg_q, ta, tc, 1e-6 * max(1.0, tc))
         sq, st_ = state_at(tq)
         dgq = rhs(tq, sq, True)[1]
         if dgq[3] > maxq[0]:
@@ -1462,8 +1543,6 @@ def simulate(
                 record(t, s, (k7, dg7), cur_step[0])
             else:
                 record(t, s)
-            if not is_ascent and altitude(s) > apogee[0] and radial_speed(s) > 0:
-                pass
         if done:
             break
         if ph.burnout_of >= 0:
