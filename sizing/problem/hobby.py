@@ -29,7 +29,7 @@ from ..errors import MSG_MISSING_KEY, MSG_UNKNOWN_KEY, FieldError, ProblemDefini
 from ..physics.motors import Motor, load_motors, parse_motors
 from ..physics.vehicle import DragCurve, LaunchSite
 from ..physics.water import DEFAULT_SAFETY_FACTOR, MIN_SAFETY_FACTOR, MSG_SAFETY_FACTOR, WaterStage
-from .load import _Collector, read_toml
+from .load import _Collector, _loc_label, _stage_label, read_toml
 
 __all__ = [
     "HobbyTable",
@@ -289,17 +289,6 @@ def load_hobby_problem(path: str | Path) -> HobbyProblem:
     return hobby_problem_from_dict(data, source=str(path), base_dir=Path(path).parent)
 
 
-def _stage_label(data: Mapping[str, Any], index: int) -> str:
-    label = f"stage[{index + 1}]"
-    try:
-        name = data["stage"][index].get("name")
-    except (KeyError, IndexError, TypeError, AttributeError):
-        name = None
-    if isinstance(name, str) and name:
-        label += f" ({name})"
-    return label
-
-
 _UNION_TAGS = ("float", "int", "str", "bool", "function-after", "constrained-float", "constrained-int")
 
 
@@ -308,20 +297,7 @@ def _render(exc: ValidationError, data: Mapping[str, Any], stage_model: type[Bas
     faults: dict[str, str] = {}
     for err in exc.errors():
         loc = tuple(p for p in err["loc"] if not (isinstance(p, str) and ("[" in p or p in _UNION_TAGS)))
-        parts: list[str] = []
-        i = 0
-        while i < len(loc):
-            item = loc[i]
-            if item == "stage" and i + 1 < len(loc) and isinstance(loc[i + 1], int):
-                parts.append(_stage_label(data, loc[i + 1]))
-                i += 2
-                continue
-            if isinstance(item, int):
-                parts[-1:] = [f"{parts[-1] if parts else ''}[{item + 1}]"]
-            else:
-                parts.append(str(item))
-            i += 1
-        where = ".".join(parts) or "file"
+        where = _loc_label(data, loc) or "file"
         if where in faults:
             continue
         kind = err["type"]
