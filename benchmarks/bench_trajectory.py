@@ -1,50 +1,56 @@
-"""Trajectory speed: our simulator vs a plain scipy solve_ivp formulation, side by side in one run.
+"""Flight speed: the compiled kernel vs fair peers, side by side in one run.
 
 Run:  python benchmarks/bench_trajectory.py
 
-For a three-stage gravity-turn ascent (invented vehicle) every integration is
-compared with a tight reference (solve_ivp RK45, rtol 1e-12, atol 1e-9) at
-final burnout. The accuracy required of "the same answer" is stated before
-anything is timed: burnout altitude within 1 m (the targeting tolerance of
-`fly_ascent`) and burnout inertial speed within 1 mm/s. For each method the
-cheapest setting that meets it is picked from a sweep, and the time per
-trajectory is the best of several interleaved repeats (the machine is shared).
-Printed: the sweep table, then ours (default settings and cheapest passing
-setting) against the cheapest passing solve_ivp RK45 and DOP853 runs, with
-the ratios; then the throughput of `fly_ascent_batch` on 1000 candidate
-variants of the vehicle (time per trajectory, errors of five of them against
-the tight reference) against the same solve_ivp times. Then a vertical sounding-rocket flight (ours, adaptive vs the
-former fixed-step RK4) and the time to size the three-stage vehicle to a
-200 km circular orbit with `sizing.optimize.flight.size_to_target`.
+Printed, all measured in this run (best of interleaved repeats; the machine is shared):
 
-The reference formulation integrates the same equations of motion (inertial
-frame, inverse-square gravity, rotating atmosphere, thrust F_vac - p_a A_e,
-drag q C_D(M) S along the air-relative velocity, the same steering law) with
-numpy vectors and scipy.integrate.solve_ivp, phase by phase over the same
-breakpoints.
+1. First-call compile time of the kernel with an empty cache (a subprocess), and the time to
+   load it from the cache (what every later process pays).
+2. A three-stage ascent (invented vehicle, drag, rotating Earth, linear-tangent upper stages).
+   "The same answer" is fixed before anything is timed: burnout altitude within 1 m and
+   inertial speed within 1 mm/s of a tight reference (scipy DOP853, rtol 1e-13, on the kernel's
+   own equations in plain Python, `derivatives.py_func`). For each method the cheapest setting
+   in a sweep that gives the same answer is timed:
+   - the compiled kernel (`run_flight`, and the whole `fly_ascent` call);
+   - a fair scalar-RHS solve_ivp peer: the same physics written on Python floats (tuples, the
+     math module; the compiled standard atmosphere is lent to it), RK45 and DOP853, phase by
+     phase over the same breakpoints;
+   - the project's previous pure-Python Dormand-Prince integrator (loaded from git history,
+     commit PREVIOUS; skipped when git or the history is missing);
+   - the reference equations themselves (`derivatives.py_func` under solve_ivp DOP853).
+3. A vertical sounding-rocket flight to apogee: kernel vs the previous integrator.
+4. A batch of 2000 dispersed vehicles (each with its own C_D table scale and thrust) through
+   `fly_many` against one-by-one `fly_ascent` calls.
+5. End-to-end apogee sizing (`sizing.optimize.flight.size_to_target`, the demo sounding rocket):
+   the same outer loop flying the kernel vs the previous integrator.
 """
 
 from __future__ import annotations
 
 import math
+import os
+import subprocess
 import sys
+import tempfile
 import time
+import types
 from pathlib import Path
 
 import numpy as np
 from scipy.integrate import solve_ivp
 
-sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
+ROOT = Path(__file__).resolve().parents[1]
+sys.path.insert(0, str(ROOT))
 
-from sizing.optimize.flight import OrbitTarget, size_to_target  # noqa: E402
-from sizing.physics.atmosphere import pressure_density_sound_speed  # noqa: E402
-from sizing.physics.trajectory import (  # noqa: E402
-    _DEFAULT_RTOL as DEFAULT_RTOL, _KICK, _LTG, _PRO, _UP, AscentProfile, _build_phases, _stage_windows,
-    fly_ascent, fly_ascent_batch, fly_vertical, simulate,
-)
-from sizing.physics.vehicle import FlightStage, FlightStageSpec, LaunchSite, Vehicle, build_vehicle  # noqa: E402
-from sizing.units import G0_M_S2, GM_EARTH_M3_S2, OMEGA_EARTH_RAD_S, R_EARTH_EQ_M  # noqa: E402
+from sizing.physics.atmosphere import standard_atmosphere  # noqa: E402
+from sizing.physics.flight import AscentProfile, fly_ascent, fly_many, fly_vertical  # noqa: E402
+from sizing.physics.flight import layout as L  # noqa: E402
+from sizing.physics.flight.equations import derivatives  # noqa: E402
+from sizing.physics.flight.kernel import run_flight  # noqa: E402
+from sizing.physics.flight.setup import prepare_flight  # noqa: E402
+from sizing.physics.vehicle import DragCurve, FlightStage, FlightStageSpec, LaunchSite, Vehicle, build_vehicle  # noqa: E402
 
+PREVIOUS = "b771bc1"  # last commit with the pure-Python integrator (sizing/physics/trajectory.py)
 SPECS = [
     FlightStageSpec("booster", 310.0, 0.07, 1.5, diameter_m=3.7, isp_sl_s=280.0),
     FlightStageSpec("sustainer", 345.0, 0.09, 1.1, diameter_m=3.7, isp_sl_s=300.0),
@@ -52,206 +58,288 @@ SPECS = [
 ]
 MP = [83231.65, 12212.04, 2785.89]
 MS = [6264.76, 1207.79, 379.89]
-PROFILE = AscentProfile(pitch_kick_deg=6.5248, initial_pitch_deg=20.2973, final_pitch_deg=-8.0830)
-
-
-def scipy_ascent(vehicle: Vehicle, site: LaunchSite, prof: AscentProfile, rtol: float = 1e-9,
-                 atol: float = 1e-6, method: str = "RK45"):
-    """Plain formulation: numpy vectors + solve_ivp, same equations and phases."""
-    w = np.array([0.0, 0.0, OMEGA_EARTH_RAD_S])
-    lat, az = math.radians(site.latitude_deg), math.radians(site.azimuth_deg)
-    r0 = (R_EARTH_EQ_M + site.altitude_m) * np.array([math.cos(lat), 0.0, math.sin(lat)])
-    north0 = np.array([-math.sin(lat), 0.0, math.cos(lat)])
-    east0 = np.array([0.0, 1.0, 0.0])
-    azd = math.cos(az) * north0 + math.sin(az) * east0
-    windows = _stage_windows(vehicle, ignore_first_coast=True)
-    t_vert, t_kick = prof.vertical_rise_s, prof.vertical_rise_s + prof.kick_duration_s
-    steer_start = windows[1][0]
-    phases = _build_phases(vehicle, windows, [t_vert, t_kick, steer_start])
-    t_end = windows[-1][1]
-    th0, thf = math.radians(prof.initial_pitch_deg), math.radians(prof.final_pitch_deg)
-    ks, kc = math.sin(math.radians(prof.pitch_kick_deg)), math.cos(math.radians(prof.pitch_kick_deg))
-
-    def make_rhs(ph, mode):
-        st = vehicle.stages[ph.stage]
-        area = vehicle.reference_area_m2(ph.stage)
-        ae = st.exit_area_m2
-
-        def rhs(t, y):
-            r, v, m = y[0:3], y[3:6], y[6]
-            rn = np.linalg.norm(r)
-            up = r / rn
-            g = -GM_EARTH_M3_S2 * r / rn**3
-            vrel = v - np.cross(w, r)
-            vr = np.linalg.norm(vrel)
-            alt = rn - R_EARTH_EQ_M
-            p, rho, a = pressure_density_sound_speed(alt) if alt < 300e3 else (0.0, 0.0, 1.0)
-            if ph.burning:
-                fv = ph.f_a + ph.f_b * (t - ph.t0)
-                f = max(0.0, fv - p * ae)
-                mdot = ph.m_a + ph.m_b * (t - ph.t0)
-            else:
-                f = mdot = 0.0
-            drag = 0.5 * rho * vr * st.drag.cd_at(vr / a) * area * vrel if vr > 0 else np.zeros(3)
-            if mode == _UP:
-                u = up
-            elif mode == _KICK:
-                h = azd - np.dot(azd, up) * up
-                u = kc * up + ks * h / np.linalg.norm(h)
-            elif mode == _PRO:
-                u = vrel / vr
-            else:
-                frac = (t - steer_start) / (t_end - steer_start)
-                th = math.atan(math.tan(th0) + (math.tan(thf) - math.tan(th0)) * frac)
-                h = v - np.dot(v, up) * up
-                u = math.cos(th) * h / np.linalg.norm(h) + math.sin(th) * up
-            acc = (f * u - drag) / m + g
-            return np.concatenate((v, acc, [-mdot]))
-
-        return rhs
-
-    y = np.concatenate((r0, np.cross(w, r0), [vehicle.gross_mass_kg]))
-    for ph in phases:
-        mid = 0.5 * (ph.t0 + ph.t1)
-        mode = _UP if mid < t_vert else _KICK if mid < t_kick else _LTG if mid >= steer_start else _PRO
-        sol = solve_ivp(make_rhs(ph, mode), (ph.t0, ph.t1), y, method=method, rtol=rtol, atol=atol)
-        y = sol.y[:, -1].copy()
-        if ph.burnout_of >= 0 and ph.burnout_of < len(vehicle.stages) - 1:
-            y[6] = vehicle.ignition_mass_kg(ph.burnout_of + 1)
-    r, v = y[0:3], y[3:6]
-    return np.linalg.norm(r) - R_EARTH_EQ_M, np.linalg.norm(v)
-
-
-N_BATCH = 1000
-ALT_TOL_M = 1.0  # burnout altitude: the targeting tolerance of fly_ascent
-SPEED_TOL_M_S = 1e-3  # burnout inertial speed
+PROF = dict(pitch_kick_deg=6.5248, initial_pitch_deg=20.2973, final_pitch_deg=-8.0830)
+ALT_TOL_M, SPEED_TOL_M_S = 1.0, 1e-3
+N_BATCH = 2000
 
 
 def best_times(cases: dict, rounds: int, inner: dict | None = None) -> dict:
-    """Best wall time [s] of each case over `rounds` interleaved rounds, and its last output.
-
-    Every round runs every case (`inner[name]` times, default once), so a change
-    in the machine's load hits all cases alike.
-    """
+    """Best wall time [s] per call of each case over interleaved rounds, and its last output."""
     inner = inner or {}
     best = {k: math.inf for k in cases}
     out = {}
     for _ in range(rounds):
         for k, fn in cases.items():
-            for _ in range(inner.get(k, 1)):
-                t0 = time.perf_counter()
+            n = inner.get(k, 1)
+            t0 = time.perf_counter()
+            for _ in range(n):
                 out[k] = fn()
-                best[k] = min(best[k], time.perf_counter() - t0)
+            best[k] = min(best[k], (time.perf_counter() - t0) / n)
     return {k: (best[k], out[k]) for k in cases}
 
 
-def main() -> None:
+def load_previous():
+    """The previous pure-Python integrator module, from git history, or None."""
+    try:
+        src = subprocess.run(["git", "show", f"{PREVIOUS}:sizing/physics/trajectory.py"], cwd=ROOT,
+                             capture_output=True, text=True, check=True).stdout
+    except (OSError, subprocess.CalledProcessError):
+        return None
+    mod = types.ModuleType("previous_trajectory")
+    sys.modules["previous_trajectory"] = mod
+    exec(compile(src, "previous_trajectory.py", "exec"), mod.__dict__)
+    return mod
+
+
+def scalar_peer(setup, method: str, rtol: float, atol: float = 1e-6):
+    """Fair peer: the same equations on Python floats, integrated by solve_ivp phase by phase."""
+    env = steer = setup.par.tolist()
+    mu, R, w = env[L.ENV_MU], env[L.ENV_RADIUS], env[L.ENV_OMEGA]
+    azd = env[L.ENV_AZ0:L.ENV_AZ0 + 3]
+    ks, kc = steer[L.ST_KICK_SIN], steer[L.ST_KICK_COS]
+    ts, span, tan0, tanf = steer[L.ST_T_START], steer[L.ST_SPAN], steer[L.ST_TAN0], steer[L.ST_TANF]
+    par = setup.par.tolist()
+
+    def make_rhs(ph):
+        fa, fb, ma, mb, t0 = ph[L.PH_FA], ph[L.PH_FB], ph[L.PH_MA], ph[L.PH_MB], ph[L.PH_T0]
+        burning, ae, area, mode = ph[L.PH_BURNING] > 0, ph[L.PH_EXIT_AREA], ph[L.PH_REF_AREA], int(ph[L.PH_MODE])
+        off, n = int(ph[L.PH_DRAG_OFF]), int(ph[L.PH_DRAG_LEN])
+        mach_t, cd_t = par[off:off + n], par[off + n:off + 2 * n]
+
+        def rhs(t, y):
+            x, yy, z, vx, vy, vz, m = y[0], y[1], y[2], y[3], y[4], y[5], y[6]
+            r = math.sqrt(x * x + yy * yy + z * z)
+            ux, uy, uz = x / r, yy / r, z / r
+            gk = -mu / (r * r * r)
+            vrx, vry, vrz = vx + w * yy, vy - w * x, vz
+            vr = math.sqrt(vrx * vrx + vry * vry + vrz * vrz)
+            alt = r - R
+            p = rho = 0.0
+            a = 1.0
+            if alt < 300e3:
+                _, p, rho, a = standard_atmosphere(alt)
+            f = mdot = 0.0
+            if burning:
+                fv = fa + fb * (t - t0)
+                f = max(0.0, fv - p * ae)
+                mdot = ma + mb * (t - t0)
+            dmag = 0.0
+            if rho > 0 and vr > 0:
+                cd = float(np.interp(vr / a, mach_t, cd_t))
+                dmag = 0.5 * rho * vr * vr * cd * area
+            if mode == L.MODE_UP:
+                tx, ty, tz = ux, uy, uz
+            elif mode == L.MODE_KICK:
+                d = azd[0] * ux + azd[1] * uy + azd[2] * uz
+                hx, hy, hz = azd[0] - d * ux, azd[1] - d * uy, azd[2] - d * uz
+                hn = math.sqrt(hx * hx + hy * hy + hz * hz)
+                tx, ty, tz = kc * ux + ks * hx / hn, kc * uy + ks * hy / hn, kc * uz + ks * hz / hn
+            elif mode == L.MODE_PROGRADE:
+                tx, ty, tz = vrx / vr, vry / vr, vrz / vr
+            else:
+                th = math.atan(tan0 + (tanf - tan0) * (t - ts) / span)
+                vu = vx * ux + vy * uy + vz * uz
+                hx, hy, hz = vx - vu * ux, vy - vu * uy, vz - vu * uz
+                hn = math.sqrt(hx * hx + hy * hy + hz * hz)
+                c, s = math.cos(th), math.sin(th)
+                tx, ty, tz = c * hx / hn + s * ux, c * hy / hn + s * uy, c * hz / hn + s * uz
+            fm, dmm = f / m, (dmag / m / vr if vr > 0 else 0.0)
+            return (vx, vy, vz, fm * tx - dmm * vrx + gk * x, fm * ty - dmm * vry + gk * yy,
+                    fm * tz - dmm * vrz + gk * z, -mdot)
+
+        return rhs
+
+    y = setup.y0[:7].copy()
+    for ph in setup.phases:
+        sol = solve_ivp(make_rhs(ph), (ph[L.PH_T0], ph[L.PH_T1]), y, method=method, rtol=rtol, atol=atol)
+        y = sol.y[:, -1].copy()
+        if ph[L.PH_BURNOUT_OF] >= 0:
+            y[6] = ph[L.PH_MASS_AFTER]
+    return float(np.linalg.norm(y[:3]) - R_EARTH), float(np.linalg.norm(y[3:6]))
+
+
+def reference_equations(setup, rtol: float, method: str = "DOP853"):
+    """The kernel's own equations in plain Python (`derivatives.py_func`) under solve_ivp."""
+    y = setup.y0.copy()
+
+    def rhs(t, yy, ph):
+        dy, dg = np.zeros(L.N_STATE), np.zeros(L.N_DIAG)
+        derivatives.py_func(t, yy, dy, dg, setup.par, ph, False)
+        return dy
+
+    for ph in setup.phases:
+        sol = solve_ivp(rhs, (ph[L.PH_T0], ph[L.PH_T1]), y, method=method, rtol=rtol, atol=1e-9, args=(ph,))
+        y = sol.y[:, -1].copy()
+        if ph[L.PH_BURNOUT_OF] >= 0:
+            y[6] = ph[L.PH_MASS_AFTER]
+    return float(np.linalg.norm(y[:3]) - R_EARTH), float(np.linalg.norm(y[3:6]))
+
+
+R_EARTH = 6378137.0
+
+
+def compile_times() -> tuple[float, float]:
+    code = ("import time; t = time.perf_counter()\n"
+            "from sizing.physics.flight import fly_vertical\n"
+            "from sizing.physics.vehicle import FlightStage, Vehicle, LaunchSite\n"
+            "fly_vertical(Vehicle((FlightStage('a', 1.0, 1.0, 200.0, diameter_m=0.1, thrust_vac_n=500.0),), 0.1), "
+            "LaunchSite())\nprint(time.perf_counter() - t)")
+    with tempfile.TemporaryDirectory() as d:
+        env = dict(os.environ, SIZING_CACHE_DIR=d)
+        run = [sys.executable, "-c", code]
+        cold = float(subprocess.run(run, env=env, cwd=ROOT, capture_output=True, text=True, check=True).stdout)
+        warm = float(subprocess.run(run, env=env, cwd=ROOT, capture_output=True, text=True, check=True).stdout)
+    return cold, warm
+
+
+def section_ascent(prev):
     vehicle = build_vehicle(SPECS, MP, MS, 5000.0)
     site = LaunchSite(latitude_deg=28.5, azimuth_deg=90.0)
-    print("Three-stage gravity-turn ascent (invented vehicle, 5 t payload, 28.5 deg, due east)")
-    alt_x, v_x = scipy_ascent(vehicle, site, PROFILE, rtol=1e-12, atol=1e-9)
-    print(f"  reference: solve_ivp RK45 rtol 1e-12 atol 1e-9: burnout altitude {alt_x:.3f} m, "
+    prof = AscentProfile(**PROF)
+    kw = dict(profile="ascent", ascent=prof, rotating=True, stop_at="burnout", record_history=False)
+    alt_x, v_x = reference_equations(prepare_flight(vehicle, site, **kw), 1e-13)
+    print("\n2. Three-stage ascent (invented vehicle, 5 t payload, 28.5 deg, due east, drag, rotating Earth)")
+    print(f"   reference: solve_ivp DOP853 rtol 1e-13 on derivatives.py_func: burnout altitude {alt_x:.3f} m, "
           f"inertial speed {v_x:.5f} m/s")
-    print(f"  same answer = |altitude error| <= {ALT_TOL_M:g} m and |speed error| <= {SPEED_TOL_M_S:g} m/s")
+    print(f"   same answer = |altitude error| <= {ALT_TOL_M:g} m and |speed error| <= {SPEED_TOL_M_S:g} m/s")
+    cases, inner = {}, {}
+    for rt in (1e-6, 1e-7, 1e-8, 1e-9, 1e-10):
+        setup = prepare_flight(vehicle, site, rtol=rt, **kw)
+        args = setup.kernel_args(1)
 
-    def ours(**kw):
-        def f():
-            r = simulate(vehicle, site, profile="ascent", ascent=PROFILE, earth="round", rotating=True,
-                         stop_at="burnout", record_history=False, **kw)
-            return r.orbit.altitude_m, r.final_inertial_speed_m_s
-        return f
+        def kern(args=args):
+            o, y, *_ = run_flight(*args)
+            return float(np.linalg.norm(y[:3]) - R_EARTH), float(np.linalg.norm(y[3:6])), int(o[L.OUT_N_STEPS])
+        cases[f"kernel run_flight rtol {rt:g}"] = kern
+        inner[f"kernel run_flight rtol {rt:g}"] = 50
 
-    def ref(method, rt):
-        return lambda: scipy_ascent(vehicle, site, PROFILE, rtol=rt, method=method)
+        def whole(rt=rt):
+            r = fly_ascent(vehicle, site, prof, record_history=False, rtol=rt)
+            return r.orbit.altitude_m, r.final_inertial_speed_m_s, r.n_steps
+        cases[f"kernel fly_ascent rtol {rt:g}"] = whole
+        inner[f"kernel fly_ascent rtol {rt:g}"] = 20
+        if prev is not None:
+            pp = prev.AscentProfile(**PROF)
 
-    cases = {}
-    for rt in (1e-6, 3e-7, 1e-7, 3e-8, 1e-8, 1e-9, 1e-10):
-        tag = " (default)" if rt == DEFAULT_RTOL else ""
-        cases[f"ours Dormand-Prince rtol {rt:g}{tag}"] = ours(integrator="dopri5", rtol=rt)
-    for dt in (1.0, 0.5, 0.25):
-        tag = " (former default)" if dt == 0.5 else ""
-        cases[f"ours RK4 {dt:g} s{tag}"] = ours(integrator="rk4", max_step_s=dt)
-    inner = {k: 3 for k in cases}  # ours is fast: three tries per round
+            def old(rt=rt, pp=pp):
+                r = prev.simulate(vehicle, site, profile="ascent", ascent=pp, earth="round", rotating=True,
+                                  stop_at="burnout", record_history=False, rtol=rt)
+                return r.orbit.altitude_m, r.final_inertial_speed_m_s, -1
+            cases[f"previous pure-Python DP rtol {rt:g}"] = old
+            inner[f"previous pure-Python DP rtol {rt:g}"] = 3
+    s8 = prepare_flight(vehicle, site, **kw)
     for method in ("RK45", "DOP853"):
         for rt in (1e-7, 1e-8, 1e-9, 1e-10, 1e-11):
-            cases[f"solve_ivp {method} rtol {rt:g}"] = ref(method, rt)
+            cases[f"scalar solve_ivp {method} rtol {rt:g}"] = (
+                lambda m=method, r=rt: (*scalar_peer(s8, m, r), -1))
+    for rt in (1e-8, 1e-10):
+        cases[f"reference eqs solve_ivp DOP853 rtol {rt:g}"] = lambda r=rt: (*reference_equations(s8, r), -1)
     res = best_times(cases, 4, inner)
-
-    print(f"\n  {'integration':40s}{'alt err [m]':>12s}{'speed err [m/s]':>17s}{'ms/traj':>10s}{'same answer':>13s}")
+    print(f"\n   {'method':44s}{'alt err [m]':>12s}{'speed err [m/s]':>17s}{'steps':>7s}{'ms/flight':>11s}"
+          f"{'same':>6s}")
     passing = {}
-    for name, (t_s, (a_, v_)) in res.items():
+    for name, (t_s, (a_, v_, n_)) in res.items():
         ok = abs(a_ - alt_x) <= ALT_TOL_M and abs(v_ - v_x) <= SPEED_TOL_M_S
-        print(f"  {name:40s}{a_ - alt_x:12.3f}{v_ - v_x:17.5f}{1e3 * t_s:10.2f}{'yes' if ok else 'no':>13s}")
+        steps = f"{n_:d}" if n_ >= 0 else "-"
+        print(f"   {name:44s}{a_ - alt_x:12.4f}{v_ - v_x:17.6f}{steps:>7s}{1e3 * t_s:11.3f}{'yes' if ok else 'no':>6s}")
         if ok:
             passing[name] = t_s
 
     def cheapest(prefix):
-        c = [(t_s, n) for n, t_s in passing.items() if n.startswith(prefix)]
+        c = [(t, n) for n, t in passing.items() if n.startswith(prefix)]
         return min(c) if c else (math.nan, "none passes")
 
-    t_def = res[f"ours Dormand-Prince rtol {DEFAULT_RTOL:g} (default)"][0]
-    t_ours, n_ours = cheapest("ours Dormand-Prince")
-    t_rk4, n_rk4 = cheapest("ours RK4")
-    t_45, n_45 = cheapest("solve_ivp RK45")
-    t_853, n_853 = cheapest("solve_ivp DOP853")
-    print("\n  Time per trajectory for the same answer (cheapest passing setting of each method):")
-    print(f"  {'ours, default settings':40s}{1e3 * t_def:10.2f} ms")
-    for label, t_s, n in (("ours, cheapest", t_ours, n_ours), ("ours before (fixed-step RK4)", t_rk4, n_rk4),
-                          ("solve_ivp RK45 (plain formulation)", t_45, n_45),
-                          ("solve_ivp DOP853 (plain formulation)", t_853, n_853)):
-        print(f"  {label:40s}{1e3 * t_s:10.2f} ms   [{n}]")
-    print(f"  ratio solve_ivp RK45 / ours default   {t_45 / t_def:6.1f}x   (/ ours cheapest {t_45 / t_ours:.1f}x)")
-    print(f"  ratio solve_ivp DOP853 / ours default {t_853 / t_def:6.1f}x   (/ ours cheapest {t_853 / t_ours:.1f}x)")
-    print(f"  ratio RK4 before / ours default       {t_rk4 / t_def:6.1f}x")
-    (t_h, _), = best_times({"h": lambda: fly_ascent(vehicle, site, PROFILE, record_history=True)}, 5).values()
-    print(f"  (ours default with full time history: {1e3 * t_h:.2f} ms)")
+    t_k, n_k = cheapest("kernel run_flight")
+    t_f, n_f = cheapest("kernel fly_ascent")
+    rows = [("previous pure-Python integrator", *cheapest("previous pure-Python DP")),
+            ("scalar solve_ivp RK45", *cheapest("scalar solve_ivp RK45")),
+            ("scalar solve_ivp DOP853", *cheapest("scalar solve_ivp DOP853")),
+            ("reference equations, solve_ivp DOP853", *cheapest("reference eqs"))]
+    print("\n   Per flight at the same answer (cheapest passing setting of each):")
+    print(f"   {'kernel (run_flight)':40s}{1e3 * t_k:9.3f} ms  [{n_k}]")
+    print(f"   {'kernel through fly_ascent (API)':40s}{1e3 * t_f:9.3f} ms  [{n_f}]")
+    for label, t_s, n in rows:
+        print(f"   {label:40s}{1e3 * t_s:9.3f} ms  [{n}]   ratio to kernel {t_s / t_k:7.1f}x"
+              f"   to fly_ascent {t_s / t_f:6.1f}x")
+    return vehicle, site, prof
 
-    print(f"\nBatched candidates: {N_BATCH} variants of the vehicle (all masses x 0.97..1.03), "
-          "fly_ascent_batch (lock-step numpy, RK4 0.5 s)")
-    factors = np.linspace(0.97, 1.03, N_BATCH)
-    cands = [build_vehicle(SPECS, [f * m for m in MP], [f * m for m in MS], 5000.0) for f in factors]
-    (t_b, out_b), = best_times({"b": lambda: fly_ascent_batch(cands, site, PROFILE)}, 2).values()
-    t_b /= N_BATCH
-    worst = (0.0, 0.0)
-    for i in np.linspace(0, N_BATCH - 1, 5).astype(int):
-        a_ref, v_ref = scipy_ascent(cands[i], site, PROFILE, rtol=1e-12, atol=1e-9)
-        worst = (max(worst[0], abs(out_b[i].orbit.altitude_m - a_ref)),
-                 max(worst[1], abs(out_b[i].final_inertial_speed_m_s - v_ref)))
-    ok = worst[0] <= ALT_TOL_M and worst[1] <= SPEED_TOL_M_S
-    print(f"  largest error of 5 candidates vs solve_ivp RK45 rtol 1e-12: {worst[0]:.3f} m, {worst[1]:.5f} m/s "
-          f"(same answer: {'yes' if ok else 'no'})")
-    print(f"  {'batch, time per trajectory':40s}{1e3 * t_b:10.3f} ms")
-    print(f"  throughput ratio solve_ivp RK45 / batch   {t_45 / t_b:6.1f}x   (DOP853 {t_853 / t_b:.1f}x, "
-          f"ours one-by-one default {t_def / t_b:.1f}x)")
 
-    print("\nVertical flight of a sounding rocket, rail 8 m, drag, round Earth, to apogee")
+def section_vertical(prev):
+    print("\n3. Vertical flight of a sounding rocket, rail 8 m, drag, round Earth, to apogee")
     st = FlightStage("motor", 8.0, 4.0, 230.0, diameter_m=0.15, thrust_vac_n=2500.0)
     sv = Vehicle((st,), 4.0)
-    vsite = LaunchSite(altitude_m=1400.0, rail_length_m=8.0)
-    vres = best_times({
-        "ours Dormand-Prince (default)": lambda: fly_vertical(sv, vsite, earth="round", record_history=False),
-        "ours RK4 (former default)": lambda: simulate(sv, vsite, profile="vertical", earth="round",
-                                                      record_history=False, integrator="rk4"),
-        "ours Dormand-Prince rtol 1e-12": lambda: simulate(sv, vsite, profile="vertical", earth="round",
-                                                           record_history=False, rtol=1e-12),
-    }, 7)
-    ap_x = vres["ours Dormand-Prince rtol 1e-12"][1].apogee_m
-    for name, (t_s, rv) in vres.items():
-        print(f"  {name:32s} apogee {rv.apogee_m:.3f} m (vs rtol 1e-12 {rv.apogee_m - ap_x:+.4f} m) "
-              f"at {rv.time_to_apogee_s:.3f} s; {1e3 * t_s:.2f} ms per trajectory")
+    site = LaunchSite(altitude_m=1400.0, rail_length_m=8.0)
+    cases = {"kernel fly_vertical": lambda: fly_vertical(sv, site, earth="round", record_history=False)}
+    if prev is not None:
+        cases["previous pure-Python DP"] = lambda: prev.fly_vertical(sv, site, earth="round", record_history=False)
+    res = best_times(cases, 7, {"kernel fly_vertical": 20})
+    for name, (t_s, r) in res.items():
+        print(f"   {name:32s} apogee {r.apogee_m:.4f} m at {r.time_to_apogee_s:.4f} s; {1e3 * t_s:.3f} ms per flight")
+    if prev is not None:
+        print(f"   ratio previous / kernel {res['previous pure-Python DP'][0] / res['kernel fly_vertical'][0]:.1f}x")
 
-    print("\nSizing the three-stage vehicle to a 200 km circular orbit, 30 deg inclination")
-    t0 = time.perf_counter()
-    sized = size_to_target(SPECS, 5000.0, OrbitTarget(200e3, inclination_deg=30.0),
-                           LaunchSite(latitude_deg=28.5))
-    dt = time.perf_counter() - t0
-    print(f"  converged={sized.converged} in {sized.n_iterations} outer flights, {dt:.2f} s wall time")
-    print(f"  gross mass {sized.gross_mass_kg:.1f} kg, ideal delta-v {sized.ideal_delta_v_m_s:.1f} m/s, "
-          f"losses " + ", ".join(f"{k} {v:.1f}" for k, v in sized.losses_m_s.items()) + " m/s, "
-          f"rotation bonus {sized.rotation_bonus_m_s:.1f} m/s")
-    a = sized.achieved
-    print(f"  orbit {a['perigee_alt_m'] / 1e3:.2f} x {a['apogee_alt_m'] / 1e3:.2f} km, "
-          f"inclination {a['inclination_deg']:.2f} deg")
+
+def section_batch(vehicle, site, prof):
+    print(f"\n4. Dispersed batch: {N_BATCH} vehicles, each with its own C_D scale (0.8-1.2) and thrust (0.97-1.03)")
+    rng = np.random.default_rng(1)
+    d = DragCurve.default_slender_body()
+    vs = []
+    for k, f in zip(rng.uniform(0.8, 1.2, N_BATCH), rng.uniform(0.97, 1.03, N_BATCH)):
+        drag = DragCurve(d.mach, tuple(k * c for c in d.cd))
+        vs.append(Vehicle(tuple(
+            FlightStage(s.name, s.propellant_mass_kg, s.structural_mass_kg, s.isp_vac_s, diameter_m=s.diameter_m,
+                        thrust_vac_n=f * s.thrust_vac_n, isp_sl_s=s.isp_sl_s, drag=drag)
+            for s in vehicle.stages), vehicle.payload_mass_kg))
+    res = best_times({"batch": lambda: fly_many(vs, site, prof),
+                      "one by one": lambda: [fly_ascent(v, site, prof, record_history=False) for v in vs[:200]]}, 2)
+    t_b = res["batch"][0] / N_BATCH
+    t_1 = res["one by one"][0] / 200
+    same = all(abs(a.final_inertial_speed_m_s - b.final_inertial_speed_m_s) < 1e-9
+               for a, b in zip(res["batch"][1][:200], res["one by one"][1]))
+    print(f"   fly_many    {1e3 * t_b:8.3f} ms per flight ({N_BATCH} flights in {res['batch'][0]:.2f} s)")
+    print(f"   fly_ascent  {1e3 * t_1:8.3f} ms per flight; identical results: {same}; ratio {t_1 / t_b:.1f}x")
+
+
+def section_sizing(prev):
+    from sizing.optimize import flight as fl
+    from sizing.optimize.flight_problem import flight_specs, launch_site
+    from sizing.problem.load import load_problem
+
+    print("\n5. Apogee sizing end to end: problems/heron_apogee.toml through size_to_target")
+    problem = load_problem(ROOT / "problems" / "heron_apogee.toml")
+    specs, site = flight_specs(problem), launch_site(problem)
+    target = fl.ApogeeTarget(apogee_m=problem.apogee_m + site.altitude_m)
+
+    def run():
+        return fl.size_to_target(specs, problem.payload_mass_kg, target, site)
+    cases = {"kernel": run}
+    if prev is not None:
+        def run_prev():
+            saved = fl.fly_vertical
+            fl.fly_vertical = prev.fly_vertical
+            try:
+                return run()
+            finally:
+                fl.fly_vertical = saved
+        cases["previous pure-Python DP"] = run_prev
+    res = best_times(cases, 3)
+    for name, (t_s, r) in res.items():
+        print(f"   {name:26s} gross mass {r.gross_mass_kg:.4f} kg in {r.n_iterations} flights, {1e3 * t_s:8.2f} ms")
+    if prev is not None:
+        print(f"   ratio previous / kernel {res['previous pure-Python DP'][0] / res['kernel'][0]:.1f}x")
+
+
+def main() -> None:
+    print(f"load average {os.getloadavg()[0]:.2f} on {os.cpu_count()} cores")
+    cold, warm = compile_times()
+    print(f"1. Kernel compile on first call with an empty cache: {cold:.1f} s; later processes (cache): {warm:.2f} s")
+    prev = load_previous()
+    if prev is None:
+        print("   (previous integrator not available: no git history; its rows are skipped)")
+    vehicle, site, prof = section_ascent(prev)
+    section_vertical(prev)
+    section_batch(vehicle, site, prof)
+    section_sizing(prev)
 
 
 if __name__ == "__main__":

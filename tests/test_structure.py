@@ -36,7 +36,7 @@ def _imports(path: Path) -> set[str]:
     return mods
 
 
-@pytest.mark.parametrize("path", sorted((PKG / "physics").glob("*.py")), ids=lambda p: p.name)
+@pytest.mark.parametrize("path", sorted((PKG / "physics").rglob("*.py")), ids=lambda p: str(p.relative_to(PKG)))
 def test_physics_imports_no_heavy_layers(path):
     """physics/ is pure: no pydantic, pandas, plotly, and nothing above it in the flow."""
     for mod in _imports(path):
@@ -63,3 +63,16 @@ def test_report_reads_results_only():
 @pytest.mark.parametrize("mod", ["sizing.physics.staging", "sizing.physics.rocket", "sizing.units"])
 def test_modules_import(mod):
     importlib.import_module(mod)
+
+
+def test_ideal_solve_does_not_load_the_compiled_flight_layer():
+    """An ideal delta-v problem never imports numba (it keeps `sizing solve` on such a file quick)."""
+    import subprocess
+    import sys
+
+    root = PKG.parent
+    code = ("import sys; from sizing import load_problem, solve; "
+            "r = solve(load_problem('problems/jackdaw_three_stage.toml')); "
+            "assert r.success; print('numba' in sys.modules)")
+    out = subprocess.run([sys.executable, "-c", code], cwd=root, capture_output=True, text=True, check=True)
+    assert out.stdout.strip() == "False"

@@ -26,7 +26,7 @@ Target-equivalent speeds:
   apogee; the iteration then adds speed, not altitude);
 * circular orbit at altitude h: the inertial burnout speed, to be equal to the
   circular speed sqrt(GM/(R + h)). The ascent is steered so that burnout is
-  at h with zero flight-path angle (`sizing.physics.trajectory.fly_ascent`).
+  at h with zero flight-path angle (`sizing.optimize.ascent.target_burnout`).
 
 An unreachable target (beyond what the stages give at a gross-to-payload
 mass ratio of `max_gross_to_payload`) raises `InfeasibleProblemError` with the
@@ -47,7 +47,8 @@ from sizing.physics.staging import (
     optimal_mass_ratios,
     optimal_mass_ratios_for_growth,
 )
-from sizing.physics.trajectory import AscentProfile, FlightResult, fly_ascent, fly_vertical
+from sizing.optimize.ascent import target_burnout
+from sizing.physics.flight import AscentProfile, FlightResult, fly_vertical
 from sizing.physics.vehicle import FlightStageSpec, LaunchSite, Vehicle, build_vehicle
 from sizing.units import G0_M_S2
 
@@ -151,7 +152,7 @@ class FlightSizingResult:
     losses_m_s : Mapping[str, float]
         gravity, drag, steering, pressure of the final flight [m/s].
     rotation_bonus_m_s : float
-        [m/s], see `sizing.physics.trajectory`.
+        [m/s], see `sizing.physics.flight`.
     achieved : Mapping[str, float]
         ``apogee_m``, or ``perigee_alt_m``, ``apogee_alt_m``, ``speed_m_s``,
         ``flight_path_angle_deg``, ``inclination_deg``.
@@ -290,10 +291,10 @@ def size_to_target(
                 site.latitude_deg, target.inclination_deg, ascending=target.ascending,
             )
             site = replace(site, azimuth_deg=az)
-            profile = replace(target.profile or AscentProfile(), target_altitude_m=h_t,
+            profile = replace(target.profile or AscentProfile(),
                               plane_azimuth_deg=az_plane)
         else:
-            profile = replace(target.profile or AscentProfile(), target_altitude_m=h_t)
+            profile = target.profile or AscentProfile()
         tol = 0.5 if tolerance is None else float(tolerance)
         loss0 = 1500.0 if initial_loss_m_s is None else float(initial_loss_m_s)
         from sizing.physics.gravity import site_rotation_speed_m_s
@@ -344,9 +345,8 @@ def size_to_target(
         cand.vehicle = veh
         if is_orbit:
             p = kick_state["profile"]
-            res = fly_ascent(veh, site, p, record_history=history,
-                             acceleration_limit_m_s2=acceleration_limit_m_s2,
-                             optimize_kick=True)
+            res = target_burnout(veh, site, p, h_t, record_history=history,
+                                 acceleration_limit_m_s2=acceleration_limit_m_s2, optimize_kick=True)
             ra, rg = res.targeting_residual
             cand.ok = res.terminated_by == "burnout" and abs(ra) < 10.0 and abs(rg) < 0.01
             if cand.ok:

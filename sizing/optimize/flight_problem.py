@@ -13,7 +13,7 @@ from dataclasses import replace
 from typing import Any
 
 from ..errors import FieldError, InfeasibleProblemError, ProblemDefinitionError
-from ..physics.trajectory import AscentProfile, FlightResult, fly_ascent, fly_vertical
+from ..physics.flight import AscentProfile, FlightResult, fly_ascent, fly_vertical
 from ..physics.vehicle import (
     DragCurve,
     FlightStage,
@@ -134,8 +134,6 @@ def ascent_profile(problem: Problem) -> AscentProfile:
         kw["vertical_rise_s"] = L.vertical_rise_time_s
     if L.pitch_kick_deg is not None:
         kw["pitch_kick_deg"] = L.pitch_kick_deg
-    if problem.orbit_altitude_m is not None:
-        kw["target_altitude_m"] = problem.orbit_altitude_m
     return AscentProfile(**kw)
 
 

@@ -38,7 +38,8 @@ from ..errors import FieldError, SizingConvergenceWarning
 from ..physics.atmosphere import pressure_density_sound_speed
 from ..physics.liftoff import fly_hobby
 from ..physics.vehicle import LaunchSite, Vehicle
-from ..physics.water import WATER_CAUTION, optimise_water_stage, water_vehicle
+from ..physics.water import WATER_CAUTION, water_vehicle
+from .water import optimise_water_stage
 from ..problem.hobby import HobbyProblem
 from ..result import SizingResult, StageResult, Status
 from ..units import G0_M_S2, R_EARTH_EQ_M
@@ -170,7 +171,7 @@ def solve_hobby(problem: HobbyProblem, *, flight: FlightFn | None = None) -> Siz
         (above sea level), ``time_to_apogee_s``, ``rail_exit_speed_m_s``,
         ``max_acceleration_m_s2``, ``max_dynamic_pressure_pa``,
         ``liftoff_thrust_to_weight`` and ``losses_m_s``; None uses
-        `sizing.physics.trajectory.fly_vertical` (flat Earth, drag on).
+        `sizing.physics.flight.fly_vertical` (flat Earth, drag on).
 
     Returns
     -------

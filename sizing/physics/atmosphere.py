@@ -36,9 +36,13 @@ from typing import NamedTuple
 
 import numpy as np
 
+from sizing.physics._jit import njit
+
 __all__ = [
     "AtmosphereState",
     "atmosphere",
+    "standard_atmosphere",
+    "pressure_density_sound_speed",
     "geopotential_altitude_m",
     "R_STAR_J_MOL_K",
     "M0_KG_MOL",
@@ -122,129 +126,107 @@ def geopotential_altitude_m(z_m):
     return R0_GEOPOTENTIAL_M * z_m / (R0_GEOPOTENTIAL_M + z_m)
 
 
-def _lower_scalar(z: float) -> tuple[float, float]:
-    """(T_M [K], p [Pa]) below 86 km."""
-    h = R0_GEOPOTENTIAL_M * z / (R0_GEOPOTENTIAL_M + z)
-    i = 0
-    if h >= 11000.0:
-        i = 6
-        while h < _H_BASE[i]:
-            i -= 1
-    tb = _T_BASE[i]
-    pb = _P_BASE[i]
-    lapse = _LAPSE[i]
-    dh = h - _H_BASE[i]
-    if lapse == 0.0:
-        return tb, pb * math.exp(-_GMR * dh / tb)
-    t = tb + lapse * dh
-    return t, pb * (tb / t) ** (_GMR / lapse)
-
-
-_P86, _T86_M = None, None
-
-
-def _upper_temperature(z: float) -> float:
-    """Kinetic temperature above 86 km (USSA 1976 eqs. 25-31, closed forms) [K]."""
-    zk = z * 1e-3
-    if zk < 91.0:
-        return 186.8673
-    if zk < 110.0:
-        x = (zk - 91.0) / -19.9429
-        return 263.1905 - 76.3232 * math.sqrt(max(0.0, 1.0 - x * x))
-    if zk < 120.0:
-        return 240.0 + 12.0 * (zk - 110.0)
-    r0k = R0_GEOPOTENTIAL_M * 1e-3
-    xi = (zk - 120.0) * (r0k + 120.0) / (r0k + zk)
-    return 1000.0 - 640.0 * math.exp(-0.01875 * xi)
-
-
-def _init_upper():
-    t, p = _lower_scalar(_Z86_M)
+def _upper_tables():
+    """ln p and ln rho at the upper nodes; the 86 km node from the lower model."""
+    h = R0_GEOPOTENTIAL_M * _Z86_M / (R0_GEOPOTENTIAL_M + _Z86_M)
+    tb, pb, lapse = _T_BASE[6], _P_BASE[6], _LAPSE[6]
+    t = tb + lapse * (h - _H_BASE[6])
+    p = pb * (tb / t) ** (_GMR / lapse)
     rho = p * M0_KG_MOL / (R_STAR_J_MOL_K * t)
     pp = (p,) + _UP_P_PA[1:]
     rr = (rho,) + _UP_RHO[1:]
     return tuple(math.log(v) for v in pp), tuple(math.log(v) for v in rr)
 
 
-_UP_LNP, _UP_LNRHO = _init_upper()
+_UP_LNP, _UP_LNRHO = _upper_tables()
+
+# the same tables as arrays, read by the compiled model (numba freezes them as constants)
+_A_H_BASE = np.array(_H_BASE)
+_A_T_BASE = np.array(_T_BASE)
+_A_P_BASE = np.array(_P_BASE)
+_A_LAPSE = np.array(_LAPSE + (0.0,))
+_A_GMR_LAPSE = np.array(tuple(_GMR / lp if lp != 0.0 else 0.0 for lp in _LAPSE) + (0.0,))
+_A_MW_RATIO = np.array(_MW_RATIO)
+_A_UP_Z = np.array(_UP_Z_M)
+_A_UP_LNP = np.array(_UP_LNP)
+_A_UP_LNRHO = np.array(_UP_LNRHO)
+_SOUND_K = GAMMA_AIR * _R_AIR
+_R0K = R0_GEOPOTENTIAL_M * 1e-3
 
 
-def _upper_scalar(z: float) -> tuple[float, float, float]:
-    """(T [K], p [Pa], rho [kg/m^3]) at or above 86 km."""
-    zs = _UP_Z_M
-    n = len(zs)
-    if z >= zs[-1]:
+@njit
+def standard_atmosphere(z_m):
+    """(T [K], p [Pa], rho [kg/m^3], a [m/s]) at geometric altitude `z_m` (USSA 1976; see module notes).
+
+    The one implementation of the model: compiled, called by the flight
+    equations, by `atmosphere` (scalars and arrays) and by
+    `pressure_density_sound_speed`.
+    """
+    if z_m < _Z86_M:
+        h = R0_GEOPOTENTIAL_M * z_m / (R0_GEOPOTENTIAL_M + z_m)  # geopotential altitude, eq. 18
+        i = 0
+        if h >= 11000.0:
+            i = 6
+            while h < _A_H_BASE[i]:
+                i -= 1
+        tb = _A_T_BASE[i]
+        lapse = _A_LAPSE[i]
+        if lapse == 0.0:
+            tm = tb
+            p = _A_P_BASE[i] * math.exp(-_GMR * (h - _A_H_BASE[i]) / tb)  # eq. 33b
+        else:
+            tm = tb + lapse * (h - _A_H_BASE[i])  # eq. 23
+            p = _A_P_BASE[i] * (tb / tm) ** _A_GMR_LAPSE[i]  # eq. 33a
+        rho = p * M0_KG_MOL / (R_STAR_J_MOL_K * tm)  # eq. 42
+        a = math.sqrt(_SOUND_K * tm)  # eq. 50
+        t_kin = tm
+        if z_m > 80000.0:  # T = T_M M/M0 (Table 8)
+            k = min(int((z_m - 80000.0) / 500.0), 11)
+            f = (z_m - (80000.0 + 500.0 * k)) / 500.0
+            t_kin = tm * (_A_MW_RATIO[k] + f * (_A_MW_RATIO[k + 1] - _A_MW_RATIO[k]))
+        return t_kin, p, rho, a
+    n = _A_UP_Z.shape[0]
+    if z_m >= _A_UP_Z[n - 1]:
         i = n - 2
     else:
         i = 0
-        while z >= zs[i + 1]:
+        while z_m >= _A_UP_Z[i + 1]:
             i += 1
-    f = (z - zs[i]) / (zs[i + 1] - zs[i])
-    lnp = _UP_LNP[i] + f * (_UP_LNP[i + 1] - _UP_LNP[i])
-    lnr = _UP_LNRHO[i] + f * (_UP_LNRHO[i + 1] - _UP_LNRHO[i])
-    return _upper_temperature(z), math.exp(lnp), math.exp(lnr)
+    f = (z_m - _A_UP_Z[i]) / (_A_UP_Z[i + 1] - _A_UP_Z[i])
+    p = math.exp(_A_UP_LNP[i] + f * (_A_UP_LNP[i + 1] - _A_UP_LNP[i]))
+    rho = math.exp(_A_UP_LNRHO[i] + f * (_A_UP_LNRHO[i + 1] - _A_UP_LNRHO[i]))
+    # kinetic temperature above 86 km, USSA 1976 eqs. 25-31 (closed forms)
+    zk = z_m * 1e-3
+    if zk < 91.0:
+        t = 186.8673
+    elif zk < 110.0:
+        x = (zk - 91.0) / -19.9429
+        t = 263.1905 - 76.3232 * math.sqrt(max(0.0, 1.0 - x * x))
+    elif zk < 120.0:
+        t = 240.0 + 12.0 * (zk - 110.0)
+    else:
+        xi = (zk - 120.0) * (_R0K + 120.0) / (_R0K + zk)
+        t = 1000.0 - 640.0 * math.exp(-0.01875 * xi)
+    return t, p, rho, math.sqrt(_SOUND_K * t)
 
 
-def _mw_ratio(z: float) -> float:
-    if z <= 80000.0:
-        return 1.0
-    k = min(int((z - 80000.0) / 500.0), 11)
-    f = (z - _MW_Z_M[k]) / 500.0
-    return _MW_RATIO[k] + f * (_MW_RATIO[k + 1] - _MW_RATIO[k])
-
-
-def _atmosphere_scalar(z: float) -> AtmosphereState:
-    if z < _Z86_M:
-        tm, p = _lower_scalar(z)
-        rho = p * M0_KG_MOL / (R_STAR_J_MOL_K * tm)
-        a = math.sqrt(GAMMA_AIR * _R_AIR * tm)
-        return AtmosphereState(tm * _mw_ratio(z), p, rho, a)
-    t, p, rho = _upper_scalar(z)
-    return AtmosphereState(t, p, rho, math.sqrt(GAMMA_AIR * _R_AIR * t))
+@njit
+def _atmosphere_array(z):
+    flat = z.ravel()
+    out = np.empty((4, flat.shape[0]))
+    for j in range(flat.shape[0]):
+        t, p, rho, a = standard_atmosphere(flat[j])
+        out[0, j] = t
+        out[1, j] = p
+        out[2, j] = rho
+        out[3, j] = a
+    return out
 
 
 def pressure_density_sound_speed(z_m: float) -> tuple[float, float, float]:
-    """Fast scalar (p [Pa], rho [kg/m^3], a [m/s]) for the trajectory integrator."""
-    if z_m < _Z86_M:
-        tm, p = _lower_scalar(z_m)
-        return p, p * M0_KG_MOL / (R_STAR_J_MOL_K * tm), math.sqrt(GAMMA_AIR * _R_AIR * tm)
-    t, p, rho = _upper_scalar(z_m)
-    return p, rho, math.sqrt(GAMMA_AIR * _R_AIR * t)
-
-
-def _atmosphere_array(z: np.ndarray) -> AtmosphereState:
-    z = np.asarray(z, dtype=float)
-    t = np.empty_like(z)
-    p = np.empty_like(z)
-    rho = np.empty_like(z)
-    a = np.empty_like(z)
-    low = z < _Z86_M
-    if low.any():
-        zl = z[low]
-        h = R0_GEOPOTENTIAL_M * zl / (R0_GEOPOTENTIAL_M + zl)
-        idx = np.clip(np.searchsorted(_H_BASE, h, side="right") - 1, 0, 6)
-        hb = np.asarray(_H_BASE)[idx]
-        tb = np.asarray(_T_BASE)[idx]
-        pb = np.asarray(_P_BASE)[idx]
-        lapse = np.asarray(_LAPSE)[idx]
-        dh = h - hb
-        tm = tb + lapse * dh
-        iso = lapse == 0.0
-        with np.errstate(divide="ignore", invalid="ignore"):
-            pg = pb * (tb / tm) ** (_GMR / np.where(iso, 1.0, lapse))
-        pi = pb * np.exp(-_GMR * dh / tb)
-        pl = np.where(iso, pi, pg)
-        mw = np.interp(zl, _MW_Z_M, _MW_RATIO, left=1.0, right=_MW_RATIO[-1])
-        t[low] = tm * mw
-        p[low] = pl
-        rho[low] = pl * M0_KG_MOL / (R_STAR_J_MOL_K * tm)
-        a[low] = np.sqrt(GAMMA_AIR * _R_AIR * tm)
-    high = ~low
-    if high.any():
-        for j in np.flatnonzero(high.ravel()):
-            s = _atmosphere_scalar(float(z.flat[j]))
-            t.flat[j], p.flat[j], rho.flat[j], a.flat[j] = s
-    return AtmosphereState(t, p, rho, a)
+    """(p [Pa], rho [kg/m^3], a [m/s]) at a scalar altitude (`standard_atmosphere`)."""
+    _, p, rho, a = standard_atmosphere(float(z_m))
+    return p, rho, a
 
 
 def atmosphere(altitude_m):
@@ -277,8 +259,9 @@ def atmosphere(altitude_m):
         z = float(altitude_m)
         if not math.isfinite(z):
             raise ValueError(f"altitude_m must be finite. Got {altitude_m!r}.")
-        return _atmosphere_scalar(z)
+        return AtmosphereState(*standard_atmosphere(z))
     z = np.asarray(altitude_m, dtype=float)
     if not np.all(np.isfinite(z)):
         raise ValueError("altitude_m must be finite everywhere.")
-    return _atmosphere_array(z)
+    out = _atmosphere_array(np.ascontiguousarray(z))
+    return AtmosphereState(*(row.reshape(z.shape) for row in out))

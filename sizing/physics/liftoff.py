@@ -9,7 +9,7 @@ must not reach the simulator's open-ended coast:
 * one whose flight could last longer than `HOBBY_MAX_FLIGHT_TIME_S`.
 
 `fly_hobby` checks both, flies the rest with
-`sizing.physics.trajectory.fly_vertical` (adaptive Dormand-Prince steps, no
+`sizing.physics.flight.fly_vertical` (adaptive Dormand-Prince steps, no
 step cap) and rejects a flight that never left the rail or never rose above
 the site. Rejections raise `CannotLiftOffError` or `FlightTimeCapError`
 (both `FieldError`), so the optimisers count them and move on.
@@ -64,7 +64,7 @@ def liftoff_thrust_to_weight(vehicle: Vehicle, site: LaunchSite) -> float:
     Peak delivered thrust at the site pressure (US Standard Atmosphere 1976),
     F_vac - p_a A_e, times cos(rail angle), over m0 g0. The rocket can leave
     the pad only if this exceeds 1 (the same test as
-    `sizing.physics.trajectory.simulate`).
+    `sizing.physics.flight.simulate`).
 
     Parameters
     ----------
@@ -137,7 +137,7 @@ def fly_hobby(
 
     Returns
     -------
-    sizing.physics.trajectory.FlightResult
+    sizing.physics.flight.FlightResult
 
     Raises
     ------
@@ -148,7 +148,7 @@ def fly_hobby(
     FlightTimeCapError
         The flight-time bound exceeds `max_flight_time_s`.
     """
-    from sizing.physics.trajectory import fly_vertical  # heavy; imported when flying
+    from sizing.physics.flight import fly_vertical  # compiled; imported when flying
 
     st0 = vehicle.stages[0]
     tw = liftoff_thrust_to_weight(vehicle, site)

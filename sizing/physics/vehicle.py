@@ -5,7 +5,7 @@ Bad values raise `sizing.errors.FieldError(field, message, value)`; the field
 names are dotted, e.g. ``"stages.booster.diameter_m"``, so the problem layer can
 re-render them with the file name.
 
-Propulsion model of one stage (used by `sizing.physics.trajectory`):
+Propulsion model of one stage (used by `sizing.physics.flight`):
 
 * constant thrust: vacuum thrust F_vac, mass flow mdot = F_vac / (Isp_vac g0),
   burn time t_b = m_p / mdot;

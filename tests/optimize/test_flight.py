@@ -11,7 +11,7 @@ from sizing.optimize.flight import ApogeeTarget, OrbitTarget, size_to_target
 from sizing.physics.gravity import circular_speed_m_s
 from sizing.physics.rocket import stack_masses
 from sizing.physics.staging import optimal_mass_ratios
-from sizing.physics.trajectory import fly_vertical
+from sizing.physics.flight import fly_vertical
 from sizing.physics.vehicle import FlightStageSpec, LaunchSite
 
 # invented scenario: a two-stage student sounding rocket from a desert site

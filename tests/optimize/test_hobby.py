@@ -214,10 +214,10 @@ def test_large_list_uses_documented_pruning(motors):
 
 
 def test_search_with_flight_module(motors):
-    """End to end with sizing.physics.trajectory.fly_vertical (drag, flat Earth): the chosen
+    """End to end with sizing.physics.flight.fly_vertical (drag, flat Earth): the chosen
     stack, flown again, meets the target and the limits (consistency check, no external
     source; the flight model is checked in tests/physics/test_trajectory.py)."""
-    traj = pytest.importorskip("sizing.physics.trajectory")
+    traj = pytest.importorskip("sizing.physics.flight")
     stage = (StackStage("only", 0.4, 0.066),)
     res = search_hobby_stack(motors, stage, payload_mass_kg=0.3, target_apogee_m=300.0, site=SITE)
     assert res.success, res.message

@@ -17,7 +17,7 @@ from sizing.physics.liftoff import (
     fly_hobby,
     liftoff_thrust_to_weight,
 )
-from sizing.physics.trajectory import fly_vertical
+from sizing.physics.flight import fly_vertical
 from sizing.physics.vehicle import FlightStage, LaunchSite, Vehicle
 
 G0 = 9.80665

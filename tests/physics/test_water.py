@@ -14,6 +14,7 @@ from scipy.integrate import quad, solve_ivp
 
 from sizing.errors import FieldError
 from sizing.physics.vehicle import P0_PA, LaunchSite
+from sizing.optimize.water import optimise_water_stage
 from sizing.physics.water import (
     GAMMA_AIR,
     MIN_SAFETY_FACTOR,
@@ -26,7 +27,6 @@ from sizing.physics.water import (
     WATER_CAUTION,
     WaterStage,
     _air_blowdown_state,
-    optimise_water_stage,
     simulate_water_thrust,
     water_flight_stage,
     water_vehicle,
@@ -352,7 +352,7 @@ def test_tables_are_well_formed(p, fill, d):
 
 # ---------------------------------------------------------------- optimum fill
 def _vertical_oracle(vehicle, site):
-    """Test oracle independent of sizing.physics.trajectory: vertical flight, constant g0,
+    """Test oracle independent of sizing.physics.flight: vertical flight, constant g0,
     sea-level air density 1.225 kg/m^3 and speed of sound 340.3 m/s (US Standard Atmosphere 1976,
     Table I sea-level values via fluids.atmosphere.ATMOSPHERE_1976, fluids 1.3.1), drag
     1/2 rho v^2 C_D S,
@@ -433,9 +433,9 @@ def test_optimiser_rejects_unknown_variable():
 
 
 def test_fill_optimum_with_flight_module():
-    """The same one-third check flown with sizing.physics.trajectory.fly_vertical (hobby rule of
+    """The same one-third check flown with sizing.physics.flight.fly_vertical (hobby rule of
     thumb: common practice, no source)."""
-    pytest.importorskip("sizing.physics.trajectory")
+    pytest.importorskip("sizing.physics.flight")
     s = bottle(water_fill_fraction=0.5)
     opt = optimise_water_stage(s, vary=("fill",), site=LaunchSite(), n_grid=9)
     assert 0.2 <= opt.stages[0].water_fill_fraction <= 0.45

@@ -1,0 +1,374 @@
+"""From a vehicle, a site and options to the kernel's flat arrays (`layout`): phase schedule, frame, steering.
+
+The flight is cut into phases at every time where the right-hand side is not
+smooth: ignition, burnout, staging, thrust-curve and propellant-curve knots,
+the end of the vertical rise and of the pitch kick, steering start and the
+knots of a pitch table. Within a phase the vacuum thrust and the mass flow are
+linear in time, so the mass integrates exactly.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+
+import numpy as np
+
+from sizing.errors import FieldError
+from sizing.physics.atmosphere import _H_BASE, _UP_Z_M, _Z86_M, R0_GEOPOTENTIAL_M, pressure_density_sound_speed
+from sizing.physics.flight import layout as L
+from sizing.physics.flight.profiles import AscentProfile
+from sizing.physics.flight.results import FlightFrame
+from sizing.physics.vehicle import LaunchSite, Vehicle
+from sizing.units import G0_M_S2, GM_EARTH_M3_S2, OMEGA_EARTH_RAD_S, R_EARTH_EQ_M
+
+__all__ = ["ATMOSPHERE_TOP_M", "MAX_FLIGHT_TIME_S", "Wind", "FlightSetup", "prepare_flight", "altitude_kinks_m"]
+
+#: Above this altitude the flight is in vacuum [m].
+ATMOSPHERE_TOP_M = 300e3
+#: Longest flight the kernel integrates [s].
+MAX_FLIGHT_TIME_S = 2.0e5
+_POS_SCALE_M = 1.0e5
+_VEL_SCALE_M_S = 10.0
+
+
+def altitude_kinks_m(top_m: float = ATMOSPHERE_TOP_M) -> np.ndarray:
+    """Geometric altitudes [m] where the standard atmosphere is not smooth.
+
+    USSA 1976 layer bases (geopotential H_b -> geometric z = r0 H_b / (r0 - H_b),
+    USSA 1976 eq. 19), 86 km, the upper temperature pieces (91, 110, 120 km;
+    eqs. 25-31), the upper table's knots and the vacuum cut-off.
+    """
+    r0 = R0_GEOPOTENTIAL_M
+    zs = {r0 * hb / (r0 - hb) for hb in _H_BASE[1:]}
+    zs.update((_Z86_M, 91000.0, 110000.0, 120000.0, top_m))
+    zs.update(z for z in _UP_Z_M if z < top_m)
+    out: list[float] = []
+    for z in sorted(zs):
+        if not out or z - out[-1] > 1.0:
+            out.append(z)
+    return np.array(out)
+
+
+_ALT_KINKS = altitude_kinks_m()
+
+
+@dataclass(frozen=True, slots=True)
+class Wind:
+    """Horizontal wind: power law w = w_ref (z / z_ref)^alpha above the site, or a table.
+
+    Parameters
+    ----------
+    speed_m_s : float
+        Speed at the reference height [m/s], >= 0.
+    from_deg : float
+        Direction the wind blows FROM, clockwise from north [deg] (meteorological convention).
+    reference_height_m : float
+        Height above the site of `speed_m_s` [m], > 0.
+    exponent : float
+        Power-law exponent alpha [-], in [0, 1); 0 is a constant wind (1/7 for open
+        terrain is common practice, no source).
+    heights_m, speeds_m_s : tuple of float, optional
+        A table of speed vs height above the site instead of the power law.
+    """
+
+    speed_m_s: float = 0.0
+    from_deg: float = 270.0
+    reference_height_m: float = 10.0
+    exponent: float = 0.0
+    heights_m: tuple[float, ...] | None = None
+    speeds_m_s: tuple[float, ...] | None = None
+
+    def to_unit_east_north(self) -> tuple[float, float]:
+        """Unit vector (east, north) of the direction the wind blows towards."""
+        a = math.radians(self.from_deg + 180.0)
+        return math.sin(a), math.cos(a)
+
+
+@dataclass(frozen=True, slots=True)
+class FlightSetup:
+    """Everything the kernel needs for one flight, plus what the Python side needs afterwards."""
+
+    phases: np.ndarray
+    par: np.ndarray
+    opt: np.ndarray
+    y0: np.ndarray
+    frame: FlightFrame
+    liftoff_thrust_to_weight: float
+    warnings: tuple[str, ...]
+    v_inertial0_m_s: float
+
+    def kernel_args(self, hist_cap: int = 512) -> tuple:
+        """Positional arguments of `kernel.run_flight`."""
+        return (self.phases, self.par, self.opt, self.y0, hist_cap)
+
+
+def _stage_windows(vehicle: Vehicle, *, ignore_first_coast: bool) -> list[tuple[float, float]]:
+    """(ignition, burnout) time of each stage [s]."""
+    out = []
+    t = 0.0
+    for i, st in enumerate(vehicle.stages):
+        coast = 0.0 if (i == 0 and ignore_first_coast) else st.coast_before_ignition_s
+        if i > 0:
+            coast += vehicle.staging_delay_s
+        t_ign = t + coast
+        t = t_ign + st.burn_time_s
+        out.append((t_ign, t))
+    return out
+
+
+def _phase_times(vehicle: Vehicle, windows, extra_times) -> list[float]:
+    times = {0.0}
+    for (t_ign, t_bo), st in zip(windows, vehicle.stages):
+        times.update((t_ign, t_bo))
+        for curve in (st.thrust_curve, st.propellant_mass_curve):
+            if curve is not None:
+                times.update(t_ign + tk for tk in curve[0] if 0 < tk < st.burn_time_s)
+    t_end = windows[-1][1]
+    times.update(t for t in extra_times if 0 < t < t_end)
+    ts = sorted(times)
+    merged = [ts[0]]
+    for t in ts[1:]:
+        if t - merged[-1] > 1e-9 * max(1.0, t):
+            merged.append(t)
+    return merged
+
+
+def _propulsion(st, tau0: float, tau1: float, dt: float) -> tuple[float, float, float, float]:
+    """(F_a, F_b, mdot_a, mdot_b) of a burning phase: F_vac and mdot linear in time."""
+    if st.thrust_curve is None:
+        return st.thrust_vac_n, 0.0, st.thrust_vac_n / (st.isp_vac_s * st.g0_m_s2), 0.0
+    f0, f1 = st.thrust_vac_at(tau0), st.thrust_vac_at(tau1)
+    fb = (f1 - f0) / dt
+    if st.propellant_mass_curve is None:
+        k = st.propellant_mass_kg / st.total_impulse_vac_n_s  # propellant use follows delivered impulse
+        return f0, fb, k * f0, k * fb
+    tm, mm = st.propellant_mass_curve
+    return f0, fb, (float(np.interp(tau0, tm, mm)) - float(np.interp(tau1, tm, mm))) / dt, 0.0
+
+
+def _phase_table(vehicle: Vehicle, windows, extra_times, mode_at, drag_offsets, final_coast: bool) -> np.ndarray:
+    times = _phase_times(vehicle, windows, extra_times)
+    if final_coast:
+        times = times + [math.inf]
+    n_st = len(vehicle.stages)
+    rows = []
+    for a, b in zip(times, times[1:]):
+        mid = 0.5 * (a + b) if math.isfinite(b) else a + 1.0
+        stage = next((i for i, (_, tb) in enumerate(windows) if mid < tb), n_st - 1)
+        t_ign, t_bo = windows[stage]
+        st = vehicle.stages[stage]
+        row = np.zeros(L.PH_SIZE)
+        row[L.PH_T0], row[L.PH_T1], row[L.PH_STAGE] = a, b, stage
+        row[L.PH_BURNING] = 1.0 if (t_ign <= mid < t_bo and math.isfinite(b)) else 0.0
+        if row[L.PH_BURNING]:
+            row[L.PH_FA], row[L.PH_FB], row[L.PH_MA], row[L.PH_MB] = _propulsion(st, a - t_ign, b - t_ign, b - a)
+        row[L.PH_BURNOUT_OF] = -1.0
+        if math.isfinite(b) and abs(b - t_bo) <= 1e-9 * max(1.0, b):
+            row[L.PH_BURNOUT_OF] = stage
+            row[L.PH_MASS_AFTER] = (vehicle.ignition_mass_kg(stage + 1) if stage < n_st - 1
+                                    else vehicle.payload_mass_kg + st.structural_mass_kg)
+        row[L.PH_MODE] = mode_at(mid)
+        row[L.PH_EXIT_AREA] = st.exit_area_m2
+        row[L.PH_REF_AREA] = vehicle.reference_area_m2(stage)
+        row[L.PH_DRAG_OFF], row[L.PH_DRAG_LEN] = drag_offsets[stage], len(st.drag.mach)
+        rows.append(row)
+    return np.array(rows)
+
+
+def _site_frame(site: LaunchSite, round_: bool):
+    """(r0, up0, east0, north0) of the site at t = 0: longitude 0 of the Earth-centred frame, or a local frame."""
+    h0 = site.altitude_m
+    if round_:
+        lat = math.radians(site.latitude_deg)
+        cl, sl = math.cos(lat), math.sin(lat)
+        return ((R_EARTH_EQ_M + h0) * cl, 0.0, (R_EARTH_EQ_M + h0) * sl), (cl, 0.0, sl), (0.0, 1.0, 0.0), (-sl, 0.0, cl)
+    return (0.0, 0.0, h0), (0.0, 0.0, 1.0), (1.0, 0.0, 0.0), (0.0, 1.0, 0.0)
+
+
+def _environment(site: LaunchSite, *, round_: bool, omega: float, with_drag: bool, with_gravity: bool,
+                 vacuum_below_ground: bool, vertical: bool, wind: Wind | None, atmosphere: tuple | None):
+    r0, up0, east0, north0 = _site_frame(site, round_)
+    az = math.radians(site.azimuth_deg)
+    azd = tuple(math.cos(az) * n + math.sin(az) * e for n, e in zip(north0, east0))
+    rail_ang = math.radians(site.rail_angle_deg) if vertical else 0.0
+    rail_u = tuple(math.cos(rail_ang) * u + math.sin(rail_ang) * a for u, a in zip(up0, azd))
+    env = np.zeros(L.PAR_HEADER)
+    env[L.ENV_ROUND] = 1.0 if round_ else 0.0
+    env[L.ENV_MU], env[L.ENV_RADIUS], env[L.ENV_OMEGA], env[L.ENV_G_FLAT] = (
+        GM_EARTH_M3_S2, R_EARTH_EQ_M, omega, G0_M_S2)
+    env[L.ENV_GRAVITY] = 1.0 if with_gravity else 0.0
+    env[L.ENV_DRAG] = 1.0 if with_drag else 0.0
+    env[L.ENV_ATM_TOP] = ATMOSPHERE_TOP_M
+    env[L.ENV_VACUUM_BELOW_GROUND] = 1.0 if vacuum_below_ground else 0.0
+    if atmosphere is not None:  # ("exponential", rho0, scale height, [mu, radius])
+        env[L.ENV_ATM_MODEL], env[L.ENV_RHO0], env[L.ENV_SCALE_HEIGHT] = 1.0, atmosphere[1], atmosphere[2]
+        if len(atmosphere) > 3:
+            env[L.ENV_MU], env[L.ENV_RADIUS] = atmosphere[3], atmosphere[4]
+            if round_:
+                r0 = tuple(atmosphere[4] * u for u in up0)
+    env[L.ENV_SITE_ALT] = site.altitude_m
+    env[L.ENV_R0:L.ENV_R0 + 3] = r0
+    env[L.ENV_UP0:L.ENV_UP0 + 3] = up0
+    env[L.ENV_AZ0:L.ENV_AZ0 + 3] = azd
+    env[L.ENV_RAIL:L.ENV_RAIL + 3] = rail_u
+    env[L.ENV_RAIL_LEN] = site.rail_length_m if vertical else 0.0
+    wind_table = np.zeros(0)
+    if wind is not None and (wind.speed_m_s > 0 or wind.heights_m):
+        env[L.ENV_WIND_TO_EAST], env[L.ENV_WIND_TO_NORTH] = wind.to_unit_east_north()
+        if wind.heights_m:
+            env[L.ENV_WIND_MODEL] = 2.0
+            wind_table = np.concatenate([np.array(wind.heights_m, float), np.array(wind.speeds_m_s, float)])
+        else:
+            env[L.ENV_WIND_MODEL] = 1.0
+            env[L.ENV_WIND_REF_SPEED], env[L.ENV_WIND_REF_HEIGHT] = wind.speed_m_s, wind.reference_height_m
+            env[L.ENV_WIND_EXPONENT] = wind.exponent
+    return env, (r0, up0, east0, north0), wind_table
+
+
+def _liftoff(vehicle: Vehicle, site: LaunchSite, with_gravity: bool, vertical: bool) -> tuple[float, list[str]]:
+    """Liftoff thrust-to-weight (mean thrust of a curve) and its checks."""
+    st0 = vehicle.stages[0]
+    p_site = pressure_density_sound_speed(site.altitude_m)[0]
+    weight0 = vehicle.gross_mass_kg * G0_M_S2
+    if st0.thrust_curve is None:
+        f_lift = f_peak = st0.thrust_at(0.0, p_site)
+    else:
+        f_lift = max(0.0, st0.total_impulse_vac_n_s / st0.burn_time_s - p_site * st0.exit_area_m2)
+        f_peak = max(st0.thrust_at(t, p_site) for t in st0.thrust_curve[0])
+    rail_ang = math.radians(site.rail_angle_deg) if vertical else 0.0
+    if with_gravity and f_peak * math.cos(rail_ang) <= weight0:
+        raise FieldError(f"stages.{st0.name}.thrust",
+                         "liftoff thrust-to-weight must be > 1 (peak thrust at the site over m0 g0).",
+                         round(f_peak / weight0, 4))
+    return f_lift / weight0, []
+
+
+def _steering(steer: np.ndarray, vehicle: Vehicle, ascent: AscentProfile, windows, east0, north0, up0,
+              round_: bool):
+    """Fill the ST_* slots of `steer`; return (pitch table [times, then pitch], extra phase times, steering start)."""
+    steer[L.ST_KICK_SIN] = math.sin(math.radians(ascent.pitch_kick_deg))
+    steer[L.ST_KICK_COS] = math.cos(math.radians(ascent.pitch_kick_deg))
+    steer[L.ST_SPAN] = 1.0
+    table = np.zeros(0)
+    extra = [ascent.vertical_rise_s, ascent.vertical_rise_s + ascent.kick_duration_s]
+    if ascent.steering == "gravity_turn":
+        return table, extra, None
+    names = [s.name for s in vehicle.stages]
+    if ascent.steer_from_stage is None:
+        k = min(1, len(names) - 1)
+    elif ascent.steer_from_stage in names:
+        k = names.index(ascent.steer_from_stage)
+    else:
+        raise FieldError("profile.steer_from_stage", f"must be one of {names}.", ascent.steer_from_stage)
+    t_start = windows[k][0]
+    extra.append(t_start)
+    steer[L.ST_T_START] = t_start
+    steer[L.ST_SPAN] = max(windows[-1][1] - t_start, 1e-9)
+    steer[L.ST_THF] = math.radians(ascent.final_pitch_deg)
+    steer[L.ST_TANF] = math.tan(steer[L.ST_THF])
+    if ascent.initial_pitch_deg is not None:
+        steer[L.ST_TH0], steer[L.ST_TH0_GIVEN] = math.radians(ascent.initial_pitch_deg), 1.0
+        steer[L.ST_TAN0] = math.tan(steer[L.ST_TH0])
+    if ascent.steering == "table":
+        tab_t = np.array([t for t, _ in ascent.pitch_table])
+        table = np.concatenate([tab_t, np.radians([p for _, p in ascent.pitch_table])])
+        extra.extend(float(t) for t in tab_t)
+    if round_ and ascent.hold_inclination_deg is not None:
+        steer[L.ST_PLANE_MODE] = 2.0
+        steer[L.ST_COS_INC] = math.cos(math.radians(ascent.hold_inclination_deg))
+        steer[L.ST_ASCENDING] = 1.0 if ascent.ascending else 0.0
+        steer[L.ST_YAW_BIAS] = math.radians(ascent.yaw_bias_deg)
+    elif round_ and ascent.plane_azimuth_deg is not None:
+        bp = math.radians(ascent.plane_azimuth_deg)
+        d = np.array([math.cos(bp) * n + math.sin(bp) * e for n, e in zip(north0, east0)])
+        n_ = np.cross(np.array(up0), d)
+        steer[L.ST_PLANE_MODE] = 1.0
+        steer[L.ST_PLANE_N:L.ST_PLANE_N + 3] = n_ / np.linalg.norm(n_)
+    return table, extra, t_start
+
+
+def _mode_function(vertical: bool, ascent: AscentProfile | None, t_start: float | None):
+    if vertical:
+        return lambda mid: L.MODE_PROGRADE
+    law = {"linear_tangent": L.MODE_LINEAR_TANGENT, "pitch_rate": L.MODE_PITCH_RATE,
+           "table": L.MODE_TABLE}.get(ascent.steering, L.MODE_PROGRADE)
+    t_vert = ascent.vertical_rise_s
+    t_kick = t_vert + ascent.kick_duration_s
+
+    def mode_at(mid: float) -> int:
+        if mid < t_vert:
+            return L.MODE_UP
+        if mid < t_kick:
+            return L.MODE_KICK
+        if t_start is not None and mid >= t_start:
+            return law
+        return L.MODE_PROGRADE
+
+    return mode_at
+
+
+def prepare_flight(vehicle: Vehicle, site: LaunchSite, *, profile: str, ascent: AscentProfile | None = None,
+                   earth: str = "round", rotating: bool = False, with_drag: bool = True, with_gravity: bool = True,
+                   stop_at: str = "apogee", max_step_s: float | None = None, record_history: bool = True,
+                   detect_impact: bool = True, rtol: float = 1e-8, wind: Wind | None = None,
+                   atmosphere: tuple | None = None) -> FlightSetup:
+    """Check the options and build the kernel's arrays for one flight (see `fly.simulate`)."""
+    if earth not in ("round", "flat"):
+        raise FieldError("earth", "must be 'round' or 'flat'.", earth)
+    if stop_at not in ("apogee", "impact", "burnout"):
+        raise FieldError("stop_at", "must be 'apogee', 'impact' or 'burnout'.", stop_at)
+    if not 1e-14 <= rtol <= 1e-3:
+        raise FieldError("rtol", "must be in [1e-14, 1e-3].", rtol)
+    if profile not in ("vertical", "ascent"):
+        raise FieldError("profile", "must be 'vertical' or 'ascent'.", profile)
+    vertical = profile == "vertical"
+    round_ = earth == "round"
+    omega = OMEGA_EARTH_RAD_S if (rotating and round_) else 0.0
+    tw_lift, warnings = _liftoff(vehicle, site, with_gravity, vertical)
+    st0 = vehicle.stages[0]
+    if not vertical and st0.coast_before_ignition_s > 0:
+        warnings.append(f"stages.{st0.name}.coast_before_ignition_s is ignored for an ascent "
+                        "(the clock starts at first-stage ignition).")
+    par, (r0, up0, east0, north0), wind_table = _environment(
+        site, round_=round_, omega=omega, with_drag=with_drag, with_gravity=with_gravity,
+        vacuum_below_ground=not detect_impact, vertical=vertical, wind=wind, atmosphere=atmosphere)
+    windows = _stage_windows(vehicle, ignore_first_coast=not vertical)
+    extra: list[float] = []
+    par[L.ST_SPAN] = 1.0
+    pitch_table = np.zeros(0)
+    t_start = None
+    if not vertical:
+        ascent = ascent or AscentProfile()
+        pitch_table, extra, t_start = _steering(par, vehicle, ascent, windows, east0, north0, up0, round_)
+    kinks = _ALT_KINKS if atmosphere is None else np.array([math.inf])
+    tables = [kinks, pitch_table, wind_table]
+    tables += [np.concatenate([np.array(s.drag.mach, float), np.array(s.drag.cd, float)]) for s in vehicle.stages]
+    starts = L.PAR_HEADER + np.cumsum([0] + [len(t) for t in tables])
+    par[L.TB_KINK_OFF], par[L.TB_KINK_N] = starts[0], len(kinks)
+    par[L.TB_PITCH_OFF], par[L.TB_PITCH_N] = starts[1], len(pitch_table) // 2
+    par[L.TB_WIND_OFF], par[L.TB_WIND_N] = starts[2], len(wind_table) // 2
+    offsets = starts[3:]
+    par = np.concatenate([par] + tables)
+    final_coast = vertical and stop_at != "burnout"
+    phases = _phase_table(vehicle, windows, extra, _mode_function(vertical, ascent, t_start), offsets, final_coast)
+    total_burn = sum(s.burn_time_s for s in vehicle.stages)
+    opt = np.zeros(L.OPT_SIZE)
+    opt[L.OPT_RTOL] = rtol
+    opt[L.OPT_MAX_STEP] = math.inf if max_step_s is None else float(max_step_s)
+    opt[L.OPT_H_FIRST] = min(opt[L.OPT_MAX_STEP], max(1e-4, total_burn / 1000.0))
+    opt[L.OPT_STOP] = {"apogee": L.STOP_APOGEE, "impact": L.STOP_IMPACT, "burnout": L.STOP_BURNOUT}[
+        "burnout" if not vertical else stop_at]
+    opt[L.OPT_VERTICAL] = 1.0 if vertical else 0.0
+    opt[L.OPT_RECORD] = 1.0 if record_history else 0.0
+    opt[L.OPT_DETECT_IMPACT] = 1.0 if detect_impact else 0.0
+    opt[L.OPT_MAX_TIME] = MAX_FLIGHT_TIME_S
+    opt[L.OPT_N_STAGES] = len(vehicle.stages)
+    opt[L.OPT_POS_SCALE], opt[L.OPT_VEL_SCALE] = _POS_SCALE_M, _VEL_SCALE_M_S
+    r0 = tuple(par[L.ENV_R0:L.ENV_R0 + 3])
+    y0 = np.zeros(L.N_STATE)
+    y0[0:3] = r0
+    y0[3], y0[4] = -omega * r0[1], omega * r0[0]
+    y0[6] = vehicle.gross_mass_kg
+    frame = FlightFrame(round_, float(par[L.ENV_RADIUS]), omega, r0, float(par[L.ENV_MU]))
+    return FlightSetup(phases, par, opt, y0, frame, tw_lift, tuple(warnings), float(np.linalg.norm(y0[3:6])))
