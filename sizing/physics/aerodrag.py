@@ -17,9 +17,10 @@ All coefficients refer to A_ref = pi d_ref^2 / 4 and are power-off (coasting).
 * Skin friction of a flat plate at Reynolds number Re = rho V l / mu
   (mu by Sutherland's law, US Standard Atmosphere 1976 eq. 51, at the launch
   site): laminar Blasius C_f = 1.328 / sqrt(Re) below Re = 5e5, above it the
-  Prandtl-Schlichting mixed-boundary-layer form C_f = 0.074 Re^-0.2 - 1700/Re
-  (H. Schlichting, *Boundary-Layer Theory*, 7th ed., ch. 21, transition at
-  Re = 5e5; from memory). Incompressible at every Mach number (above Mach 1
+  Prandtl-Schlichting mixed-boundary-layer law
+  C_f = 0.455 / (log10 Re)^2.58 - 1700/Re (H. Schlichting, *Boundary-Layer
+  Theory*, 7th ed., ch. 21, transition at Re = 5e5; valid to Re = 1e9; from
+  memory). Incompressible at every Mach number (above Mach 1
   this overstates friction by some 10-20 %, from memory).
 * Body: C_D,fb = C_f(Re_L) (1 + 60 / (L/d)^3 + 0.0025 L/d) S_wet / A_ref
   (Hoerner's form factor of a body of revolution of fineness L/d), S_wet the
@@ -92,8 +93,8 @@ def skin_friction_coefficient(reynolds: float) -> float:
     """Mean flat-plate skin-friction coefficient C_f [-] at a Reynolds number.
 
     Laminar (Blasius) 1.328 / sqrt(Re) below `RE_TRANSITION`; above it
-    0.074 Re^-0.2 - 1700 / Re (Prandtl-Schlichting, transition at 5e5;
-    Schlichting, Boundary-Layer Theory, 7th ed., ch. 21; from memory).
+    0.455 / (log10 Re)^2.58 - 1700 / Re (Prandtl-Schlichting, transition at
+    5e5; Schlichting, Boundary-Layer Theory, 7th ed., ch. 21; from memory).
 
     Examples
     --------
@@ -105,7 +106,7 @@ def skin_friction_coefficient(reynolds: float) -> float:
         raise ValueError(f"reynolds: must be > 0. Got {reynolds!r}.")
     if re < RE_TRANSITION:
         return 1.328 / math.sqrt(re)
-    return 0.074 * re**-0.2 - 1700.0 / re
+    return 0.455 / math.log10(re) ** 2.58 - 1700.0 / re
 
 
 @dataclass(frozen=True, slots=True)
