@@ -33,6 +33,7 @@ from ..physics.water import DEFAULT_SAFETY_FACTOR, MIN_SAFETY_FACTOR, MSG_SAFETY
 from .hobby_flight import (
     DEFAULT_MIN_STATIC_MARGIN_CAL,
     MSG_GEOMETRY_ALL_OR_NONE,
+    MSG_GEOMETRY_NEEDED,
     MSG_MOTOR_LENGTH,
     WIND_KEYS,
     RecoveryDef,
@@ -582,8 +583,7 @@ def hobby_problem_from_dict(data: Mapping[str, Any], *, source: str = "<dict>",
                          ("mission.payload_position", m.payload_position),
                          ("mission.ballast_position", m.ballast_position)):
                 if v is not None:
-                    col.fault(f"{k}: needs [stage.geometry] on every stage (stability needs the airframe). "
-                              f"Got {v!r}.")
+                    col.fault(f"{k}: {MSG_GEOMETRY_NEEDED}. Got {v!r}.")
     else:
         o = h.optimise or OptimiseTable()
         vary = tuple(dict.fromkeys(o.vary))

@@ -124,7 +124,7 @@ def sketch_svg(result, *, width_px: int = 900, caution: str | None = None) -> st
     half = max(r_fin, r_max) * scale
     axis_y = margin + half + 10
     n_marks = len(sk["marks"])
-    height = int(axis_y + half + 40 + 34 * n_marks + (18 if caution else 0))
+    height = int(axis_y + half + 40 + 44 * n_marks + (18 if caution else 0))
 
     def X(x):
         return margin + x * scale
@@ -155,7 +155,7 @@ def sketch_svg(result, *, width_px: int = 900, caution: str | None = None) -> st
                        'stroke="black" stroke-dasharray="2 2"/>')
     y0 = axis_y + half + 40
     for j, m in enumerate(sk["marks"]):
-        yy = y0 + 34 * j
+        yy = y0 + 44 * j
         xg, xp = X(m["cg_m"]), X(m["cp_m"])
         out += [f'<line x1="{xg:.1f}" y1="{axis_y:.1f}" x2="{xg:.1f}" y2="{yy:.1f}" stroke="#555" stroke-width="0.6"/>',
                 f'<line x1="{xp:.1f}" y1="{axis_y:.1f}" x2="{xp:.1f}" y2="{yy:.1f}" stroke="#555" stroke-width="0.6"/>',
@@ -163,7 +163,7 @@ def sketch_svg(result, *, width_px: int = 900, caution: str | None = None) -> st
                 f'<circle cx="{xp:.1f}" cy="{yy:.1f}" r="5" fill="white" stroke="black"/>',
                 f'<line x1="{xp - 5:.1f}" y1="{yy:.1f}" x2="{xp + 5:.1f}" y2="{yy:.1f}" stroke="black"/>',
                 f'<line x1="{xp:.1f}" y1="{yy - 5:.1f}" x2="{xp:.1f}" y2="{yy + 5:.1f}" stroke="black"/>',
-                f'<text x="{max(xg, xp) + 10:.1f}" y="{yy + 4:.1f}">'
+                f'<text x="{margin:.1f}" y="{yy + 20:.1f}">'
                 f'{html.escape(m["configuration"])} at {html.escape(m["event"])}: CG {m["cg_m"] * 1e3:,.0f} mm, '
                 f'CP {m["cp_m"] * 1e3:,.0f} mm, margin {m["static_margin_cal"]:.2f} cal</text>']
     if caution:
