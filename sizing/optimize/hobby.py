@@ -26,6 +26,12 @@ Method (exact branch and bound on a known objective)
    apogee down to the target. A stack that cannot lift off (peak
    thrust-to-weight <= 1, or stalls on the rail) or whose flight-time bound
    exceeds 300 s is rejected at once (`sizing.physics.liftoff.fly_hobby`).
+   With a `stability` callback (stage geometry given), each combination
+   first gets the least nose ballast for its static margin
+   (`sizing.optimize.hobby_safety.stability_ballast`), counted in its mass
+   bound and thrust-to-weight and used as the floor of every ballast above;
+   one that ballast cannot (or may not) make stable is rejected as
+   ``"unstable"``.
    The search stops as soon as the next lower
    bound is not better than the best feasible objective found: the result is
    then the exact optimum over the list (up to the bisection tolerance).

@@ -65,6 +65,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from sizing.errors import FieldError
+from sizing.physics.vehicle import _check_positive
 
 __all__ = [
     "NOSE_SHAPES",
@@ -99,15 +100,8 @@ _N_PROFILE = 800  # frustums per section for volumes and wetted areas (cosine sp
 
 
 def _pos(value, name: str, *, zero_ok: bool = False) -> float:
-    if isinstance(value, bool):
-        raise FieldError(name, "must be a number.", value)
-    try:
-        v = float(value)
-    except (TypeError, ValueError):
-        raise FieldError(name, "must be a number.", value) from None
-    if not math.isfinite(v) or (v < 0 if zero_ok else v <= 0):
-        raise FieldError(name, "must be >= 0." if zero_ok else "must be > 0.", value)
-    return v
+    """A finite number > 0 (>= 0 with `zero_ok`), else FieldError naming the field."""
+    return _check_positive(value, name, allow_zero=zero_ok)
 
 
 # ---------------------------------------------------------------- geometry

@@ -39,6 +39,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from sizing.errors import FieldError
+from sizing.physics.vehicle import _check_positive
 
 __all__ = [
     "WIND_PROFILES",
@@ -56,21 +57,11 @@ DEFAULT_WIND_EXPONENT = 1.0 / 7.0
 DEFAULT_WIND_REFERENCE_HEIGHT_M = 10.0
 
 
-def _finite(value, field_name: str, *, lo: float | None = None, lo_open: bool = False,
-            hi: float | None = None) -> float:
-    if isinstance(value, bool):
-        raise FieldError(field_name, "must be a number.", value)
-    try:
-        v = float(value)
-    except (TypeError, ValueError):
-        raise FieldError(field_name, "must be a number.", value) from None
-    if not math.isfinite(v) or (lo is not None and (v <= lo if lo_open else v < lo)) or (hi is not None and v > hi):
-        bound = []
-        if lo is not None:
-            bound.append(f"{'>' if lo_open else '>='} {lo:g}")
-        if hi is not None:
-            bound.append(f"<= {hi:g}")
-        raise FieldError(field_name, f"must be finite{' and ' + ' and '.join(bound) if bound else ''}.", value)
+def _finite(value, field_name: str, *, lo_open: bool = False, hi: float | None = None) -> float:
+    """A finite number >= 0 (> 0 with `lo_open`; <= `hi` when given), else FieldError naming the field."""
+    v = _check_positive(value, field_name, allow_zero=not lo_open)
+    if hi is not None and v > hi:
+        raise FieldError(field_name, f"must be <= {hi:g}.", value)
     return v
 
 
@@ -118,19 +109,19 @@ class WindProfile:
         set_ = lambda k, v: object.__setattr__(self, k, v)  # noqa: E731
         if self.kind not in WIND_PROFILES:
             raise FieldError("wind.profile", f"must be one of {', '.join(WIND_PROFILES)}.", self.kind)
-        set_("speed_m_s", _finite(self.speed_m_s, "wind.speed", lo=0.0))
-        d = _finite(self.direction_from_deg, "wind.direction", lo=0.0)
+        set_("speed_m_s", _finite(self.speed_m_s, "wind.speed"))
+        d = _finite(self.direction_from_deg, "wind.direction")
         if d >= 360.0:
             raise FieldError("wind.direction", "must be in [0, 360) degrees, clockwise from north.", d)
         set_("direction_from_deg", d)
-        set_("reference_height_m", _finite(self.reference_height_m, "wind.reference_height", lo=0.0, lo_open=True))
-        set_("exponent", _finite(self.exponent, "wind.exponent", lo=0.0, lo_open=True, hi=1.0))
+        set_("reference_height_m", _finite(self.reference_height_m, "wind.reference_height", lo_open=True))
+        set_("exponent", _finite(self.exponent, "wind.exponent", lo_open=True, hi=1.0))
         if self.top_height_m is not None:
-            set_("top_height_m", _finite(self.top_height_m, "wind.top_height", lo=0.0, lo_open=True))
+            set_("top_height_m", _finite(self.top_height_m, "wind.top_height", lo_open=True))
         if self.kind == "table":
-            h = tuple(_finite(v, "wind.heights", lo=0.0) for v in self.heights_m)
-            s = tuple(_finite(v, "wind.speeds", lo=0.0) for v in self.speeds_m_s)
-            dd = tuple(_finite(v, "wind.directions", lo=0.0) for v in self.directions_from_deg)
+            h = tuple(_finite(v, "wind.heights") for v in self.heights_m)
+            s = tuple(_finite(v, "wind.speeds") for v in self.speeds_m_s)
+            dd = tuple(_finite(v, "wind.directions") for v in self.directions_from_deg)
             if len(h) < 1 or not (len(h) == len(s) == len(dd)):
                 raise FieldError("wind.table", "needs one or more [height, speed, direction] rows.", self.heights_m)
             if any(b <= a for a, b in zip(h, h[1:])):
