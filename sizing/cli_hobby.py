@@ -12,6 +12,12 @@ import math
 from pathlib import Path
 from typing import Any
 
+from .report.flight_safety import has_safety, safety_tables, transposed, write_sketch
+
+#: Extra --out formats of `sizing hobby`: the side-view sketch (needs stage geometry).
+SKETCH_FORMATS = (".html", ".svg")
+MSG_SKETCH_NEEDS_GEOMETRY = "a sketch (.html, .svg) needs a motor stack with [stage.geometry] on every stage"
+
 __all__ = ["register", "run_hobby", "check_hobby", "hobby_rows", "limit_rows", "caution_text",
            "hobby_export_table"]
 
@@ -25,7 +31,8 @@ def register(subparsers) -> None:
                     "apogee. Preliminary estimates only, not clearance to fly.")
     p.add_argument("file", type=Path, help="hobby problem file (TOML)")
     p.add_argument("--json", action="store_true", help="print one JSON object to stdout")
-    p.add_argument("--out", type=Path, help="also write the stage table: .csv .md .json .xlsx")
+    p.add_argument("--out", type=Path, help="also write the stage table: .csv .md .json .xlsx; or, with stage "
+                                            "geometry, the side-view sketch: .html (with the tables) or .svg")
     p.set_defaults(func=run_hobby)
 
 
@@ -166,6 +173,14 @@ def _print_hobby(result) -> None:
         for r in lr:
             t.add_row(*map(escape, r))
         con.print(t)
+    for table in safety_tables(result):
+        title, header, rows = transposed(table, key_columns=2 if table[1][:2] == ["configuration", "event"] else 1)
+        t = Table(title=title, title_justify="left")
+        for i, hd in enumerate(header):
+            t.add_column(escape(hd), justify="left" if i == 0 else "right")
+        for r in rows:
+            t.add_row(*map(escape, r))
+        con.print(t)
     line = _search_line(result)
     if line:
         con.print(escape(line))
@@ -183,6 +198,10 @@ def _markdown_section(result) -> str:
     if lr:
         out += ["### Hobby limits", "", "| check | value | limit |", "|:---|---:|:---|"]
         out += ["| " + " | ".join(r) + " |" for r in lr]
+        out.append("")
+    for stitle, sheader, srows in safety_tables(result):
+        out += [f"### {stitle}", "", "| " + " | ".join(sheader) + " |", "|:---|:---|" + "---:|" * (len(sheader) - 2)]
+        out += ["| " + " | ".join(r) + " |" for r in srows]
         out.append("")
     line = _search_line(result)
     if line:
@@ -291,6 +310,11 @@ def _append_csv_section(result, path: Path) -> None:
         w.writerow(header)
         for r in rows:
             w.writerow(["" if v is None else v for v in r])
+        for stitle, sheader, srows in safety_tables(result):
+            w.writerow([])
+            w.writerow([stitle])
+            w.writerow(sheader)
+            w.writerows(srows)
         w.writerow([])
         w.writerow(_EXTRAS_HEADER)
         for r in _export_extras(result):
@@ -311,6 +335,13 @@ def _add_xlsx_sheets(result, path: Path) -> None:
     ws.append(_EXTRAS_HEADER)
     for r in _export_extras(result):
         ws.append(r)
+    for k, (stitle, sheader, srows) in enumerate(safety_tables(result)):
+        ws2 = wb.create_sheet(("stability", "ejection timing", "recovery")[k] if len(safety_tables(result)) == 3
+                              else f"flight safety {k + 1}")
+        ws2.append([stitle])
+        ws2.append(sheader)
+        for r in srows:
+            ws2.append(r)
     wb.save(path)
 
 
@@ -340,7 +371,7 @@ def run_hobby(args) -> int:
 
     out = getattr(args, "out", None)
     try:
-        check_out_path(out, EXPORT_FORMATS)
+        check_out_path(out, EXPORT_FORMATS + SKETCH_FORMATS)
     except ValueError as exc:
         error_line(str(exc))
         return EXIT_BAD_INPUT
@@ -348,6 +379,9 @@ def run_hobby(args) -> int:
         problem = load_hobby_problem(args.file)
     except SizingError as exc:
         error_line(str(exc))
+        return EXIT_BAD_INPUT
+    if out is not None and out.suffix.lower() in SKETCH_FORMATS and not getattr(problem, "has_geometry", False):
+        error_line(f"{problem.source}: --out {out}: {MSG_SKETCH_NEEDS_GEOMETRY}. Got no [stage.geometry].")
         return EXIT_BAD_INPUT
     try:
         result = solve_hobby(problem)
@@ -361,6 +395,11 @@ def run_hobby(args) -> int:
     if out is not None:
         if not result.success:
             error_line(f"--out {out}: not written, no stack or design reaches the target.")
+        elif out.suffix.lower() in SKETCH_FORMATS and has_safety(result):
+            title, header, rows = hobby_rows(result)
+            tables = ([(title, header, rows)] if rows else []) + safety_tables(result)
+            path = write_sketch(result, out, caution=caution_text(result), tables=tables)
+            print(f"wrote {path}", file=sys.stderr if args.json else sys.stdout)
         else:
             path = write_stage_table(result, out)
             ext = path.suffix.lower()

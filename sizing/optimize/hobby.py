@@ -26,6 +26,12 @@ Method (exact branch and bound on a known objective)
    apogee down to the target. A stack that cannot lift off (peak
    thrust-to-weight <= 1, or stalls on the rail) or whose flight-time bound
    exceeds 300 s is rejected at once (`sizing.physics.liftoff.fly_hobby`).
+   With a `stability` callback (stage geometry given), each combination
+   first gets the least nose ballast for its static margin
+   (`sizing.optimize.hobby_safety.stability_ballast`), counted in its mass
+   bound and thrust-to-weight and used as the floor of every ballast above;
+   one that ballast cannot (or may not) make stable is rejected as
+   ``"unstable"``.
    The search stops as soon as the next lower
    bound is not better than the best feasible objective found: the result is
    then the exact optimum over the list (up to the bisection tolerance).
@@ -100,6 +106,7 @@ REJECT_REASONS: tuple[str, ...] = (
     "cannot_lift_off",    # peak thrust-to-weight <= 1, or stalls on the rail (sizing.physics.liftoff)
     "flight_time_cap",    # flight-time bound above HOBBY_MAX_FLIGHT_TIME_S (sizing.physics.liftoff)
     "flight_error",       # the flight could not be built or simulated
+    "unstable",           # static margin below the minimum and nose ballast cannot (or may not) fix it
     "worse_than_best",    # flown and feasible, but a better stack was found
     "objective_bound",    # never flown: cannot beat the optimum found
     "not_evaluated",      # never flown: the simulation cap was reached
@@ -350,6 +357,7 @@ def search_hobby_stack(
     flight: Callable[[Vehicle, LaunchSite], object] | None = None,
     max_combinations: int = 200_000,
     max_simulations: int = 2_000,
+    stability: Callable[[tuple[Motor, ...]], float] | None = None,
 ) -> HobbyStackResult:
     """Lightest or cheapest motor stack reaching a target apogee within the hobby limits.
 
@@ -394,6 +402,13 @@ def search_hobby_stack(
         Above this, dominance pruning (heuristic) is applied first.
     max_simulations : int
         Cap on simulated flights.
+    stability : callable or None
+        ``stability(combo)`` -> the least nose ballast [kg] that gives every
+        configuration its minimum static margin (0 when it already has it;
+        inf when ballast cannot or may not fix it: rejected as
+        ``"unstable"``); see `sizing.optimize.hobby_safety`. The ballast is
+        a floor for the acceleration and target-matching ballast. None: no
+        stability check.
 
     Returns
     -------
@@ -457,18 +472,23 @@ def search_hobby_stack(
     # -- 1-2: enumerate, cheap rejections ---------------------------------------
     cands = []  # (lower bound key, combo, liftoff mass, tw)
     for combo in itertools.product(*per_stage):
-        m0 = payload_mass_kg + sum(s.airframe_mass_kg + m.loaded_mass_kg for m, s in zip(combo, stages))
-        tw = combo[0].average_thrust_n / (m0 * g0)
-        if tw < min_thrust_to_weight:
-            rejected["thrust_to_weight"] += 1
+        b0 = 0.0 if stability is None else float(stability(combo))
+        if not math.isfinite(b0):
+            rejected["unstable"] += 1
             continue
-        dv = _ideal_delta_v(combo, stages, payload_mass_kg)
+        m0 = payload_mass_kg + sum(s.airframe_mass_kg + m.loaded_mass_kg for m, s in zip(combo, stages))
+        tw = combo[0].average_thrust_n / ((m0 + b0) * g0)
+        if tw < min_thrust_to_weight:
+            rejected["unstable" if b0 > 0 and combo[0].average_thrust_n / (m0 * g0) >= min_thrust_to_weight
+                     else "thrust_to_weight"] += 1
+            continue
+        dv = _ideal_delta_v(combo, stages, payload_mass_kg + b0)
         if apogee_energy_bound(dv, launch_radius_m=r0) < target_apogee_m:
             rejected["energy_bound"] += 1
             continue
         cost = sum(m.cost for m in combo) if objective == "cost" else 0.0
-        key = (cost, m0) if objective == "cost" else (m0, 0.0)
-        cands.append((key, combo, m0, tw))
+        key = (cost, m0 + b0) if objective == "cost" else (m0 + b0, 0.0)
+        cands.append((key, combo, m0, tw, b0))
     cands.sort(key=lambda c: c[0])
 
     n_sim = 0
@@ -484,7 +504,7 @@ def search_hobby_stack(
         return _Flown(float(r.apogee_m) - site.altitude_m, rail, float(r.max_acceleration_m_s2))
 
     status = "optimal"
-    for idx, (key, combo, m0, tw) in enumerate(cands):
+    for idx, (key, combo, m0, tw, b0) in enumerate(cands):
         if best is not None and key >= best[0]:
             rejected["objective_bound"] += len(cands) - idx
             break
@@ -496,7 +516,7 @@ def search_hobby_stack(
             outcome = _evaluate(combo, m0, simulate, target_apogee_m=target_apogee_m,
                                 min_tw=min_thrust_to_weight, min_rail=min_rail_exit_speed_m_s,
                                 max_acc=max_acceleration_m_s2, match=match_target,
-                                tol=apogee_tolerance_m)
+                                tol=apogee_tolerance_m, b0=b0)
         except CannotLiftOffError:
             rejected["cannot_lift_off"] += 1
             continue
@@ -557,15 +577,16 @@ def search_hobby_stack(
     )
 
 
-def _evaluate(combo, m0, simulate, *, target_apogee_m, min_tw, min_rail, max_acc, match, tol):
+def _evaluate(combo, m0, simulate, *, target_apogee_m, min_tw, min_rail, max_acc, match, tol, b0=0.0):
     """Fly one combination, adding nose ballast when the limits call for it.
 
+    `b0` is the least ballast (stability); every ballast found is at least b0.
     Returns (reason or None, ballast_kg, flight result).
     """
     g0 = G0_M_S2
     # the most ballast the thrust-to-weight minimum allows
     b_max = combo[0].average_thrust_n / (min_tw * g0) - m0
-    res = simulate(combo, 0.0)
+    res = simulate(combo, b0)
 
     def ok_basic(r):
         if not r.rail_exit_speed_m_s >= min_rail:
@@ -577,15 +598,15 @@ def _evaluate(combo, m0, simulate, *, target_apogee_m, min_tw, min_rail, max_acc
     reason = ok_basic(res)
     if reason is not None:
         return reason, 0.0, res
-    ballast = 0.0
+    ballast = b0
     if max_acc is not None and res.max_acceleration_m_s2 > max_acc:
         # least ballast with max acceleration <= limit (acceleration falls with mass)
-        if b_max <= 0:
+        if b_max <= b0:
             return "max_acceleration", 0.0, res
         r_hi = simulate(combo, b_max)
         if r_hi.max_acceleration_m_s2 > max_acc:
             return "max_acceleration", 0.0, res
-        lo, hi = 0.0, b_max
+        lo, hi = b0, b_max
         res_hi = r_hi
         for _ in range(40):
             if hi - lo <= max(1e-4, 1e-3 * hi):

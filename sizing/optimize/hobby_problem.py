@@ -43,6 +43,7 @@ from .water import optimise_water_stage
 from ..problem.hobby import HobbyProblem
 from ..result import SizingResult, StageResult, Status
 from ..units import G0_M_S2, R_EARTH_EQ_M
+from .hobby_safety import geometry_drag_curves, safety_report, stability_ballast
 from .hobby import (
     DTEG_RAIL_EXIT_SPEED_M_S,
     HOBBY_CAUTION,
@@ -146,6 +147,7 @@ def _limits(problem: HobbyProblem) -> dict[str, Any]:
         "max_acceleration_m_s2": problem.max_acceleration_m_s2,
         "rail_length_m": problem.site.rail_length_m,
         "rail_length_assumed": not problem.rail_length_given,
+        "min_static_margin_cal": problem.min_static_margin_cal if problem.has_geometry else None,
     }
 
 
@@ -186,11 +188,19 @@ def solve_hobby(problem: HobbyProblem, *, flight: FlightFn | None = None) -> Siz
 
 # ---------------------------------------------------------------- motors
 def _stack_stages(problem: HobbyProblem) -> tuple[StackStage, ...]:
+    """Search stages; with [stage.geometry], C_D(Mach) from the component build-up where no table is given."""
+    built = geometry_drag_curves(problem) if problem.has_geometry else (None,) * len(problem.motor_stages)
     return tuple(
-        StackStage(s.name, s.airframe_mass_kg, s.diameter_m, s.motor_diameter_m, s.drag, s.allowed_motors,
+        StackStage(s.name, s.airframe_mass_kg, s.diameter_m, s.motor_diameter_m, s.drag or g, s.allowed_motors,
                    s.coast_before_ignition_s)
-        for s in problem.motor_stages
+        for s, g in zip(problem.motor_stages, built)
     )
+
+
+def _drag_source(problem: HobbyProblem) -> list[str]:
+    """Where each stage's C_D(Mach) comes from: "table", "geometry" or "default"."""
+    return ["table" if s.drag is not None else "geometry" if s.geometry is not None else "default"
+            for s in problem.motor_stages]
 
 
 def _solve_motors(problem: HobbyProblem, fly: FlightFn) -> SizingResult:
@@ -207,7 +217,8 @@ def _solve_motors(problem: HobbyProblem, fly: FlightFn) -> SizingResult:
         min_thrust_to_weight=limits["min_thrust_to_weight"],
         min_rail_exit_speed_m_s=limits["min_rail_exit_speed_m_s"],
         max_acceleration_m_s2=problem.max_acceleration_m_s2, match_target=problem.match_target,
-        payload_diameter_m=problem.payload_diameter_m, flight=fly, **opts,
+        payload_diameter_m=problem.payload_diameter_m, flight=fly,
+        stability=(lambda combo: stability_ballast(problem, combo)) if problem.has_geometry else None, **opts,
     )
     hobby: dict[str, Any] = {
         "kind": "motors",
@@ -219,6 +230,7 @@ def _solve_motors(problem: HobbyProblem, fly: FlightFn) -> SizingResult:
         "rejected": dict(res.rejected),
         "limits": limits,
         "motors_file": problem.motors_file,
+        "drag_source": _drag_source(problem),
         "caution": HOBBY_CAUTION,
     }
     notes = _site_notes(problem)
@@ -255,8 +267,12 @@ def _solve_motors(problem: HobbyProblem, fly: FlightFn) -> SizingResult:
     chosen = [by_name[c.motor] for c in res.stages]
     vehicle = build_motor_vehicle(chosen, stages, payload_mass_kg=problem.payload_mass_kg,
                                   ballast_mass_kg=res.ballast_mass_kg, payload_diameter_m=problem.payload_diameter_m)
-    fr = fly(vehicle, problem.site)
+    fr = fly_hobby(vehicle, problem.site, record_history=True) if fly is _fly else fly(vehicle, problem.site)
     rows, dv = stage_results_from_vehicle(vehicle)
+    if problem.has_geometry:
+        parts, safety_notes = safety_report(problem, vehicle, chosen, res.ballast_mass_kg, fr)
+        hobby.update(parts)
+        notes += safety_notes
     hobby.update({
         "ballast_mass_kg": res.ballast_mass_kg,
         "cost": res.cost,

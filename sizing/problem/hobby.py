@@ -28,7 +28,22 @@ from pydantic import (BaseModel, ConfigDict, Field, StrictBool, StrictFloat, Str
 from ..errors import MSG_MISSING_KEY, MSG_UNKNOWN_KEY, FieldError, ProblemDefinitionError
 from ..physics.motors import Motor, load_motors, parse_motors
 from ..physics.vehicle import DragCurve, LaunchSite
+from ..units import to_si
 from ..physics.water import DEFAULT_SAFETY_FACTOR, MIN_SAFETY_FACTOR, MSG_SAFETY_FACTOR, WaterStage
+from .hobby_flight import (
+    DEFAULT_MIN_STATIC_MARGIN_CAL,
+    MSG_GEOMETRY_ALL_OR_NONE,
+    MSG_GEOMETRY_NEEDED,
+    MSG_MOTOR_LENGTH,
+    WIND_KEYS,
+    RecoveryDef,
+    RecoveryTable,
+    StageGeometryDef,
+    StageGeometryTable,
+    parse_geometry,
+    parse_recovery,
+    parse_wind,
+)
 from .load import _Collector, _loc_label, _stage_label, read_toml
 
 __all__ = [
@@ -103,6 +118,8 @@ class HobbyTable(_Strict):
     max_simulations: StrictInt | None = Field(default=None, gt=0)  # motors
     max_combinations: StrictInt | None = Field(default=None, gt=0)  # motors
     optimise: OptimiseTable | None = None  # water
+    min_static_margin: Quantity | None = None  # calibers, motors with geometry; default 1 (common practice)
+    stability_fix: Literal["ballast", "none"] | None = None  # motors with geometry; default "ballast"
 
 
 class HobbyMissionTable(_Strict):
@@ -112,6 +129,8 @@ class HobbyMissionTable(_Strict):
     payload_mass: Quantity  # kg
     payload_diameter: Quantity | None = None  # m, if wider than the stages
     notes: StrictStr | None = None
+    payload_position: Quantity | None = None  # m from the nose tip (CG of the payload); default the nose base
+    ballast_position: Quantity | None = None  # m from the nose tip; default half the nose length
 
 
 class HobbyLaunchTable(_Strict):
@@ -120,6 +139,12 @@ class HobbyLaunchTable(_Strict):
     altitude: Quantity | None = None  # m above mean sea level
     rail_length: Quantity | None = None  # m (water: default the launch tube length)
     rail_angle: Quantity | None = None  # deg from vertical, [0, 30]
+    wind_speed: Quantity | None = None  # m/s (at wind_reference_height for a power law)
+    wind_direction: Quantity | None = None  # deg the wind blows from, clockwise from north
+    wind_profile: StrictStr | None = None  # "constant", "power_law", "table"
+    wind_reference_height: Quantity | None = None  # m, power law; default 10 m
+    wind_exponent: Quantity | None = None  # -, power law; default 1/7
+    wind_table: list[Any] | None = None  # [[height m, speed m/s, direction deg], ...]
 
 
 class MotorStageTable(_Strict):
@@ -133,6 +158,8 @@ class MotorStageTable(_Strict):
     coast_before_ignition: Quantity | None = None  # s
     drag_mach: list[Quantity] | None = None  # -
     drag_cd: list[Quantity] | None = None  # -
+    geometry: StageGeometryTable | None = None  # outer shape and mass layout (stability, drag)
+    recovery: RecoveryTable | None = None  # parachute, streamer or dual deployment
 
 
 class WaterStageTable(_Strict):
@@ -185,6 +212,8 @@ _TABLE_MODELS: dict[str, type[BaseModel]] = {
     "optimise": OptimiseTable,
     "mission": HobbyMissionTable,
     "launch": HobbyLaunchTable,
+    "geometry": StageGeometryTable,
+    "recovery": RecoveryTable,
 }
 
 
@@ -200,6 +229,8 @@ class MotorStageDef:
     allowed_motors: tuple[str, ...] | None = None
     coast_before_ignition_s: float = 0.0
     drag: DragCurve | None = None
+    geometry: StageGeometryDef | None = None
+    recovery: RecoveryDef = RecoveryDef()
 
 
 @dataclass(frozen=True, slots=True)
@@ -253,6 +284,17 @@ class HobbyProblem:
     nozzle_diameter_bounds_m: tuple[float, float] | None = None
     max_evaluations: int | None = None
     n_grid: int | None = None
+    # flight safety (motors)
+    wind: Any = None  # sizing.physics.wind.WindProfile or None (calm)
+    payload_position_m: float | None = None
+    ballast_position_m: float | None = None
+    min_static_margin_cal: float = DEFAULT_MIN_STATIC_MARGIN_CAL
+    stability_fix: str = "ballast"
+
+    @property
+    def has_geometry(self) -> bool:
+        """True when every motor stage has a [stage.geometry] table."""
+        return bool(self.motor_stages) and all(s.geometry is not None for s in self.motor_stages)
 
     @property
     def stage_names(self) -> tuple[str, ...]:
@@ -402,6 +444,14 @@ def hobby_problem_from_dict(data: Mapping[str, Any], *, source: str = "<dict>",
         if "max_acceleration" in hob:
             pre.append(f"hobby.max_acceleration: {MSG_MOTORS_ONLY} (the water optimiser has no acceleration "
                        f"limit; the output reports the maximum). Got {hob['max_acceleration']!r}.")
+        for k in ("min_static_margin", "stability_fix"):
+            if k in hob:
+                pre.append(f"hobby.{k}: {MSG_MOTORS_ONLY}. Got {hob[k]!r} with kind = 'water'.")
+        for tab, keys in (("launch", WIND_KEYS), ("mission", ("payload_position", "ballast_position"))):
+            raw_tab = data.get(tab)
+            for k in keys:
+                if isinstance(raw_tab, Mapping) and k in raw_tab:
+                    pre.append(f"{tab}.{k}: {MSG_MOTORS_ONLY}. Got {raw_tab[k]!r} with kind = 'water'.")
     elif kind == "motors" and "optimise" in hob:
         pre.append(f"hobby.optimise: {MSG_WATER_ONLY}. Got a [hobby.optimise] table with kind = 'motors'.")
     try:
@@ -439,6 +489,12 @@ def hobby_problem_from_dict(data: Mapping[str, Any], *, source: str = "<dict>",
                          lo_open=False, hi_open=False,
                          allowed="must be in [0, 30] degrees from vertical "
                                  "(hobby safety codes keep launchers within 30 degrees)")
+
+    margin_min = col.quantity("hobby.min_static_margin", h.min_static_margin, "dimensionless", lo=0.0,
+                              lo_open=False, allowed="must be >= 0 calibers")
+    pay_x = col.quantity("mission.payload_position", m.payload_position, "length", lo=0.0, lo_open=False)
+    bal_x = col.quantity("mission.ballast_position", m.ballast_position, "length", lo=0.0, lo_open=False)
+    wind = parse_wind(col, L) if kind == "motors" else None
 
     base = Path(base_dir) if base_dir is not None else Path(".")
     motors: tuple[Motor, ...] = ()
@@ -504,13 +560,30 @@ def hobby_problem_from_dict(data: Mapping[str, Any], *, source: str = "<dict>",
                     continue
             if af is None or dia is None or (st.motor_diameter is not None and mdia is None):
                 continue
-            sd = MotorStageDef(name, af, dia, mdia, allowed, coast or 0.0, drag)
+            geo = _stage_geometry(col, data, pf.stage, i, where, dia, af)
+            recovery = parse_recovery(col, where, st.recovery)
+            sd = MotorStageDef(name, af, dia, mdia, allowed, coast or 0.0, drag, geo, recovery)
+            if geo is not None and motors:
+                short = sorted(mo.name for mo in motors if _fits(sd, mo) and mo.length_m is None)
+                if short:
+                    col.fault(f"{where}.geometry: {MSG_MOTOR_LENGTH}; give `length` for "
+                              + ", ".join(short[:5]) + (" ..." if len(short) > 5 else "") + ". Got none.")
             if motors and not any(_fits(sd, mo) for mo in motors):
                 have = sorted({round(mo.diameter_m * 1000, 1) for mo in motors if mo.diameter_m})
                 col.fault(f"{where}.motor_diameter: {MSG_NO_MOTOR_FITS}; motor diameters in the list: "
                           f"{', '.join(f'{d:g}' for d in have)} mm. Got {st.motor_diameter!r}.")
                 continue
             motor_stages.append(sd)
+        with_geo = [st.geometry is not None for st in pf.stage]
+        if any(with_geo) and not all(with_geo):
+            col.fault(f"{_stage_label(data, with_geo.index(False))}.geometry: {MSG_GEOMETRY_ALL_OR_NONE}. "
+                      f"Got geometry on {sum(with_geo)} of {len(with_geo)} stages.")
+        if not any(with_geo):
+            for k, v in (("hobby.min_static_margin", h.min_static_margin), ("hobby.stability_fix", h.stability_fix),
+                         ("mission.payload_position", m.payload_position),
+                         ("mission.ballast_position", m.ballast_position)):
+                if v is not None:
+                    col.fault(f"{k}: {MSG_GEOMETRY_NEEDED}. Got {v!r}.")
     else:
         o = h.optimise or OptimiseTable()
         vary = tuple(dict.fromkeys(o.vary))
@@ -581,13 +654,34 @@ def hobby_problem_from_dict(data: Mapping[str, Any], *, source: str = "<dict>",
         return HobbyProblem(
             **common, objective=h.objective or "mass", match_target=bool(h.match_target), motors=motors,
             motors_file=None if h.motors is None else str(base / h.motors), motor_stages=tuple(motor_stages),
-            max_simulations=h.max_simulations, max_combinations=h.max_combinations,
+            max_simulations=h.max_simulations, max_combinations=h.max_combinations, wind=wind,
+            payload_position_m=pay_x, ballast_position_m=bal_x,
+            min_static_margin_cal=DEFAULT_MIN_STATIC_MARGIN_CAL if margin_min is None else margin_min,
+            stability_fix=h.stability_fix or "ballast",
         )
     vary, maxp, fb, nb, max_eval, n_grid = opt
     return HobbyProblem(
         **common, water_stages=tuple(water_stages), vary=vary, max_gauge_pressure_pa=maxp, fill_bounds=fb,
         nozzle_diameter_bounds_m=nb, max_evaluations=max_eval, n_grid=n_grid,
     )
+
+
+def _stage_geometry(col: _Collector, data: Mapping[str, Any], tables, i: int, where: str,
+                    diameter_m: float | None, airframe_mass_kg: float | None) -> StageGeometryDef | None:
+    """[stage.geometry] of motor stage `i` (None when not given or faulty)."""
+    g = tables[i].geometry
+    if g is None:
+        return None
+    is_top = i == len(tables) - 1
+    needs_tr = False
+    if not is_top and diameter_m is not None:
+        try:
+            above = to_si(tables[i + 1].diameter, "length")
+        except ValueError:  # reported with the stage above
+            above = diameter_m
+        needs_tr = abs(above - diameter_m) > 1e-9
+    return parse_geometry(col, where, g, is_top=is_top, needs_transition=needs_tr,
+                          airframe_mass_kg=airframe_mass_kg)
 
 
 def _fits(stage: MotorStageDef, motor: Motor) -> bool:
