@@ -368,14 +368,12 @@ class StageMassModel:
         items = self._explicit_items(mp, thrust_vac_n, geo)
         explicit = sum(items[k] for k in MASS_ITEMS if k not in ("avionics", "wiring"))
         s = np.asarray(explicit, dtype=float).copy()
-        # s = E + g(m_p + s): Newton's method (g' < 1 over the MERs' range)
-        for _ in range(50):
-            av, wi, dg = self._implicit(mp + s, geo.stage_length_m)
-            f = s - explicit - av - wi
-            step = f / (1.0 - np.minimum(dg, 0.9))
-            s = s - step
-            if np.all(np.abs(step) <= 1e-12 * np.maximum(np.abs(s), 1.0)):
-                break
+        # s = E + g(m_p + s): Newton's method (g' < 1 over the MERs' range), a fixed number of
+        # steps so that s is a smooth function of the inputs (no data-dependent stopping)
+        if self.use_avionics_mer:
+            for _ in range(8):
+                av, wi, dg = self._implicit(mp + s, geo.stage_length_m)
+                s = s - (s - explicit - av - wi) / (1.0 - np.minimum(dg, 0.9))
         av, wi, _ = self._implicit(mp + s, geo.stage_length_m)
         items["avionics"], items["wiring"] = av, wi
         return s, items, geo
