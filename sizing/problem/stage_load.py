@@ -15,7 +15,8 @@ from ..physics.stage_model import MASS_ITEMS, Material, StageMassModel, shipped_
 __all__ = ["property_tables", "stage_model_fields", "MSG_NOT_IN_PROPELLANT_TABLE", "MSG_NOT_IN_MATERIAL_TABLE",
            "MSG_STRUCTURE_NEEDS_PROPELLANT", "MSG_STRUCTURE_NEEDS_DIAMETER", "MSG_STRUCTURE_AND_COEFFICIENT",
            "MSG_STRUCTURE_NEEDS_THRUST", "MSG_TW_BOUNDS", "MSG_NEEDS_MATERIAL", "MSG_UNKNOWN_ITEM",
-           "MSG_KIND_MISMATCH", "MSG_STRUCTURE_FLIGHT", "MSG_ENTRY_MISSING", "MSG_UNKNOWN_LIKE"]
+           "MSG_KIND_MISMATCH", "MSG_STRUCTURE_FLIGHT", "MSG_ENTRY_MISSING", "MSG_UNKNOWN_LIKE",
+           "MSG_LOSS_NEEDS_THRUST"]
 
 MSG_NOT_IN_PROPELLANT_TABLE = "is not in the propellant table"
 MSG_NOT_IN_MATERIAL_TABLE = "is not in the material table"
@@ -32,6 +33,7 @@ MSG_STRUCTURE_FLIGHT = ("stage mass models are sized on the ideal delta-v path f
                         "target give structural_coefficient instead of [stage.structure]")
 MSG_ENTRY_MISSING = "required key is missing (or give like = \"NAME\" of a shipped entry)"
 MSG_UNKNOWN_LIKE = "is not a shipped propellant"
+MSG_LOSS_NEEDS_THRUST = "the gravity-loss estimate needs the burn time: give thrust_to_weight, thrust or min_thrust_to_weight"
 
 # (key, unit kind, lower bound, lower open) of a propellant-table entry's numbers
 _ENTRY_NUMBERS = (("fuel_density", "density", 0.0, True), ("oxidiser_density", "density", 0.0, True),
@@ -130,6 +132,8 @@ def stage_model_fields(col, where: str, st, *, index: int, n_stages: int, propel
     out["min_thrust_to_weight"], out["max_thrust_to_weight"] = twmin, twmax
     out["gravity_loss_factor"] = col.quantity(f"{where}.gravity_loss_factor", st.gravity_loss_factor,
                                               "dimensionless", lo=0.0, hi=1.0, lo_open=False, hi_open=False)
+    if out["gravity_loss_factor"] and tw is None and thrust is None and twmin is None:
+        col.fault(f"{where}.gravity_loss_factor: {MSG_LOSS_NEEDS_THRUST}. Got {st.gravity_loss_factor!r}.")
     if prop is not None and st.isp is None and st.exhaust_velocity is None:
         isp_vac, isp_sl = prop.isp_at(expansion_ratio=eps, chamber_pressure_pa=pc)
         out["isp_s"] = isp_vac
