@@ -139,9 +139,20 @@ def stage_model_fields(col, where: str, st, *, index: int, n_stages: int, propel
         out["isp_s"] = isp_vac
         if st.isp_sea_level is None and isp_sl > 0:
             out["isp_sea_level_s"] = isp_sl
+    if st.structure is not None:
+        model = _structure_model(col, where, st, prop, index=index, n_stages=n_stages, materials=materials,
+                                 dia=dia, pc=pc, eps=eps, has_thrust=tw is not None or thrust is not None or twmin is not None,
+                                 has_eps=has_eps, flight_target=flight_target)
+        if model is not None:
+            out["mass_model"] = model
+    return out
+
+
+def _structure_model(col, where: str, st, prop: Propellant | None, *, index: int, n_stages: int,
+                     materials: Mapping[str, Material], dia: float | None, pc: float | None, eps: float | None,
+                     has_thrust: bool, has_eps: bool, flight_target: bool) -> StageMassModel | None:
+    """The [stage.structure] table as a `StageMassModel` (None when a fault prevents building it)."""
     s = st.structure
-    if s is None:
-        return out
     if has_eps:
         col.fault(f"{where}: {MSG_STRUCTURE_AND_COEFFICIENT}.")
     if flight_target:
@@ -155,7 +166,7 @@ def stage_model_fields(col, where: str, st, *, index: int, n_stages: int, propel
     if prop is not None and ((kind in ("liquid", "hybrid")) != (prop.kind in ("liquid", "hybrid"))):
         col.fault(f"{w}.kind: {MSG_KIND_MISMATCH} ({prop.kind}). Got {kind!r}.")
     has_engines = kind in ("liquid", "hybrid")
-    if has_engines and tw is None and thrust is None and twmin is None:
+    if has_engines and not has_thrust:
         col.fault(f"{where}: {MSG_STRUCTURE_NEEDS_THRUST}.")
     method = s.tank or "per_volume"
     material = None
@@ -215,5 +226,5 @@ def stage_model_fields(col, where: str, st, *, index: int, n_stages: int, propel
         fixed=fixed,
     )
     if prop is not None and dia is not None and (material is not None or (method == "per_volume" and kind != "solid")):
-        out["mass_model"] = StageMassModel(propellant=prop, diameter_m=dia, **kw)
-    return out
+        return StageMassModel(propellant=prop, diameter_m=dia, **kw)
+    return None
