@@ -317,6 +317,9 @@ def _build(problem: Problem, stack: _Stack, z: np.ndarray, nit: int) -> SizingRe
         solve_for=str(problem.solve_for), method="stage-model slsqp", n_iterations=nit, gross_mass_kg=gross,
         payload_mass_kg=payload, delta_v_m_s=ideal, stages=tuple(stages),
         warnings=tuple(notes),
+        flight=({"losses_m_s": {"gravity_estimate": losses},
+                 "delta_v_budget_m_s": {"ideal": ideal, "gravity loss (estimate)": -losses, "net (target)": net}}
+                if losses > 0 else None),
     )
     viol = constraint_violations(problem, stages, gross, net)
     return replace(base, violations=viol, trade_factors=_trade_factors(problem, base, z))
