@@ -172,3 +172,21 @@ def test_review_notes_flag_small_tanks_and_fat_stages():
     m = _model(diameter_m=3.0)
     notes = " ".join(m.review_notes(500.0, 20e3))
     assert "smaller than its two heads" in notes and "1,000 kg" in notes
+
+
+from hypothesis import given, settings  # noqa: E402
+from hypothesis import strategies as st  # noqa: E402
+
+
+@settings(max_examples=40, deadline=None)
+@given(name=st.sampled_from(["lox-lh2", "lox-ch4", "lox-rp1", "n2o4-mmh"]),
+       mp=st.floats(500.0, 2e5), thrust=st.floats(1e4, 3e6), dia=st.floats(0.8, 4.0),
+       n=st.integers(1, 9), grow=st.floats(1.01, 3.0))
+def test_structure_grows_with_propellant_and_thrust(name, mp, thrust, dia, n, grow):
+    """Property: more propellant or more thrust never makes a stage lighter; the breakdown adds up."""
+    m = StageMassModel(propellant=TABLE[name], diameter_m=dia, engine_count=n)
+    s = m.structural_mass_kg(mp, thrust)
+    assert m.structural_mass_kg(mp * grow, thrust) > s
+    assert m.structural_mass_kg(mp, thrust * grow) > s
+    assert sum(m.breakdown(mp, thrust).values()) == pytest.approx(s, rel=1e-9)
+    assert 0.0 < m.structural_coefficient(mp, thrust) < 1.0
