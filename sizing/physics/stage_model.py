@@ -431,6 +431,12 @@ class StageMassModel:
             if v < 10.0:
                 notes.append(f"tank mass per volume regressions are fitted to 10-1,500 m^3 tanks; these "
                              f"hold {v:.3g} m^3 (consider tank = 'pressure_vessel').")
+        per_engine = float(thrust_vac_n) / self.engine_count
+        if (not self._is_grain and self.engine_thrust_to_weight is None and "engines" not in self.fixed
+                and per_engine < 50e3):
+            notes.append(f"engine MER is fitted to large pump-fed engines; {per_engine / 1e3:,.3g} kN per engine "
+                         "is small for it (below 50 kN, common practice, no source): give "
+                         "[stage.structure] engine_thrust_to_weight.")
         if float(geo.length_to_diameter) > 20:
             notes.append(f"stage length-to-diameter {float(geo.length_to_diameter):.1f} is slender "
                          "(above 20); check bending loads or choose a larger diameter.")
