@@ -97,6 +97,17 @@ def print_result(result, console=None, *, caution: bool = True) -> None:
         for row in rows:
             t.add_row(*map(escape, row))
         con.print(t)
+        from .report.tables import hardware_table
+
+        hw_header, hw_rows = hardware_table(result)
+        if hw_rows:
+            t = Table(title="Stage hardware from the stage model (structural coefficient above is its output)",
+                      title_justify="left")
+            for i, h in enumerate(hw_header):
+                t.add_column(escape(h), justify="left" if i == 0 else "right", no_wrap=True)
+            for row in hw_rows:
+                t.add_row(*map(escape, row))
+            con.print(t)
     if result.constraints:
         obj = {"gross_mass": "gross mass", "payload_mass": "payload", "delta_v": "delta-v"}.get(
             result.solve_for, result.solve_for)

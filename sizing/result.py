@@ -55,6 +55,24 @@ class StageResult:
     delta_v_m_s: float
     delta_v_share: float
     contributes: bool = True
+    # stage model (present when the stage names a propellant; see sizing.physics.stage_model)
+    propellant: str | None = None
+    fuel_mass_kg: float | None = None
+    oxidiser_mass_kg: float | None = None
+    fuel_volume_m3: float | None = None
+    oxidiser_volume_m3: float | None = None
+    fuel_tank_length_m: float | None = None
+    oxidiser_tank_length_m: float | None = None
+    stage_length_m: float | None = None
+    diameter_m: float | None = None
+    length_to_diameter: float | None = None
+    engine_count: int | None = None
+    engine_mass_kg: float | None = None
+    thrust_vac_n: float | None = None
+    thrust_to_weight: float | None = None
+    burn_time_s: float | None = None
+    gravity_loss_m_s: float | None = None
+    mass_breakdown_kg: Mapping[str, float] | None = None
 
 
 @dataclass(frozen=True, slots=True)
@@ -150,7 +168,12 @@ class SizingResult:
         """One row per stage, columns named by their unit-suffixed field names."""
         import pandas as pd
 
-        rows = [asdict(s) for s in self.stages]
+        rows = []
+        for s in self.stages:
+            row = asdict(s)
+            items = row.pop("mass_breakdown_kg", None) or {}
+            row.update({f"{k}_mass_kg": v for k, v in items.items()})  # flat: one column per mass item
+            rows.append(row)
         frame = pd.DataFrame(rows)
         if not frame.empty:
             frame = frame.set_index("name")

@@ -45,6 +45,9 @@ SI_UNITS: dict[str, str] = {
     "acceleration": "m/s**2",
     "impulse": "N*s",
     "density": "kg/m**3",
+    "temperature": "K",
+    "mass_per_length": "kg/m",
+    "mass_per_area": "kg/m**2",
     "angle": "deg",
     "dimensionless": "",
 }

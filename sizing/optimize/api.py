@@ -51,6 +51,18 @@ DESIGN_MASSES_NOTE = ("the stage masses given in the file are not used by `sizin
 
 
 def _dispatch(problem: Problem, m: str) -> SizingResult:
+    if problem.has_stage_models and not problem.is_flight_target:
+        from ._stage_nlp import MSG_MODEL_METHOD, solve_stage_models, with_stage_hardware
+
+        if any(s.has_mass_model for s in problem.stages):
+            if m in ("lagrange", "cvxpy"):
+                raise ValueError(f"method {m!r} {MSG_MODEL_METHOD} 'slsqp' (or 'auto').")
+            return solve_stage_models(problem)
+        return with_stage_hardware(problem, _dispatch_fixed(problem, m))
+    return _dispatch_fixed(problem, m)
+
+
+def _dispatch_fixed(problem: Problem, m: str) -> SizingResult:
     if problem.is_flight_target:
         from .flight_problem import solve_flight_problem
 

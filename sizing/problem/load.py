@@ -7,6 +7,7 @@ All faults in a file are collected and raised together as one
 from __future__ import annotations
 
 import difflib
+import math
 import tomllib
 from pathlib import Path
 from typing import Any, Mapping
@@ -24,7 +25,17 @@ from ..errors import (
 )
 from ..units import G0_M_S2, to_si
 from .model import LaunchDef, Problem, SolveFor, StageDef
-from .schema import LaunchTable, MissionTable, ProblemFile, SolverTable, StageTable
+from .schema import (
+    LaunchTable,
+    MaterialEntryTable,
+    MissionTable,
+    ProblemFile,
+    PropellantEntryTable,
+    SolverTable,
+    StageTable,
+    StructureTable,
+)
+from .stage_load import property_tables, stage_model_fields
 
 __all__ = ["load_problem", "problem_from_dict", "read_toml", "render_validation_error"]
 
@@ -33,6 +44,9 @@ _TABLES: dict[str, type[BaseModel]] = {
     "stage": StageTable,
     "solver": SolverTable,
     "launch": LaunchTable,
+    "structure": StructureTable,
+    "propellant_table": PropellantEntryTable,
+    "material_table": MaterialEntryTable,
 }
 
 
@@ -237,6 +251,7 @@ def problem_from_dict(data: Mapping[str, Any], *, source: str = "<dict>") -> Pro
     cap = col.quantity("mission.max_gross_mass", m.max_gross_mass, "mass", lo=0.0)
     tol_m = col.quantity("mission.target_tolerance", m.target_tolerance, "length", lo=0.0)
     amax = col.quantity("mission.max_acceleration", m.max_acceleration, "acceleration", lo=0.0)
+    propellants, materials = property_tables(col, pf)
 
     targets = [k for k, v in (("delta_v", m.delta_v), ("apogee", m.apogee),
                               ("orbit_altitude", m.orbit_altitude)) if v is not None]
@@ -287,7 +302,7 @@ def problem_from_dict(data: Mapping[str, Any], *, source: str = "<dict>") -> Pro
         if name in names:
             col.fault(f"{where}.name: stage names must be unique. Got {name!r} twice.")
         names.add(name)
-        if st.isp is None and st.exhaust_velocity is None:
+        if st.isp is None and st.exhaust_velocity is None and st.propellant is None:
             col.fault(f"{where}: {MSG_ISP_OR_VE_REQUIRED}.")
             c = None
         elif st.isp is not None and st.exhaust_velocity is not None:
@@ -299,7 +314,9 @@ def problem_from_dict(data: Mapping[str, Any], *, source: str = "<dict>") -> Pro
         else:
             c = col.quantity(f"{where}.exhaust_velocity", st.exhaust_velocity, "velocity", lo=0.0,
                              allowed="must be > 0 m/s")
-        if st.structural_coefficient is None:
+        if st.structure is not None:
+            eps = math.nan  # an output of the stage mass model
+        elif st.structural_coefficient is None:
             col.fault(f"{where}.structural_coefficient: {MSG_MISSING_KEY}; it is m_s/(m_s+m_p), in (0, 1).")
             eps = None
         else:
@@ -353,6 +370,16 @@ def problem_from_dict(data: Mapping[str, Any], *, source: str = "<dict>") -> Pro
         ms = col.quantity(f"{where}.structural_mass", st.structural_mass, "mass", lo=0.0)
         cpk = col.quantity(f"{where}.cost_per_dry_kg", st.cost_per_dry_kg, "dimensionless", lo=0.0, lo_open=False)
         cfx = col.quantity(f"{where}.cost_fixed", st.cost_fixed, "dimensionless", lo=0.0, lo_open=False)
+        extras = stage_model_fields(
+            col, where, st, index=i, n_stages=len(pf.stage), propellants=propellants, materials=materials,
+            dia=dia, tw=tw, thrust=thrust, has_eps=st.structural_coefficient is not None,
+            flight_target=apogee is not None or orbit is not None)
+        table_isp = extras.pop("isp_s", None)
+        if c is None and table_isp is not None and st.isp is None and st.exhaust_velocity is None:
+            c = table_isp * g0
+        table_isp_sl = extras.pop("isp_sea_level_s", None)
+        if isp_sl is None:
+            isp_sl = table_isp_sl
         if c is None or eps is None:
             continue
         stages.append(StageDef(
@@ -362,6 +389,7 @@ def problem_from_dict(data: Mapping[str, Any], *, source: str = "<dict>") -> Pro
             thrust_to_weight=tw, thrust_n=thrust, diameter_m=dia, nozzle_exit_area_m2=ae,
             drag_mach=mach, drag_cd=cd, coast_before_ignition_s=coast,
             propellant_mass_kg=mp, structural_mass_kg=ms, cost_per_dry_kg=cpk, cost_fixed=cfx,
+            **extras,
         ))
 
     smin_sum = sum(s.min_delta_v_share or 0.0 for s in stages)

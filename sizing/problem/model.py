@@ -42,6 +42,20 @@ class StageDef:
     structural_mass_kg: float | None = None
     cost_per_dry_kg: float | None = None
     cost_fixed: float | None = None
+    # stage model (sizing.physics.propellants / stage_model); None for a fixed structural coefficient
+    propellant: Any = None  # sizing.physics.propellants.Propellant
+    mass_model: Any = None  # sizing.physics.stage_model.StageMassModel
+    engine_count: int | None = None
+    chamber_pressure_pa: float | None = None
+    expansion_ratio: float | None = None
+    min_thrust_to_weight: float | None = None
+    max_thrust_to_weight: float | None = None
+    gravity_loss_factor: float | None = None
+
+    @property
+    def has_mass_model(self) -> bool:
+        """True when the structural mass comes from the stage model (structural coefficient is an output)."""
+        return self.mass_model is not None
 
     @property
     def has_constraints(self) -> bool:
@@ -116,6 +130,11 @@ class Problem:
     def has_constraints(self) -> bool:
         """True when a cap or per-stage limit is set."""
         return self.max_gross_mass_kg is not None or any(s.has_constraints for s in self.stages)
+
+    @property
+    def has_stage_models(self) -> bool:
+        """True when any stage has a propellant or a mass model (sized by the stage-model NLP)."""
+        return any(s.mass_model is not None or s.propellant is not None for s in self.stages)
 
     @property
     def is_flight_target(self) -> bool:

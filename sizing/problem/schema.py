@@ -11,7 +11,8 @@ from typing import Literal, Union
 
 from pydantic import BaseModel, ConfigDict, Field, StrictFloat, StrictInt, StrictStr
 
-__all__ = ["MissionTable", "StageTable", "SolverTable", "LaunchTable", "ProblemFile", "Quantity"]
+__all__ = ["MissionTable", "StageTable", "SolverTable", "LaunchTable", "ProblemFile", "Quantity",
+           "StructureTable", "PropellantEntryTable", "MaterialEntryTable"]
 
 #: A plain number (SI) or a string with its unit, e.g. "11000 lb".
 Quantity = Union[StrictFloat, StrictInt, StrictStr]
@@ -37,6 +38,62 @@ class MissionTable(_Strict):
     target_tolerance: Quantity | None = None  # m: apogee error, or error of the far apsis altitude for orbits
     max_acceleration: Quantity | None = None  # m/s^2, review limit
     notes: str | None = None
+
+
+class StructureTable(_Strict):
+    """[stage.structure]: the stage mass model (structural mass from propellant mass and thrust)."""
+
+    kind: Literal["liquid", "solid", "hybrid", "hobby"] | None = None  # default: the propellant's kind
+    ullage: Quantity | None = None  # - , tank volume above the propellant
+    dome_aspect: Quantity | None = None  # - , head depth / radius
+    tank: Literal["per_volume", "pressure_vessel"] | None = None
+    fuel_tank_mass_per_volume: Quantity | None = None  # kg/m^3
+    oxidiser_tank_mass_per_volume: Quantity | None = None  # kg/m^3
+    tank_pressure: Quantity | None = None  # Pa, MEOP of liquid tanks
+    material: StrictStr | None = None  # name in the material table
+    safety_factor: Quantity | None = None  # - , burst / MEOP
+    min_wall_thickness: Quantity | None = None  # m
+    fuel_insulation: Quantity | None = None  # kg/m^2
+    oxidiser_insulation: Quantity | None = None  # kg/m^2
+    engine_thrust_to_weight: Quantity | None = None  # - , per engine
+    interstage_length: Quantity | None = None  # m
+    extra_length: Quantity | None = None  # m
+    loading_fraction: Quantity | None = None  # - , solid grain / case volume
+    tube_mass_per_length: Quantity | None = None  # kg/m
+    avionics: bool | None = None  # use the avionics and wiring MERs
+    fixed: dict[str, Quantity] | None = None  # item -> kg
+
+
+class PropellantEntryTable(_Strict):
+    """[propellant_table.NAME]: a propellant added to (or replacing) the shipped table."""
+
+    like: StrictStr | None = None  # start from this shipped entry
+    kind: Literal["liquid", "solid", "hybrid"] | None = None
+    description: str | None = None
+    fuel: str | None = None
+    oxidiser: str | None = None
+    fuel_density: Quantity | None = None  # kg/m^3
+    oxidiser_density: Quantity | None = None  # kg/m^3
+    fuel_temperature: Quantity | None = None  # K
+    oxidiser_temperature: Quantity | None = None  # K
+    mixture_ratio: Quantity | None = None  # - , oxidiser / fuel
+    chamber_pressure: Quantity | None = None  # Pa
+    expansion_ratio: Quantity | None = None  # -
+    isp_vac: Quantity | None = None  # s
+    isp_sea_level: Quantity | None = None  # s
+    characteristic_velocity: Quantity | None = None  # m/s
+    gamma: Quantity | None = None  # -
+    source: str | None = None
+
+
+class MaterialEntryTable(_Strict):
+    """[material_table.NAME]: a structural material added to (or replacing) the shipped table."""
+
+    description: str | None = None
+    density: Quantity  # kg/m^3
+    yield_strength: Quantity  # Pa
+    ultimate_strength: Quantity  # Pa
+    source: str | None = None
 
 
 class StageTable(_Strict):
@@ -65,6 +122,15 @@ class StageTable(_Strict):
     structural_mass: Quantity | None = None  # kg
     cost_per_dry_kg: Quantity | None = None  # currency per kg, for studies
     cost_fixed: Quantity | None = None  # currency per stage, for studies
+    # stage model (propellant table, tanks, engines, structure)
+    propellant: StrictStr | None = None  # name in the propellant table
+    engine_count: StrictInt | None = None
+    chamber_pressure: Quantity | None = None  # Pa
+    expansion_ratio: Quantity | None = None  # -
+    min_thrust_to_weight: Quantity | None = None  # - , T/W as a design variable
+    max_thrust_to_weight: Quantity | None = None  # -
+    gravity_loss_factor: Quantity | None = None  # - , mean sine of the flight-path angle in the burn
+    structure: StructureTable | None = None
 
 
 class SolverTable(_Strict):
@@ -97,3 +163,5 @@ class ProblemFile(_Strict):
     stage: list[StageTable] = Field(min_length=1)
     solver: SolverTable = SolverTable()
     launch: LaunchTable | None = None
+    propellant_table: dict[str, PropellantEntryTable] | None = None
+    material_table: dict[str, MaterialEntryTable] | None = None

@@ -6,7 +6,14 @@ import json
 from pathlib import Path
 
 from ..result import CAUTION, SizingResult
-from .tables import STAGE_COLUMNS, TRADE_FACTOR_HEADER, limit_text, result_markdown, trade_factor_rows
+from .tables import (
+    HARDWARE_QUANTITIES,
+    STAGE_COLUMNS,
+    TRADE_FACTOR_HEADER,
+    limit_text,
+    result_markdown,
+    trade_factor_rows,
+)
 
 __all__ = ["EXPORT_FORMATS", "write_stage_table", "result_json"]
 
@@ -82,6 +89,12 @@ def _write_csv(result: SizingResult, p: Path) -> None:
                   "structural_mass_kg": sum(s.structural_mass_kg for s in result.stages),
                   "payload_ratio": result.payload_fraction, "delta_v_m_s": result.delta_v_m_s}
         w.writerow([totals.get(f, "") for f, _h, _s in STAGE_COLUMNS])
+        hw = _hardware_records(result)
+        if hw:
+            w.writerow([])
+            w.writerow(["stage hardware (stage model)"] + [s.name for s in result.stages])
+            for label, values in hw:
+                w.writerow([label] + ["" if v is None else v for v in values])
         w.writerow([])
         w.writerow(["payload mass [kg]", result.payload_mass_kg])
         w.writerow(["gross mass [kg]", result.gross_mass_kg])
@@ -106,6 +119,11 @@ def _write_xlsx(result: SizingResult, p: Path) -> None:
                            "binding": c.binding, "sensitivity": c.sensitivity,
                            "sensitivity unit": c.sensitivity_unit} for c in result.constraints]
                          ).to_excel(xw, sheet_name="design limits", index=False)
+        hw = _hardware_records(result)
+        if hw:
+            pd.DataFrame([[label] + list(values) for label, values in hw],
+                         columns=["quantity [unit]"] + [s.name for s in result.stages]
+                         ).to_excel(xw, sheet_name="stage hardware", index=False)
         info = [("problem", result.problem_name), ("status", str(result.status)),
                 ("message", result.message), ("method", result.method),
                 ("payload mass [kg]", result.payload_mass_kg), ("gross mass [kg]", result.gross_mass_kg),
@@ -113,3 +131,20 @@ def _write_xlsx(result: SizingResult, p: Path) -> None:
         info += [("review note", w) for w in result.warnings]
         pd.DataFrame(info, columns=["item", "value"]).to_excel(xw, sheet_name="summary", index=False)
 
+
+
+def _hardware_records(result: SizingResult) -> list[tuple[str, list]]:
+    """(label with unit, value per stage) of the stage-model quantities and mass breakdown (numbers unformatted)."""
+    if not any(s.propellant for s in result.stages):
+        return []
+    out = []
+    for f, label, _spec in HARDWARE_QUANTITIES:
+        values = [getattr(s, f) for s in result.stages]
+        if any(v is not None for v in values):
+            out.append((label, values))
+    items: list[str] = []
+    for s in result.stages:
+        items += [k for k in (s.mass_breakdown_kg or {}) if k not in items]
+    for k in items:
+        out.append((f"mass: {k.replace('_', ' ')} [kg]", [(s.mass_breakdown_kg or {}).get(k) for s in result.stages]))
+    return out

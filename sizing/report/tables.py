@@ -7,7 +7,7 @@ from typing import Any, Sequence
 
 from ..result import CAUTION, SizingResult
 
-__all__ = ["TRADE_FACTOR_HEADER", "limit_text", "limit_value_text", "limit_step", "STAGE_COLUMNS", "FLIGHT_QUANTITIES", "flight_summary_rows", "stage_rows", "stage_columns_table", "total_row", "trade_factor_rows",
+__all__ = ["HARDWARE_QUANTITIES", "hardware_table", "TRADE_FACTOR_HEADER", "limit_text", "limit_value_text", "limit_step", "STAGE_COLUMNS", "FLIGHT_QUANTITIES", "flight_summary_rows", "stage_rows", "stage_columns_table", "total_row", "trade_factor_rows",
            "stage_table_markdown", "result_markdown"]
 
 #: (field, header with unit, format) for each column of the stage mass table.
@@ -173,6 +173,9 @@ def result_markdown(result: SizingResult, *, title: str | None = None) -> str:
              f"Method: {result.method}; solving for {result.solve_for}.", ""]
     if result.success:
         parts += [stage_table_markdown(result), ""]
+        hw_header, hw_rows = hardware_table(result)
+        if hw_rows:
+            parts += ["### Stage hardware (stage model)", "", _md_table(hw_header, hw_rows), ""]
     if result.constraints:
         parts += ["### Design limits", "",
                   _md_table(["limit", "allowed", "at optimum", "binding", "sensitivity", "unit"],
@@ -221,3 +224,53 @@ def flight_summary_rows(result: SizingResult) -> list[list[str]]:
         if isinstance(v, (int, float)):
             rows.append([f"{k} loss", _fmt(float(v), ",.1f"), "m/s"])
     return rows
+
+
+#: (StageResult field, label with unit, format) of the stage hardware table (stage model results).
+HARDWARE_QUANTITIES: tuple[tuple[str, str, str], ...] = (
+    ("propellant", "propellant", "s"),
+    ("fuel_mass_kg", "fuel mass [kg]", "mass"),
+    ("oxidiser_mass_kg", "oxidiser mass [kg]", "mass"),
+    ("fuel_volume_m3", "fuel tank volume [m^3]", ".3f"),
+    ("oxidiser_volume_m3", "oxidiser tank volume [m^3]", ".3f"),
+    ("fuel_tank_length_m", "fuel tank length [m]", ".3f"),
+    ("oxidiser_tank_length_m", "oxidiser tank length [m]", ".3f"),
+    ("diameter_m", "diameter [m]", ".3f"),
+    ("stage_length_m", "stage length [m]", ".3f"),
+    ("length_to_diameter", "length / diameter [-]", ".2f"),
+    ("engine_count", "engine count [-]", "d"),
+    ("engine_mass_kg", "engine mass, all engines [kg]", "mass"),
+    ("thrust_vac_n", "vacuum thrust [N]", ",.0f"),
+    ("thrust_to_weight", "thrust-to-weight at ignition [-]", ".3f"),
+    ("burn_time_s", "burn time [s]", ".1f"),
+    ("gravity_loss_m_s", "estimated gravity loss [m/s]", ",.1f"),
+)
+
+
+def hardware_table(result: SizingResult) -> tuple[list[str], list[list[str]]]:
+    """Propellant split, tanks, lengths, engines and mass breakdown, one column per stage.
+
+    Empty rows are left out; returns ([], []) when no stage names a propellant.
+    Header and rows as in `stage_columns_table`.
+    """
+    stages = result.stages
+    if not any(getattr(s, "propellant", None) for s in stages):
+        return [], []
+    header = ["quantity [unit]"] + [s.name for s in stages]
+    rows = []
+    for f, label, spec in HARDWARE_QUANTITIES:
+        vals = [getattr(s, f) for s in stages]
+        if all(v is None for v in vals):
+            continue
+        rows.append([label] + [_fmt(v, spec) for v in vals])
+    items: list[str] = []
+    for s in stages:
+        for k in (s.mass_breakdown_kg or {}):
+            if k not in items:
+                items.append(k)
+    for k in items:
+        vals = [(s.mass_breakdown_kg or {}).get(k) for s in stages]
+        if all(not v for v in vals):
+            continue
+        rows.append([f"mass: {k.replace('_', ' ')} [kg]"] + [_fmt(v, "mass") for v in vals])
+    return header, rows

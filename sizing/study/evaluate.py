@@ -154,7 +154,9 @@ def result_metrics(result: Mapping[str, Any], problem, inputs: Mapping[str, Any]
     wanted = {o.metric for o in ctx.objectives} | {b.metric for b in ctx.bounds}
     if any(w.startswith("stage.") for w in wanted):
         for st in stages:
-            for q in ("ignition_mass_kg", "propellant_mass_kg", "structural_mass_kg", "delta_v_m_s"):
+            for q in ("ignition_mass_kg", "propellant_mass_kg", "structural_mass_kg", "delta_v_m_s",
+                      "structural_coefficient", "stage_length_m", "length_to_diameter", "engine_mass_kg",
+                      "thrust_to_weight", "burn_time_s"):
                 key = f"stage.{st.get('name')}.{q}"
                 if key in wanted and _num(st.get(q)):
                     m[key] = float(st[q])
@@ -258,7 +260,8 @@ def is_batch_eligible(problem) -> bool:
     """True for a minimum-gross-mass, ideal delta-v problem without limits (batch solver)."""
     return (str(problem.solve_for) == "gross_mass" and problem.delta_v_m_s is not None
             and not problem.is_flight_target and not problem.has_constraints
-            and problem.method in ("auto", "lagrange"))
+            and problem.method in ("auto", "lagrange")
+            and not getattr(problem, "has_stage_models", False))
 
 
 def _evaluate_batch(cases: Sequence[Mapping[str, Any]], ctx: EvalContext,

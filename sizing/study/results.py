@@ -45,7 +45,7 @@ def field_unit(field: str) -> str:
 #: Unit-suffix -> unit shown in brackets, longest suffix first.
 _SUFFIX_UNITS = (
     ("_kg_per_m_s", "kg/(m/s)"), ("_m_s2", "m/s^2"), ("_m_s", "m/s"), ("_kg", "kg"),
-    ("_pa", "Pa"), ("_deg", "deg"), ("_m2", "m^2"), ("_n", "N"), ("_m", "m"), ("_s", "s"),
+    ("_pa", "Pa"), ("_deg", "deg"), ("_m3", "m^3"), ("_m2", "m^2"), ("_n", "N"), ("_m", "m"), ("_s", "s"),
 )
 
 
@@ -151,6 +151,9 @@ class StudyResults:
             for k in r["metrics"]:
                 if "." not in k and k not in metric_names:
                     metric_names.append(k)
+        # stage-model quantities (tank lengths, engines...) only where some case has them
+        model_cols = tuple(q for q in _STAGE_MODEL_COLUMNS if any(
+            s.get(q) is not None for r in src for s in (r.get("result") or {}).get("stages", []) or []))
         records = []
         for r in src:
             rec: dict[str, Any] = {"case_id": r["case_id"], "status": r["status"],
@@ -162,7 +165,7 @@ class StudyResults:
             by_name = {s.get("name"): s for s in (r.get("result") or {}).get("stages", []) or []}
             for n in stage_names:
                 s = by_name.get(n, {})
-                for q in _STAGE_COLUMNS:
+                for q in _STAGE_COLUMNS + model_cols:
                     rec[column_label(f"{n}.{q}")] = s.get(q)
             rec["message"] = r["message"]
             rec["elapsed [s]"] = r["elapsed_s"]
@@ -171,6 +174,10 @@ class StudyResults:
 
 
 _STAGE_COLUMNS = ("ignition_mass_kg", "propellant_mass_kg", "structural_mass_kg", "delta_v_m_s")
+#: Stage-model outputs added per stage when a case has them (see sizing.result.StageResult).
+_STAGE_MODEL_COLUMNS = ("structural_coefficient", "fuel_mass_kg", "oxidiser_mass_kg", "fuel_volume_m3",
+                        "oxidiser_volume_m3", "stage_length_m", "length_to_diameter", "engine_count",
+                        "engine_mass_kg", "thrust_to_weight", "burn_time_s", "gravity_loss_m_s")
 
 
 def study_input_units(study: Study) -> dict[str, str]:

@@ -52,7 +52,8 @@ __all__ = [
 
 MSG_AXIS_FORM = "give exactly one of: values = [...]; start, stop, num; low, high"
 MSG_UNKNOWN_STAGE = "no stage of that name in the base problem"
-MSG_FIELD_PATH = "must be 'TABLE.key' or 'stage.NAME.key' (NAME may be '*' for every stage)"
+MSG_FIELD_PATH = ("must be 'TABLE.key', 'stage.NAME.key' or 'stage.NAME.structure.key' "
+                  "(NAME may be '*' for every stage)")
 MSG_UNKNOWN_PROPELLANT = "is not in the [propellants] table"
 MSG_SAMPLED_NEEDS_METHOD = "low/high axes need [study].design = 'lhs' or 'sobol', or levels = n for 'grid'"
 
@@ -93,6 +94,9 @@ FIELD_UNITS = {
     "rail_length": "m", "rail_angle": "deg", "pitch_kick": "deg", "vertical_rise_time": "s",
     "staging_delay": "s", "payload_diameter": "m", "stage_count": "-",
     "max_iterations": "-", "tolerance": "-",
+    "propellant": "name", "engine_count": "-", "chamber_pressure": "Pa", "expansion_ratio": "-",
+    "min_thrust_to_weight": "-", "max_thrust_to_weight": "-", "gravity_loss_factor": "-",
+    "material": "name", "tank_pressure": "Pa", "interstage_length": "m", "extra_length": "m",
 }
 
 
@@ -542,6 +546,7 @@ def study_from_dict(data: Mapping[str, Any], *, source: str = "<dict>",
         parts = ax.field.split(".")
         ok = len(parts) == 2 and parts[0] in _ALLOWED_TABLES and parts[0] != "stage"
         ok = ok or (len(parts) == 3 and parts[0] == "stage")
+        ok = ok or (len(parts) == 4 and parts[0] == "stage" and parts[2] == "structure")  # stage model keys
         if not ok or not all(parts):
             faults.append(f"{where}: {MSG_FIELD_PATH}; TABLE is one of "
                           f"{', '.join(_ALLOWED_TABLES)}. Got {ax.field!r}.")
@@ -736,7 +741,9 @@ def apply_case(study: Study, inputs: Mapping[str, Any]) -> dict[str, Any]:
         if parts[0] == "stage":
             targets = list(by_name.values()) if parts[1] == "*" else [by_name.get(parts[1])]
             for st in targets:
-                if st is not None:
+                if st is not None and len(parts) == 4:  # stage.NAME.structure.KEY
+                    st.setdefault(parts[2], {})[parts[3]] = value
+                elif st is not None:
                     st[parts[2]] = value
         else:
             data.setdefault(parts[0], {})[parts[1]] = value
