@@ -298,8 +298,11 @@ def _append_csv_section(result, path: Path) -> None:
 
 
 def _add_xlsx_sheets(result, path: Path) -> None:
-    """Add a sheet of the chosen motors or water settings (with extras and the caution) to an XLSX."""
+    """Add a sheet of the chosen motors or water settings, with the hobby checks (limits,
+    search, caution) below, to an XLSX, laid out like the others (frozen header, number formats)."""
     from openpyxl import load_workbook
+
+    from .report.xlsx import column_format, format_sheet
 
     title, header, rows = hobby_export_table(result)
     wb = load_workbook(path)
@@ -307,10 +310,15 @@ def _add_xlsx_sheets(result, path: Path) -> None:
     ws.append(header)
     for r in rows:
         ws.append(r)
+    format_sheet(ws, last_row=1 + len(rows))
     ws.append([])
     ws.append(_EXTRAS_HEADER)
     for r in _export_extras(result):
         ws.append(r)
+        cell = ws.cell(row=ws.max_row, column=2)
+        fmt = column_format([cell.value])
+        if fmt is not None:  # one quantity per row: each value its own format
+            cell.number_format = fmt
     wb.save(path)
 
 
@@ -362,12 +370,16 @@ def run_hobby(args) -> int:
         if not result.success:
             error_line(f"--out {out}: not written, no stack or design reaches the target.")
         else:
-            path = write_stage_table(result, out)
-            ext = path.suffix.lower()
-            if ext == ".md":
-                with path.open("a", encoding="utf-8") as fh:
-                    fh.write("\n" + _markdown_section(result))
-            elif ext == ".csv":
+            ext = out.suffix.lower()
+            if ext == ".md":  # one caution, last: the hobby one holds every element of the general one
+                from .report.tables import result_markdown
+
+                out.write_text(result_markdown(result, caution=caution_text(result),
+                                               extra=_markdown_section(result)), encoding="utf-8")
+                path = out
+            else:
+                path = write_stage_table(result, out)
+            if ext == ".csv":
                 _append_csv_section(result, path)
             elif ext == ".xlsx":
                 _add_xlsx_sheets(result, path)

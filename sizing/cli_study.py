@@ -97,8 +97,9 @@ def _progress_bar(quiet: bool):
 
 def cmd_study(args: argparse.Namespace) -> int:
     """Run `sizing study`; returns the exit code (see the module docstring)."""
-    from rich.console import Console
     from rich.markup import escape
+
+    from .cli import _console
     from rich.table import Table
 
     from .errors import SizingError
@@ -138,7 +139,7 @@ def cmd_study(args: argparse.Namespace) -> int:
     except (OSError, ValueError, RuntimeError) as exc:
         _err(f"{type(exc).__name__}: {exc}" if isinstance(exc, RuntimeError) else str(exc))
         return 2
-    con = Console(highlight=False)
+    con = _console()
     if summary.interrupted:
         _err(f"interrupted after {summary.ran} new cases; {sum(summary.counts.values())} of "
              f"{summary.total} are stored in {out}. Run the same command again to resume.")
@@ -176,14 +177,15 @@ def cmd_study(args: argparse.Namespace) -> int:
 
 def cmd_report(args: argparse.Namespace) -> int:
     """Run `sizing report`; returns the exit code."""
-    from rich.console import Console
     from rich.markup import escape
+
+    from .cli import _console
 
     from .errors import SizingError
     from .result import CAUTION
     from .study.results import write_outputs, write_review_pack
 
-    con = Console(highlight=False)
+    con = _console()
     try:
         if args.case is not None:
             path = write_review_pack(args.folder, args.case, args.pack_dir)

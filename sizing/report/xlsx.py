@@ -45,7 +45,8 @@ def column_format(values: Sequence[Any]) -> str | None:
     return head + ("." + "0" * decimals if decimals else "")
 
 
-def format_sheet(ws, *, header_row: int = 1, last_row: int | None = None) -> None:
+def format_sheet(ws, *, header_row: int = 1, last_row: int | None = None,
+                 per_cell: tuple[int, ...] = ()) -> None:
     """Freeze the header row, bold it, format each numeric column and size the columns.
 
     Parameters
@@ -55,6 +56,9 @@ def format_sheet(ws, *, header_row: int = 1, last_row: int | None = None) -> Non
         Row of the column headers (1-based); rows below it are data.
     last_row : int, optional
         Last data row formatted (default: the sheet's last row).
+    per_cell : tuple of int
+        Columns (1-based) whose rows hold different quantities (a value column of
+        quantity / value / unit rows): each cell gets its own format.
     """
     from openpyxl.styles import Alignment, Font
     from openpyxl.utils import get_column_letter
@@ -66,7 +70,14 @@ def format_sheet(ws, *, header_row: int = 1, last_row: int | None = None) -> Non
         cell.alignment = Alignment(wrap_text=True, vertical="top")
     for col in range(1, ws.max_column + 1):
         cells = [ws.cell(row=r, column=col) for r in range(header_row + 1, last + 1)]
-        fmt = column_format([c.value for c in cells])
+        if col in per_cell:
+            for c in cells:
+                f = column_format([c.value])
+                if f is not None:
+                    c.number_format = f
+            fmt = None
+        else:
+            fmt = column_format([c.value for c in cells])
         if fmt is not None:
             for c in cells:
                 if isinstance(c.value, (int, float)) and not isinstance(c.value, bool):

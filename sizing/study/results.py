@@ -444,6 +444,6 @@ def write_review_pack(folder: str | Path, case_id: int, out_dir: str | Path | No
     for k, v in row["metrics"].items():
         if "." not in k:
             lines.append(f"| {column_label(k, cost_unit=study.cost_unit)} | {v:,.6g} |")
-    lines += ["", result_markdown(result, title=f"{study.name}, case {case_id}")]
+    lines += ["", result_markdown(result, title=f"{study.name}, case {case_id}", caution=None)]
     (out / "review.md").write_text("\n".join(lines) + "\n", encoding="utf-8")
     return out
