@@ -33,12 +33,14 @@ def register(subparsers) -> None:
     p.add_argument("file", type=Path, help="study file (TOML)")
     p.add_argument("--out", type=Path, default=None,
                    help="output folder (default: runs/<study file name>)")
-    p.add_argument("--engine", choices=("local", "dask", "serial"), default="local",
-                   help="local worker processes (default), a Dask cluster, or this process only")
+    p.add_argument("--engine", choices=("local", "dask", "serial"), default=None,
+                   help="local worker processes (default), a Dask cluster (with --scheduler, or a "
+                        "local one started for the run), or this process only")
     p.add_argument("--workers", type=int, default=None,
-                   help="local worker processes (default: all cores)")
+                   help="worker processes of the local engine or of a local Dask cluster "
+                        "(default: all cores)")
     p.add_argument("--scheduler", default=None,
-                   help="Dask scheduler address for --engine dask, e.g. tcp://host:8786")
+                   help="Dask scheduler address, e.g. tcp://host:8786 (implies --engine dask)")
     p.add_argument("--restart", action="store_true",
                    help="discard results already in the output folder and start over")
     p.add_argument("--no-report", action="store_true", help="do not write report.html at the end")
@@ -61,6 +63,10 @@ def _err(text: str) -> None:
     for line in str(text).splitlines():
         if line.strip():
             print(f"error: {line.strip()}", file=sys.stderr)
+
+
+def _note(text: str) -> None:
+    print(text, file=sys.stderr)
 
 
 def progress_text(counts: dict[str, int]) -> str:
@@ -110,12 +116,10 @@ def cmd_study(args: argparse.Namespace) -> int:
     if args.workers is not None and args.workers < 1:
         _err(f"--workers: must be >= 1. Got {args.workers}.")
         return 2
-    if args.engine == "dask" and not args.scheduler:
-        _err("--scheduler: required with --engine dask, e.g. --scheduler tcp://host:8786.")
-        return 2
-    if args.scheduler and args.engine != "dask":
+    if args.scheduler and args.engine not in (None, "dask"):
         _err(f"--scheduler: only used with --engine dask. Got --engine {args.engine}.")
         return 2
+    engine = args.engine or ("dask" if args.scheduler else "local")
     out = args.out or Path("runs") / args.file.stem
     try:
         study = load_study(args.file)
@@ -127,9 +131,10 @@ def cmd_study(args: argparse.Namespace) -> int:
         if prog is not None:
             prog.start()
         try:
-            summary = run_study(study, out, engine=args.engine, workers=args.workers,
+            summary = run_study(study, out, engine=engine, workers=args.workers,
                                 scheduler=args.scheduler, restart=args.restart,
-                                on_progress=update, write_outputs=not args.no_report)
+                                on_progress=update, write_outputs=not args.no_report,
+                                on_message=_note if prog is None else (lambda t: prog.console.print(escape(t))))
         finally:
             if prog is not None:
                 prog.stop()
