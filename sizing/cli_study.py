@@ -84,14 +84,14 @@ def _progress_bar(quiet: bool):
     """A rich progress bar (cases done, outcomes per kind, rate, ETA) and its update callback."""
     if quiet:
         return None, None
-    from rich.console import Console
+    from .cli import _console
     from rich.progress import BarColumn, MofNCompleteColumn, Progress, TextColumn, TimeRemainingColumn
 
     prog = Progress(
         TextColumn("[bold]cases"), BarColumn(), MofNCompleteColumn(),
         TextColumn("{task.fields[outcomes]}"), TextColumn("{task.fields[rate]} /s"),
         TextColumn("ETA"), TimeRemainingColumn(),
-        console=Console(stderr=True), transient=False, refresh_per_second=5)
+        console=_console(stderr=True), transient=False, refresh_per_second=5)
     task = prog.add_task("cases", total=None, outcomes=progress_text({}), rate="-")
 
     def update(p) -> None:
