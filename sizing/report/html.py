@@ -575,11 +575,12 @@ _JS = r"""
   }
   // The first screen (header, front, knee, table) is drawn at once; the plots below it
   // follow one per task, so the page is readable before the slowest (WebGL) plot is done.
+  document.body.dataset.readyMs = String(Math.round(performance.now()));  // since navigation start
   document.body.dataset.ready = "1";
   var later = [selectFirst, drawPairs, drawStack, drawParcoords];
   (function next() {
     var f = later.shift();
-    if (!f) { document.body.dataset.drawn = "1"; return; }
+    if (!f) { document.body.dataset.drawnMs = String(Math.round(performance.now())); document.body.dataset.drawn = "1"; return; }
     f();
     setTimeout(next, 0);
   })();

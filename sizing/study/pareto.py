@@ -5,14 +5,17 @@ objective and a < b in at least one (Pareto dominance). Rank 0 is the
 non-dominated set (the Pareto front); rank k is the front of what is left
 after removing ranks < k ("non-dominated sorting", Deb et al., NSGA-II).
 
-Two objectives are sorted in O(n log n) for all fronts at once: in
-lexicographic order a point can only be dominated by an earlier one, and the
-smallest second objective seen so far in each front is non-decreasing with the
-front number, so a binary search places each point (the sweep of Kung et al.
-[2]; the front bookkeeping is that of Jensen [3] for two objectives). Three or
-more objectives peel one front at a time; each front is found by a blocked,
-vectorised scan in the order of the objective sum (a dominator always has the
-smaller sum), comparing each block with the members found so far.
+Two and three objectives are ranked in one sweep for all fronts at once: in
+lexicographic order a point can only be dominated by an earlier one, and
+whether front k dominates a point is monotone in k, so a binary search over
+the fronts places each point (the sweep of Kung et al. [2]; the front
+bookkeeping of Jensen [3]): O(n log n) for two objectives, where a front is
+summarised by its smallest second objective, and O(n log^2 n) plus staircase
+updates for three, where a front keeps its staircase in the last two
+objectives. Four or more objectives peel one front at a time; each front is
+found by a blocked, vectorised scan in the order of the objective sum (a
+dominator always has the smaller sum), comparing each block with the members
+found so far; the front alone (`pareto_mask`) uses that scan for three too.
 
 References
 ----------
@@ -28,7 +31,7 @@ References
 
 from __future__ import annotations
 
-from bisect import bisect_right
+from bisect import bisect_left, bisect_right
 from collections.abc import Sequence
 
 import numpy as np
@@ -105,6 +108,52 @@ def _ranks_2d(U: np.ndarray, max_rank: int | None) -> np.ndarray:
         else:
             last[k] = y
         out[i] = k if cap < 0 or k < cap else cap
+    return out
+
+
+def _ranks_3d(U: np.ndarray, max_rank: int | None) -> np.ndarray:
+    """All front numbers of distinct rows in lexicographic order (three objectives).
+
+    In lexicographic order an earlier row q dominates a later row p exactly when
+    q2 <= p2 and q3 <= p3. Each front keeps its staircase: the members not
+    dominated in the (2nd, 3rd) projection, sorted by the 2nd objective with the
+    3rd strictly falling, so "does front k dominate p" is one binary search; that
+    condition holds below p's rank and fails from it on, so a second binary
+    search over the fronts finds the rank (the three-objective sweep of [3]).
+    """
+    xs: list[list[float]] = []
+    ys: list[list[float]] = []
+    out = np.empty(U.shape[0], dtype=np.int64)
+    cap = max_rank if max_rank is not None else -1
+
+    def dominated(k: int, y: float, z: float) -> bool:
+        i = bisect_right(xs[k], y) - 1
+        return i >= 0 and ys[k][i] <= z
+
+    for i, (y, z) in enumerate(U[:, 1:3].tolist()):
+        lo, hi = 0, len(xs)
+        while lo < hi:  # first front that does not dominate (y, z)
+            mid = (lo + hi) // 2
+            if dominated(mid, y, z):
+                lo = mid + 1
+            else:
+                hi = mid
+        k = lo
+        if cap >= 0 and k >= cap:
+            out[i] = cap
+            continue
+        out[i] = k
+        if k == len(xs):
+            xs.append([y])
+            ys.append([z])
+            continue
+        X, Y = xs[k], ys[k]
+        j = bisect_left(X, y)
+        e = j
+        while e < len(X) and Y[e] >= z:  # staircase points (y, z) now dominates in projection
+            e += 1
+        X[j:e] = [y]
+        Y[j:e] = [z]
     return out
 
 
@@ -221,6 +270,8 @@ def non_dominated_ranks(F, *, max_rank: int | None = None) -> np.ndarray:
         r = np.minimum(r, max_rank) if max_rank is not None else r
     elif F.shape[1] == 2:
         r = _ranks_2d(U, max_rank)
+    elif F.shape[1] == 3:
+        r = _ranks_3d(U, max_rank)
     else:
         r = np.full(U.shape[0], -1, dtype=np.int64)
         left = _scan_order(U)  # peeling keeps the scan order: sort once
