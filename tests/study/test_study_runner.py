@@ -267,7 +267,7 @@ def test_study_dask_engine_local_cluster(tmp_path, monkeypatch):
     run_study(study, tmp_path / "local", engine="serial", write_outputs=False)
     with dask.config.set({"distributed.scheduler.allowed-failures": 0}):
         with distributed.LocalCluster(n_workers=2, threads_per_worker=1, processes=True,
-                                      host="127.0.0.1", dashboard_address=None) as cluster:
+                                      host="127.0.0.1", dashboard_address="127.0.0.1:0") as cluster:
             with distributed.Client(cluster) as client:
                 summary = run_study(study, tmp_path / "dask", engine="dask", scheduler=client,
                                     case_function=dying_cases, write_outputs=False)
@@ -382,7 +382,7 @@ def test_study_dask_worker_killed_mid_run_loses_no_case(tmp_path, monkeypatch):
 
     out = tmp_path / "dask"
     with distributed.LocalCluster(n_workers=2, threads_per_worker=1, processes=True,
-                                  host="127.0.0.1", dashboard_address=None) as cluster:
+                                  host="127.0.0.1", dashboard_address="127.0.0.1:0") as cluster:
         with distributed.Client(cluster) as client:
             pids = client.run(os.getpid)
             done: dict = {}
