@@ -283,18 +283,13 @@ def _append_csv_section(result, path: Path) -> None:
     """Append the hobby section (chosen motors or water settings, extras, caution) to a CSV."""
     import csv
 
+    from .report.export import write_csv_section
+
     title, header, rows = hobby_export_table(result)
     with path.open("a", newline="", encoding="utf-8") as fh:
         w = csv.writer(fh)
-        w.writerow([])
-        w.writerow([title])
-        w.writerow(header)
-        for r in rows:
-            w.writerow(["" if v is None else v for v in r])
-        w.writerow([])
-        w.writerow(_EXTRAS_HEADER)
-        for r in _export_extras(result):
-            w.writerow(["" if v is None else v for v in r])
+        write_csv_section(w, title, header, rows)
+        write_csv_section(w, None, _EXTRAS_HEADER, _export_extras(result))
 
 
 def _add_xlsx_sheets(result, path: Path) -> None:

@@ -14,7 +14,7 @@ from .tables import (
     trade_factor_values,
 )
 
-__all__ = ["EXPORT_FORMATS", "write_stage_table", "result_json"]
+__all__ = ["EXPORT_FORMATS", "write_stage_table", "result_json", "write_csv_section"]
 
 EXPORT_FORMATS = (".csv", ".md", ".json", ".xlsx")
 
@@ -120,13 +120,19 @@ def _write_csv(result: SizingResult, p: Path) -> None:
         w.writerow(["gross mass [kg]", result.gross_mass_kg])
         w.writerow(["status", str(result.status), result.message])
         for title, header, rows in _section_rows(result):
-            w.writerow([])
-            w.writerow([title])
-            w.writerow(header)
-            for r in rows:
-                w.writerow(["" if v is None else v for v in r])
+            write_csv_section(w, title, header, rows)
         w.writerow([])
         w.writerow(["caution", CAUTION])
+
+
+def write_csv_section(w, title: str | None, header, rows) -> None:
+    """A blank line, a title line (if any), a header line and the rows (None as empty cells)."""
+    w.writerow([])
+    if title:
+        w.writerow([title])
+    w.writerow(list(header))
+    for r in rows:
+        w.writerow(["" if v is None else v for v in r])
 
 
 def _write_xlsx(result: SizingResult, p: Path) -> None:

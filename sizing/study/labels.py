@@ -15,7 +15,7 @@ from typing import Any, Mapping
 from .spec import FIELD_UNITS, Bound, Study
 
 __all__ = ["metric_unit", "metric_words", "metric_label", "input_words", "input_label_words",
-           "bound_text", "si_kind", "SUFFIX_UNITS"]
+           "bound_text", "si_kind", "split_unit", "SUFFIX_UNITS"]
 
 #: Unit suffix of a field name -> unit shown in brackets, longest suffix first.
 SUFFIX_UNITS = (
@@ -52,7 +52,9 @@ _UNIT_KINDS = {"kg": "mass", "m/s": "velocity", "m": "length", "s": "time", "N":
                "-": "dimensionless"}
 
 
-def _split_unit(name: str) -> tuple[str, str]:
+def split_unit(name: str) -> tuple[str, str]:
+    """(name without its unit suffix, unit): ``gross_mass_kg`` -> ``('gross_mass', 'kg')``;
+    no suffix -> ``'-'`` (dimensionless by the project's naming rule)."""
     for suffix, unit in SUFFIX_UNITS:
         if name.endswith(suffix) and len(name) > len(suffix):
             return name[: -len(suffix)], unit
@@ -63,7 +65,7 @@ def metric_unit(metric: str, *, cost_unit: str = "cost units") -> str:
     """Unit of a metric from its name (``cost`` takes the study's cost unit)."""
     if metric == "cost":
         return cost_unit
-    return _split_unit(metric.rsplit(".", 1)[-1])[1]
+    return split_unit(metric.rsplit(".", 1)[-1])[1]
 
 
 def metric_words(metric: str) -> str:
@@ -71,12 +73,12 @@ def metric_words(metric: str) -> str:
     ``second stage: ignition mass``; ``losses_m_s.drag`` -> ``losses: drag``."""
     parts = metric.split(".")
     if parts[0] == "stage" and len(parts) == 3:
-        base, _ = _split_unit(parts[2])
+        base, _ = split_unit(parts[2])
         return f"{parts[1]} stage: {_METRIC_WORDS.get(base, base.replace('_', ' '))}"
     if len(parts) == 2:
-        head, _ = _split_unit(parts[0])
+        head, _ = split_unit(parts[0])
         return f"{_METRIC_WORDS.get(head, head.replace('_', ' '))}: {parts[1].replace('_', ' ')}"
-    base, _ = _split_unit(metric)
+    base, _ = split_unit(metric)
     return _METRIC_WORDS.get(base, base.replace("_", " "))
 
 

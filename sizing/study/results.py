@@ -11,7 +11,7 @@ import numpy as np
 
 from ..errors import StudyDefinitionError
 from ..result import CAUTION
-from .labels import SUFFIX_UNITS, si_kind
+from .labels import si_kind, split_unit
 from .pareto import non_dominated_ranks, to_minimisation
 from .spec import FIELD_UNITS, Study, apply_case, study_from_dict
 from .store import StudyStore
@@ -65,10 +65,8 @@ def column_label(name: str, *, cost_unit: str = "cost units") -> str:
     """
     if name == "cost":
         return f"cost [{cost_unit}]"
-    for suffix, unit in SUFFIX_UNITS:
-        if name.endswith(suffix) and len(name) > len(suffix):
-            return f"{name[: -len(suffix)]} [{unit}]"
-    return f"{name} [-]"
+    base, unit = split_unit(name)
+    return f"{base} [{unit}]"
 
 
 def input_label(name: str, unit: str) -> str:

@@ -15,11 +15,9 @@ import pytest
 
 from sizing.study.runner import run_study
 from sizing.study.spec import study_from_dict
+from test_study_report_html import CHROMIUM, _open
 
 ROOT = Path(__file__).resolve().parents[2]
-CHROMIUM = "/usr/bin/chromium"
-ARGS = ["--headless", "--no-sandbox", "--disable-gpu", "--disable-background-networking",
-        "--disable-component-update", "--no-first-run", "--disable-sync"]
 #: demo -> samples used here (None: as shipped)
 DEMOS = {"jackdaw_quick": None, "heron_sobol": 16, "jackdaw_limits_lhs": 10, "heron_apogee_trade": None}
 
@@ -84,13 +82,8 @@ def test_demo_report_readable_at_1400_px(demo_reports, name):
     sync_api = pytest.importorskip("playwright.sync_api")
     problems: list[str] = []
     with sync_api.sync_playwright() as p:
-        browser = p.chromium.launch(executable_path=CHROMIUM, args=ARGS)
+        browser, page = _open(p, demo_reports[name] / "report.html", problems, width=1400)
         try:
-            page = browser.new_page(viewport={"width": 1400, "height": 900})
-            page.on("console", lambda m: problems.append(m.text) if m.type == "error" else None)
-            page.on("pageerror", lambda e: problems.append(str(e)))
-            page.goto((demo_reports[name] / "report.html").as_uri())
-            page.wait_for_selector('body[data-drawn="1"]', timeout=60000, state="attached")
             g = page.evaluate(_GEOMETRY)
             assert g["front"] > 0 and g["points"] > 0, g
             assert g["overflow"] == [], g["overflow"]
