@@ -36,7 +36,25 @@ def _console(stderr: bool = False):
             devnull = os.open(os.devnull, os.O_WRONLY)
             os.dup2(devnull, sys.stdout.fileno())
 
-    return _Console(stderr=stderr, highlight=False, soft_wrap=True)
+    # Piped or redirected output is not cut to 80 columns: tables keep their full width there.
+    stream = sys.stderr if stderr else sys.stdout
+    width = None if stream.isatty() or os.environ.get("COLUMNS") else PIPE_WIDTH
+    return _Console(stderr=stderr, highlight=False, soft_wrap=True, width=width)
+
+
+#: Console width when the output is not a terminal (a file or a pipe): wide enough never to cut.
+PIPE_WIDTH = 10_000
+
+
+def version_text() -> str:
+    """``sizing (stagesizer) X.Y.Z``: the installed package version."""
+    from importlib.metadata import PackageNotFoundError, version
+
+    try:
+        v = version("stagesizer")
+    except PackageNotFoundError:  # pragma: no cover - running from a source tree without install
+        v = "unknown (not installed)"
+    return f"sizing (stagesizer) {v}"
 
 
 def error_line(text: str) -> None:
@@ -157,6 +175,7 @@ def print_result(result, console=None, *, caution: bool = True) -> None:
 
 
 def _cmd_check(args) -> int:
+    from .optimize.prepare import prepare
     from .problem.load import load_problem, read_toml
 
     if "hobby" in read_toml(args.file):  # motor / water stacks have their own file layout
@@ -164,6 +183,7 @@ def _cmd_check(args) -> int:
 
         return check_hobby(args)
     problem = load_problem(args.file)
+    prepare(problem)  # the checks `solve` runs before sizing: check and solve never disagree
     n = len(problem.stages)
     target = (f"delta-v {problem.delta_v_m_s:g} m/s" if problem.delta_v_m_s is not None
               else f"apogee {problem.apogee_m:g} m" if problem.apogee_m is not None
@@ -211,6 +231,7 @@ def build_parser() -> argparse.ArgumentParser:
         description="Size multistage rockets: optimal stage mass split, flight losses, trade studies. "
                     "Preliminary estimates only, not flight clearance.",
     )
+    parser.add_argument("--version", action="version", version=version_text())
     sub = parser.add_subparsers(dest="command", metavar="COMMAND")
     sub.required = True
 

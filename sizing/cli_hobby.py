@@ -302,28 +302,23 @@ def _append_csv_section(result, path: Path) -> None:
     """Append the hobby section (chosen motors or water settings, extras, caution) to a CSV."""
     import csv
 
+    from .report.export import write_csv_section
+
     title, header, rows = hobby_export_table(result)
     with path.open("a", newline="", encoding="utf-8") as fh:
         w = csv.writer(fh)
-        w.writerow([])
-        w.writerow([title])
-        w.writerow(header)
-        for r in rows:
-            w.writerow(["" if v is None else v for v in r])
+        write_csv_section(w, title, header, rows)
         for stitle, sheader, srows in safety_tables(result):
-            w.writerow([])
-            w.writerow([stitle])
-            w.writerow(sheader)
-            w.writerows(srows)
-        w.writerow([])
-        w.writerow(_EXTRAS_HEADER)
-        for r in _export_extras(result):
-            w.writerow(["" if v is None else v for v in r])
+            write_csv_section(w, stitle, sheader, srows)
+        write_csv_section(w, None, _EXTRAS_HEADER, _export_extras(result))
 
 
 def _add_xlsx_sheets(result, path: Path) -> None:
-    """Add a sheet of the chosen motors or water settings (with extras and the caution) to an XLSX."""
+    """Add a sheet of the chosen motors or water settings, with the hobby checks (limits,
+    search, caution) below, to an XLSX, laid out like the others (frozen header, number formats)."""
     from openpyxl import load_workbook
+
+    from .report.xlsx import column_format, format_sheet
 
     title, header, rows = hobby_export_table(result)
     wb = load_workbook(path)
@@ -331,17 +326,23 @@ def _add_xlsx_sheets(result, path: Path) -> None:
     ws.append(header)
     for r in rows:
         ws.append(r)
+    format_sheet(ws, last_row=1 + len(rows))
     ws.append([])
     ws.append(_EXTRAS_HEADER)
     for r in _export_extras(result):
         ws.append(r)
-    for k, (stitle, sheader, srows) in enumerate(safety_tables(result)):
-        ws2 = wb.create_sheet(("stability", "ejection timing", "recovery")[k] if len(safety_tables(result)) == 3
+        cell = ws.cell(row=ws.max_row, column=2)
+        fmt = column_format([cell.value])
+        if fmt is not None:  # one quantity per row: each value its own format
+            cell.number_format = fmt
+    tables = safety_tables(result)
+    for k, (stitle, sheader, srows) in enumerate(tables):
+        ws2 = wb.create_sheet(("stability", "ejection timing", "recovery")[k] if len(tables) == 3
                               else f"flight safety {k + 1}")
-        ws2.append([stitle])
         ws2.append(sheader)
         for r in srows:
             ws2.append(r)
+        format_sheet(ws2, last_row=1 + len(srows))
     wb.save(path)
 
 
@@ -401,12 +402,16 @@ def run_hobby(args) -> int:
             path = write_sketch(result, out, caution=caution_text(result), tables=tables)
             print(f"wrote {path}", file=sys.stderr if args.json else sys.stdout)
         else:
-            path = write_stage_table(result, out)
-            ext = path.suffix.lower()
-            if ext == ".md":
-                with path.open("a", encoding="utf-8") as fh:
-                    fh.write("\n" + _markdown_section(result))
-            elif ext == ".csv":
+            ext = out.suffix.lower()
+            if ext == ".md":  # one caution, last: the hobby one holds every element of the general one
+                from .report.tables import result_markdown
+
+                out.write_text(result_markdown(result, caution=caution_text(result),
+                                               extra=_markdown_section(result)), encoding="utf-8")
+                path = out
+            else:
+                path = write_stage_table(result, out)
+            if ext == ".csv":
                 _append_csv_section(result, path)
             elif ext == ".xlsx":
                 _add_xlsx_sheets(result, path)

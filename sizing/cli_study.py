@@ -33,12 +33,14 @@ def register(subparsers) -> None:
     p.add_argument("file", type=Path, help="study file (TOML)")
     p.add_argument("--out", type=Path, default=None,
                    help="output folder (default: runs/<study file name>)")
-    p.add_argument("--engine", choices=("local", "dask", "serial"), default="local",
-                   help="local worker processes (default), a Dask cluster, or this process only")
+    p.add_argument("--engine", choices=("local", "dask", "serial"), default=None,
+                   help="local worker processes (default), a Dask cluster (with --scheduler, or a "
+                        "local one started for the run), or this process only")
     p.add_argument("--workers", type=int, default=None,
-                   help="local worker processes (default: all cores)")
+                   help="worker processes of the local engine or of a local Dask cluster "
+                        "(default: all cores)")
     p.add_argument("--scheduler", default=None,
-                   help="Dask scheduler address for --engine dask, e.g. tcp://host:8786")
+                   help="Dask scheduler address, e.g. tcp://host:8786 (implies --engine dask)")
     p.add_argument("--restart", action="store_true",
                    help="discard results already in the output folder and start over")
     p.add_argument("--no-report", action="store_true", help="do not write report.html at the end")
@@ -63,6 +65,10 @@ def _err(text: str) -> None:
             print(f"error: {line.strip()}", file=sys.stderr)
 
 
+def _note(text: str) -> None:
+    print(text, file=sys.stderr)
+
+
 def progress_text(counts: dict[str, int]) -> str:
     """Outcome counts for the progress bar, one per kind.
 
@@ -78,14 +84,14 @@ def _progress_bar(quiet: bool):
     """A rich progress bar (cases done, outcomes per kind, rate, ETA) and its update callback."""
     if quiet:
         return None, None
-    from rich.console import Console
+    from .cli import _console
     from rich.progress import BarColumn, MofNCompleteColumn, Progress, TextColumn, TimeRemainingColumn
 
     prog = Progress(
         TextColumn("[bold]cases"), BarColumn(), MofNCompleteColumn(),
         TextColumn("{task.fields[outcomes]}"), TextColumn("{task.fields[rate]} /s"),
         TextColumn("ETA"), TimeRemainingColumn(),
-        console=Console(stderr=True), transient=False, refresh_per_second=5)
+        console=_console(stderr=True), transient=False, refresh_per_second=5)
     task = prog.add_task("cases", total=None, outcomes=progress_text({}), rate="-")
 
     def update(p) -> None:
@@ -97,8 +103,9 @@ def _progress_bar(quiet: bool):
 
 def cmd_study(args: argparse.Namespace) -> int:
     """Run `sizing study`; returns the exit code (see the module docstring)."""
-    from rich.console import Console
     from rich.markup import escape
+
+    from .cli import _console
     from rich.table import Table
 
     from .errors import SizingError
@@ -109,12 +116,10 @@ def cmd_study(args: argparse.Namespace) -> int:
     if args.workers is not None and args.workers < 1:
         _err(f"--workers: must be >= 1. Got {args.workers}.")
         return 2
-    if args.engine == "dask" and not args.scheduler:
-        _err("--scheduler: required with --engine dask, e.g. --scheduler tcp://host:8786.")
-        return 2
-    if args.scheduler and args.engine != "dask":
+    if args.scheduler and args.engine not in (None, "dask"):
         _err(f"--scheduler: only used with --engine dask. Got --engine {args.engine}.")
         return 2
+    engine = args.engine or ("dask" if args.scheduler else "local")
     out = args.out or Path("runs") / args.file.stem
     try:
         study = load_study(args.file)
@@ -126,9 +131,10 @@ def cmd_study(args: argparse.Namespace) -> int:
         if prog is not None:
             prog.start()
         try:
-            summary = run_study(study, out, engine=args.engine, workers=args.workers,
+            summary = run_study(study, out, engine=engine, workers=args.workers,
                                 scheduler=args.scheduler, restart=args.restart,
-                                on_progress=update, write_outputs=not args.no_report)
+                                on_progress=update, write_outputs=not args.no_report,
+                                on_message=_note if prog is None else (lambda t: prog.console.print(escape(t))))
         finally:
             if prog is not None:
                 prog.stop()
@@ -138,7 +144,7 @@ def cmd_study(args: argparse.Namespace) -> int:
     except (OSError, ValueError, RuntimeError) as exc:
         _err(f"{type(exc).__name__}: {exc}" if isinstance(exc, RuntimeError) else str(exc))
         return 2
-    con = Console(highlight=False)
+    con = _console()
     if summary.interrupted:
         _err(f"interrupted after {summary.ran} new cases; {sum(summary.counts.values())} of "
              f"{summary.total} are stored in {out}. Run the same command again to resume.")
@@ -176,14 +182,15 @@ def cmd_study(args: argparse.Namespace) -> int:
 
 def cmd_report(args: argparse.Namespace) -> int:
     """Run `sizing report`; returns the exit code."""
-    from rich.console import Console
     from rich.markup import escape
+
+    from .cli import _console
 
     from .errors import SizingError
     from .result import CAUTION
     from .study.results import write_outputs, write_review_pack
 
-    con = Console(highlight=False)
+    con = _console()
     try:
         if args.case is not None:
             path = write_review_pack(args.folder, args.case, args.pack_dir)

@@ -17,6 +17,7 @@ __all__ = [
     "R_EARTH_EQ_M",
     "OMEGA_EARTH_RAD_S",
     "SI_UNITS",
+    "MSG_G_IS_GRAMS",
     "to_si",
     "isp_to_exhaust_velocity",
     "exhaust_velocity_to_isp",
@@ -53,11 +54,24 @@ SI_UNITS: dict[str, str] = {
 }
 
 
+#: An acceleration written with a mass unit, usually "20 g" meant as 20 times standard gravity.
+MSG_G_IS_GRAMS = ("{value!r} reads as a mass (g is the gram); for an acceleration in standard gravities "
+                  "write '{n} g0' or '{n} gee' (= {si} m/s^2), or give m/s^2.")
+
+
+def _article(word: str) -> str:
+    return "an" if word[:1] in "aeiou" else "a"
+
+
 @lru_cache(maxsize=1)
 def _registry():
     import pint  # local: heavy import, only needed for strings with units
 
-    return pint.UnitRegistry()
+    ureg = pint.UnitRegistry()
+    # the trade writes accelerations in multiples of standard gravity: "20 g0" (pint's own
+    # spelling, also g_0, g_n) or "20 gee" / "20 gees"
+    ureg.define("gee = standard_gravity = _ = gees")
+    return ureg
 
 
 def to_si(value: float | int | str, kind: str) -> float:
@@ -115,8 +129,11 @@ def to_si(value: float | int | str, kind: str) -> float:
     try:
         out = float(q.to(target).magnitude)
     except Exception:
+        if kind == "acceleration" and str(q.units) == "gram":
+            raise ValueError(MSG_G_IS_GRAMS.format(value=value, n=f"{q.magnitude:g}",
+                                                   si=f"{q.magnitude * G0_M_S2:,.4g}")) from None
         raise ValueError(
-            f"{value!r} has the wrong dimension; a {kind} in units such as "
+            f"{value!r} has the wrong dimension; {_article(kind)} {kind} in units such as "
             f"{target or 'a plain number'} is expected."
         ) from None
     if not math.isfinite(out):

@@ -2,15 +2,11 @@
 
 from __future__ import annotations
 
-from ..errors import MSG_UNKNOWN_METHOD
 from ..problem.model import Problem
 from ..result import SizingResult
+from .prepare import METHODS, prepare
 
 __all__ = ["solve", "METHODS"]
-
-#: Methods `solve` accepts. "auto" takes the Lagrange closed form when no limit
-#: is set and the convex program otherwise.
-METHODS = ("auto", "lagrange", "cvxpy", "slsqp")
 
 
 def solve(problem: Problem, *, method: str | None = None) -> SizingResult:
@@ -33,10 +29,11 @@ def solve(problem: Problem, *, method: str | None = None) -> SizingResult:
     ------
     ValueError
         For an unknown method, or "lagrange" asked for a problem with limits.
+    ProblemDefinitionError
+        For a problem the chosen method cannot size (`sizing.optimize.prepare`,
+        the same checks `sizing check` runs).
     """
-    m = method or problem.method or "auto"
-    if m not in METHODS:
-        raise ValueError(f"{MSG_UNKNOWN_METHOD} {m!r}. Choose one of: {', '.join(repr(x) for x in METHODS)}.")
+    m = prepare(problem, method=method).method
     result = _dispatch(problem, m)
     if problem.design_masses_given:
         from dataclasses import replace
@@ -67,12 +64,7 @@ def _dispatch_fixed(problem: Problem, m: str) -> SizingResult:
         from .flight_problem import solve_flight_problem
 
         return solve_flight_problem(problem, method=m)
-    if m == "auto":
-        m = "cvxpy" if problem.has_constraints else "lagrange"
     if m == "lagrange":
-        if problem.has_constraints:
-            raise ValueError("method 'lagrange' handles no limits (mass ratio, delta-v share, mass caps); "
-                             "use 'cvxpy' or 'auto'.")
         from ._lagrange import solve_lagrange
 
         return solve_lagrange(problem)

@@ -33,6 +33,7 @@ __all__ = [
     "fly_problem",
     "flight_summary",
     "solve_flight_problem",
+    "check_flight_problem",
     "profile_of",
 ]
 
@@ -275,10 +276,7 @@ def solve_flight_problem(problem: Problem, *, method: str = "auto") -> SizingRes
     from ._common import analytic_trade_factors
     from .flight import ApogeeTarget, OrbitTarget, size_to_target
 
-    if problem.has_constraints:
-        raise ProblemDefinitionError(problem.source, [
-            "mission: design limits (mass-ratio, delta-v share, mass caps) are not supported with "
-            "apogee or orbit targets yet; size for delta_v with limits, or drop the limits."])
+    check_flight_problem(problem)
     specs = flight_specs(problem)
     site = launch_site(problem)
     if problem.apogee_m is not None:
@@ -347,6 +345,24 @@ def solve_flight_problem(problem: Problem, *, method: str = "auto") -> SizingRes
     }
     out = _with_flight(result, fs.flight, problem, extra)
     return replace(out, warnings=tuple(dict.fromkeys(tuple(out.warnings) + tuple(fs.warnings))))
+
+
+def check_flight_problem(problem: Problem) -> None:
+    """Every check of a flight-target problem made before sizing (`sizing.optimize.prepare`).
+
+    Raises
+    ------
+    ProblemDefinitionError
+        Limits with a flight target; a stage without thrust-to-weight or a first
+        stage without diameter; a launch site or inclination the flight layer refuses.
+    """
+    if problem.has_constraints:
+        raise ProblemDefinitionError(problem.source, [
+            "mission: design limits (mass-ratio, delta-v share, mass caps) are not supported with "
+            "apogee or orbit targets yet; size for delta_v with limits, or drop the limits."])
+    flight_specs(problem)
+    launch_site(problem)
+    ascent_profile(problem)
 
 
 def orbit_speed_tolerance_m_s(orbit_altitude_m: float, altitude_tolerance_m: float) -> float:

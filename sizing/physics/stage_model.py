@@ -305,7 +305,6 @@ class StageMassModel:
     # ---------------------------------------------------------------- items
     def _explicit_items(self, mp, thrust, geo: StageGeometry) -> dict[str, Any]:
         """Every item except avionics and wiring (which depend on the stage mass itself)."""
-        p = self.propellant
         zero = 0.0 * mp
         r = 0.5 * self.diameter_m
         items: dict[str, Any] = {k: zero for k in MASS_ITEMS}

@@ -313,7 +313,7 @@ def parse_wind(col, launch: Any) -> WindProfile | None:
         col.fault(f"launch.wind_table: applies to wind_profile = 'table' only. Got wind_profile = {kind!r}.")
     if kind == "constant" and (href is not None or alpha is not None):
         col.fault("launch.wind_exponent: wind_exponent and wind_reference_height apply to wind_profile = "
-                  f"'power_law' only. Got wind_profile = 'constant'.")
+                  "'power_law' only. Got wind_profile = 'constant'.")
     if len(col.faults) > n0:
         return None
     return WindProfile(kind, speed_m_s=speed or 0.0, direction_from_deg=direction or 0.0,

@@ -7,15 +7,15 @@ from pathlib import Path
 
 from ..result import CAUTION, SizingResult
 from .tables import (
-    HARDWARE_QUANTITIES,
     STAGE_COLUMNS,
-    TRADE_FACTOR_HEADER,
+    flight_summary_values,
+    hardware_records,
     limit_text,
     result_markdown,
-    trade_factor_rows,
+    trade_factor_values,
 )
 
-__all__ = ["EXPORT_FORMATS", "write_stage_table", "result_json"]
+__all__ = ["EXPORT_FORMATS", "write_stage_table", "result_json", "write_csv_section"]
 
 EXPORT_FORMATS = (".csv", ".md", ".json", ".xlsx")
 
@@ -70,81 +70,92 @@ def _numeric_frame(result: SizingResult):
         "structural mass [kg]": sum(s.structural_mass_kg for s in result.stages),
         "payload ratio [-]": result.payload_fraction,
         "delta-v [m/s]": result.delta_v_m_s,
+        "delta-v share [%]": 100.0 if result.stages else None,
     })
     frame = pd.concat([frame, pd.DataFrame([total])], ignore_index=True)
     return frame
 
 
+def _section_rows(result: SizingResult) -> list[tuple[str, list[str], list[list]]]:
+    """The sections below the stage table, as numbers: (title, header, rows).
+
+    Trade factors, design limits and the flight figures (with the delta-v
+    budget); the same sections go to CSV and XLSX.
+    """
+    out = []
+    tf = trade_factor_values(result)
+    if tf:
+        out.append(("trade factors", list(TRADE_FACTOR_NUMERIC_HEADER),
+                    [[item, step, dm0, dpl] for item, step, dm0, dpl, _spec in tf]))
+    if result.constraints:
+        out.append(("design limits", ["limit", "allowed", "at optimum [limit unit]", "binding",
+                                      "sensitivity", "sensitivity unit"],
+                    [[c.name, limit_text(c), c.value, "yes" if c.binding else "no", c.sensitivity,
+                      c.sensitivity_unit] for c in result.constraints]))
+    fl = flight_summary_values(result)
+    if fl:
+        rows = [[label, v, unit] for label, v, unit, _spec in fl]
+        budget = (result.flight or {}).get("delta_v_budget_m_s") or {}
+        rows += [[f"delta-v budget: {k}", float(v), "m/s"] for k, v in budget.items()
+                 if isinstance(v, (int, float))]
+        out.append(("flight", ["quantity", "value [unit column]", "unit"], rows))
+    hw = hardware_records(result)
+    if hw:
+        out.append(("stage hardware", ["quantity [unit]"] + [s.name for s in result.stages],
+                    [[label] + list(values) for label, values in hw]))
+    return out
+
+
+#: Header of the numeric trade-factor table (CSV and XLSX).
+TRADE_FACTOR_NUMERIC_HEADER = ("item", "step", "gross mass change at fixed payload [kg]",
+                               "payload change at fixed gross mass [kg]")
+
+
 def _write_csv(result: SizingResult, p: Path) -> None:
     import csv
 
+    frame = _numeric_frame(result)
     with p.open("w", newline="", encoding="utf-8") as fh:
         w = csv.writer(fh)
-        w.writerow([h for _f, h, _s in STAGE_COLUMNS])
-        for s in result.stages:
-            w.writerow([getattr(s, f) if f != "delta_v_share" else 100.0 * s.delta_v_share
-                        for f, _h, _s in STAGE_COLUMNS])
-        totals = {"name": "total", "ignition_mass_kg": result.gross_mass_kg,
-                  "propellant_mass_kg": sum(s.propellant_mass_kg for s in result.stages),
-                  "structural_mass_kg": sum(s.structural_mass_kg for s in result.stages),
-                  "payload_ratio": result.payload_fraction, "delta_v_m_s": result.delta_v_m_s}
-        w.writerow([totals.get(f, "") for f, _h, _s in STAGE_COLUMNS])
-        hw = _hardware_records(result)
-        if hw:
-            w.writerow([])
-            w.writerow(["stage hardware (stage model)"] + [s.name for s in result.stages])
-            for label, values in hw:
-                w.writerow([label] + ["" if v is None else v for v in values])
+        w.writerow(list(frame.columns))
+        for row in frame.itertuples(index=False):
+            w.writerow(["" if v is None or (isinstance(v, float) and v != v) else v for v in row])
         w.writerow([])
         w.writerow(["payload mass [kg]", result.payload_mass_kg])
         w.writerow(["gross mass [kg]", result.gross_mass_kg])
         w.writerow(["status", str(result.status), result.message])
+        for title, header, rows in _section_rows(result):
+            write_csv_section(w, title, header, rows)
+        w.writerow([])
         w.writerow(["caution", CAUTION])
+
+
+def write_csv_section(w, title: str | None, header, rows) -> None:
+    """A blank line, a title line (if any), a header line and the rows (None as empty cells)."""
+    w.writerow([])
+    if title:
+        w.writerow([title])
+    w.writerow(list(header))
+    for r in rows:
+        w.writerow(["" if v is None else v for v in r])
 
 
 def _write_xlsx(result: SizingResult, p: Path) -> None:
     import pandas as pd
 
+    from .xlsx import format_sheet
+
     frame = _numeric_frame(result)
     with pd.ExcelWriter(p, engine="openpyxl") as xw:
         frame.to_excel(xw, sheet_name="stage masses", index=False)
-        tf = pd.DataFrame(trade_factor_rows(result), columns=list(TRADE_FACTOR_HEADER))
-        for col in TRADE_FACTOR_HEADER[2:]:
-            tf[col] = [float(v.replace(",", "")) if v not in ("", "n/a") else None for v in tf[col]]
-        tf.columns = ["item", "step", "gross mass change at fixed payload [kg]",
-                      "payload change at fixed gross mass [kg]"]
-        tf.to_excel(xw, sheet_name="trade factors", index=False)
-        if result.constraints:
-            pd.DataFrame([{"limit": c.name, "allowed": limit_text(c), "at optimum": c.value,
-                           "binding": c.binding, "sensitivity": c.sensitivity,
-                           "sensitivity unit": c.sensitivity_unit} for c in result.constraints]
-                         ).to_excel(xw, sheet_name="design limits", index=False)
-        hw = _hardware_records(result)
-        if hw:
-            pd.DataFrame([[label] + list(values) for label, values in hw],
-                         columns=["quantity [unit]"] + [s.name for s in result.stages]
-                         ).to_excel(xw, sheet_name="stage hardware", index=False)
+        format_sheet(xw.sheets["stage masses"])
+        for title, header, rows in _section_rows(result):
+            pd.DataFrame(rows, columns=header).to_excel(xw, sheet_name=title, index=False)
+            format_sheet(xw.sheets[title], per_cell=(2,) if title == "flight" else ())
         info = [("problem", result.problem_name), ("status", str(result.status)),
                 ("message", result.message), ("method", result.method),
                 ("payload mass [kg]", result.payload_mass_kg), ("gross mass [kg]", result.gross_mass_kg),
                 ("ideal delta-v [m/s]", result.delta_v_m_s), ("caution", CAUTION)]
         info += [("review note", w) for w in result.warnings]
         pd.DataFrame(info, columns=["item", "value"]).to_excel(xw, sheet_name="summary", index=False)
-
-
-
-def _hardware_records(result: SizingResult) -> list[tuple[str, list]]:
-    """(label with unit, value per stage) of the stage-model quantities and mass breakdown (numbers unformatted)."""
-    if not any(s.propellant for s in result.stages):
-        return []
-    out = []
-    for f, label, _spec in HARDWARE_QUANTITIES:
-        values = [getattr(s, f) for s in result.stages]
-        if any(v is not None for v in values):
-            out.append((label, values))
-    items: list[str] = []
-    for s in result.stages:
-        items += [k for k in (s.mass_breakdown_kg or {}) if k not in items]
-    for k in items:
-        out.append((f"mass: {k.replace('_', ' ')} [kg]", [(s.mass_breakdown_kg or {}).get(k) for s in result.stages]))
-    return out
+        format_sheet(xw.sheets["summary"], per_cell=(2,))

@@ -7,7 +7,7 @@ from typing import Any, Sequence
 
 from ..result import CAUTION, SizingResult
 
-__all__ = ["HARDWARE_QUANTITIES", "hardware_table", "TRADE_FACTOR_HEADER", "limit_text", "limit_value_text", "limit_step", "STAGE_COLUMNS", "FLIGHT_QUANTITIES", "flight_summary_rows", "stage_rows", "stage_columns_table", "total_row", "trade_factor_rows",
+__all__ = ["HARDWARE_QUANTITIES", "hardware_records", "hardware_table", "TRADE_FACTOR_HEADER", "limit_text", "limit_value_text", "limit_step", "STAGE_COLUMNS", "FLIGHT_QUANTITIES", "flight_summary_rows", "flight_summary_values", "trade_factor_values", "stage_rows", "stage_columns_table", "total_row", "trade_factor_rows",
            "stage_table_markdown", "result_markdown"]
 
 #: (field, header with unit, format) for each column of the stage mass table.
@@ -96,12 +96,13 @@ def stage_columns_table(result: SizingResult) -> tuple[list[str], list[list[str]
 TRADE_FACTOR_HEADER = ("item", "step", "gross mass [kg]", "payload [kg]")
 
 
-def trade_factor_rows(result: SizingResult) -> list[list[str]]:
-    """Trade factors as rows: (item, step, gross mass change, payload change).
+def trade_factor_values(result: SizingResult) -> list[tuple[str, str, float, float | None, str]]:
+    """Trade factors as numbers: (item, step, gross mass change [kg], payload change [kg], format).
 
     The gross-mass change holds payload and ideal delta-v fixed; the payload
     change holds gross mass fixed instead: by the implicit function theorem,
-    d m_PL / d p = -(d m0/d p) / (d m0/d m_PL).
+    d m_PL / d p = -(d m0/d p) / (d m0/d m_PL). The payload row has no payload
+    change (None); `format` is the display format of the row.
     """
     tf = result.trade_factors
     if not tf:
@@ -109,16 +110,22 @@ def trade_factor_rows(result: SizingResult) -> list[list[str]]:
     growth = tf["gross_mass_per_payload_kg"]
 
     def row(item, step, dm0, spec):
-        dpl = -dm0 / growth if growth else math.nan
-        return [item, step, _fmt(dm0, spec), _fmt(dpl, spec)]
+        return (item, step, dm0, -dm0 / growth if growth else math.nan, spec)
 
-    rows = [["payload", "+1 kg", _fmt(growth, ",.3f"), ""],
+    rows = [("payload", "+1 kg", growth, None, ",.3f"),
             row("ideal delta-v", "+1 m/s", tf["gross_mass_per_delta_v_kg_per_m_s"], ",.4f")]
     for name, d in tf["stages"].items():
         rows.append(row(f"{name}: structural mass", "+1 kg", d["per_structural_kg"], ",.3f"))
         rows.append(row(f"{name}: Isp", "+1 s", d["per_isp_s"], ",.3f"))
         rows.append(row(f"{name}: struct. coeff.", "+0.01", d["per_0_01_structural_coefficient"], ",.2f"))
     return rows
+
+
+def trade_factor_rows(result: SizingResult) -> list[list[str]]:
+    """Trade factors as text rows: (item, step, gross mass change, payload change); see
+    `trade_factor_values`."""
+    return [[item, step, _fmt(dm0, spec), "" if dpl is None else _fmt(dpl, spec)]
+            for item, step, dm0, dpl, spec in trade_factor_values(result)]
 
 
 def _limit_value(c, value: float) -> str:
@@ -166,8 +173,14 @@ def stage_table_markdown(result: SizingResult) -> str:
     return _md_table(header, stage_rows(result) + [total_row(result)])
 
 
-def result_markdown(result: SizingResult, *, title: str | None = None) -> str:
-    """A design-review section: summary, stage table, limits, trade factors, caution."""
+def result_markdown(result: SizingResult, *, title: str | None = None, caution: str | None = CAUTION,
+                    extra: str = "") -> str:
+    """A design-review section: summary, stage table, limits, trade factors, `extra`, caution.
+
+    The caution is printed once, last; pass ``caution=None`` when the document
+    carries it elsewhere, or another text (e.g. the hobby caution, which holds
+    every element of the general one).
+    """
     parts = [f"## {title or result.problem_name}: stage mass table", "",
              f"Status: **{result.status}** -- {result.message}", "",
              f"Method: {result.method}; solving for {result.solve_for}.", ""]
@@ -190,9 +203,13 @@ def result_markdown(result: SizingResult, *, title: str | None = None) -> str:
         if budget:
             parts += ["### Delta-v budget", "",
                       _md_table(["term", "m/s"], [[k, f"{v:,.1f}"] for k, v in budget.items()]), ""]
-    if result.warnings:
-        parts += ["### Review notes", ""] + [f"- {w}" for w in result.warnings] + [""]
-    parts += [f"> {CAUTION}", ""]
+    notes = [w for w in result.warnings if w != caution]
+    if notes:
+        parts += ["### Review notes", ""] + [f"- {w}" for w in notes] + [""]
+    if extra:
+        parts += [extra.rstrip("\n"), ""]
+    if caution:
+        parts += [f"> {caution}", ""]
     return "\n".join(parts)
 
 
@@ -212,17 +229,17 @@ FLIGHT_QUANTITIES: tuple[tuple[str, str, str, str], ...] = (
 )
 
 
-def flight_summary_rows(result: SizingResult) -> list[list[str]]:
-    """(quantity, value, unit) rows for the flight part of a result, including losses."""
+def flight_summary_values(result: SizingResult) -> list[tuple[str, float, str, str]]:
+    """(quantity, value, unit, format) rows of the flight part of a result, including losses."""
     f = result.flight or {}
     rows = []
     for key, label, unit, spec in FLIGHT_QUANTITIES:
         v = f.get(key)
-        if v is not None:
-            rows.append([label, _fmt(v, spec), unit])
+        if isinstance(v, (int, float)) and not isinstance(v, bool):
+            rows.append((label, v, unit, spec))
     for k, v in (f.get("losses_m_s") or {}).items():
         if isinstance(v, (int, float)):
-            rows.append([f"{k} loss", _fmt(float(v), ",.1f"), "m/s"])
+            rows.append((f"{k} loss", float(v), "m/s", ",.1f"))
     return rows
 
 
@@ -247,30 +264,42 @@ HARDWARE_QUANTITIES: tuple[tuple[str, str, str], ...] = (
 )
 
 
-def hardware_table(result: SizingResult) -> tuple[list[str], list[list[str]]]:
-    """Propellant split, tanks, lengths, engines and mass breakdown, one column per stage.
+def hardware_records(result: SizingResult) -> list[tuple[str, list]]:
+    """(label with unit, value per stage) of the stage-model quantities and mass breakdown (numbers unformatted).
 
-    Empty rows are left out; returns ([], []) when no stage names a propellant.
-    Header and rows as in `stage_columns_table`.
+    Empty rows are left out; [] when no stage names a propellant.
     """
     stages = result.stages
     if not any(getattr(s, "propellant", None) for s in stages):
-        return [], []
-    header = ["quantity [unit]"] + [s.name for s in stages]
-    rows = []
-    for f, label, spec in HARDWARE_QUANTITIES:
-        vals = [getattr(s, f) for s in stages]
-        if all(v is None for v in vals):
-            continue
-        rows.append([label] + [_fmt(v, spec) for v in vals])
+        return []
+    out = []
+    for f, label, _spec in HARDWARE_QUANTITIES:
+        values = [getattr(s, f) for s in stages]
+        if any(v is not None for v in values):
+            out.append((label, values))
     items: list[str] = []
     for s in stages:
-        for k in (s.mass_breakdown_kg or {}):
-            if k not in items:
-                items.append(k)
+        items += [k for k in (s.mass_breakdown_kg or {}) if k not in items]
     for k in items:
-        vals = [(s.mass_breakdown_kg or {}).get(k) for s in stages]
-        if all(not v for v in vals):
-            continue
-        rows.append([f"mass: {k.replace('_', ' ')} [kg]"] + [_fmt(v, "mass") for v in vals])
-    return header, rows
+        values = [(s.mass_breakdown_kg or {}).get(k) for s in stages]
+        if any(values):
+            out.append((f"mass: {k.replace('_', ' ')} [kg]", values))
+    return out
+
+
+def hardware_table(result: SizingResult) -> tuple[list[str], list[list[str]]]:
+    """Propellant split, tanks, lengths, engines and mass breakdown, one column per stage (text).
+
+    Returns ([], []) when no stage names a propellant. Header and rows as in `stage_columns_table`.
+    """
+    records = hardware_records(result)
+    if not records:
+        return [], []
+    spec = {label: sp for _f, label, sp in HARDWARE_QUANTITIES}
+    header = ["quantity [unit]"] + [s.name for s in result.stages]
+    return header, [[label] + [_fmt(v, spec.get(label, "mass")) for v in values] for label, values in records]
+
+
+def flight_summary_rows(result: SizingResult) -> list[list[str]]:
+    """(quantity, value, unit) text rows of `flight_summary_values`."""
+    return [[label, _fmt(v, spec), unit] for label, v, unit, spec in flight_summary_values(result)]

@@ -271,8 +271,12 @@ class DaskEngine:
     Parameters
     ----------
     ctx : EvalContext
-    scheduler : str or distributed.Client
-        Scheduler address (``tcp://host:8786``) or a connected client.
+    scheduler : str, distributed.Client or None
+        Scheduler address (``tcp://host:8786``) or a connected client; None
+        starts a `distributed.LocalCluster` on this machine (one single-threaded
+        worker process per core, or `workers`) and stops it at the end.
+    workers : int, optional
+        Worker processes of the local cluster (scheduler None only).
     case_function : callable, optional
         Replaces `evaluate_cases`; must be importable on the workers.
     tasks_per_thread : int
@@ -281,10 +285,12 @@ class DaskEngine:
 
     name = "dask"
 
-    def __init__(self, ctx: EvalContext, *, scheduler, case_function: CaseFunction | None = None,
-                 tasks_per_thread: int = 2) -> None:
+    def __init__(self, ctx: EvalContext, *, scheduler=None, case_function: CaseFunction | None = None,
+                 tasks_per_thread: int = 2, workers: int | None = None) -> None:
         self.ctx = ctx
         self.scheduler = scheduler
+        self.workers = workers
+        self._cluster = None
         self.fn = case_function or evaluate_cases
         self.tasks_per_thread = tasks_per_thread
         self._client = None
@@ -297,11 +303,33 @@ class DaskEngine:
         except ImportError:  # pragma: no cover - depends on the install
             raise RuntimeError("the dask engine needs dask[distributed]: "
                                "pip install 'stagesizer[dask]'") from None
-        if isinstance(self.scheduler, str):
+        if self.scheduler is None:
+            from distributed import LocalCluster
+
+            self._cluster = LocalCluster(n_workers=max(1, int(self.workers or os.cpu_count() or 1)),
+                                         threads_per_worker=1, processes=True, host="127.0.0.1",
+                                         dashboard_address="127.0.0.1:0")
+            self._client = Client(self._cluster)
+            self._own_client = True
+        elif isinstance(self.scheduler, str):
             self._client = Client(self.scheduler, timeout="10s")
             self._own_client = True
         else:
             self._client = self.scheduler
+
+    @property
+    def description(self) -> str:
+        """Where the tasks run and where to watch them: the scheduler and its dashboard."""
+        if self._client is None:
+            return "dask: not started"
+        info = self._client.scheduler_info()
+        where = "local cluster" if self._cluster is not None else "cluster"
+        text = (f"Dask {where} at {info.get('address', self._client.scheduler.address)}, "
+                f"{len(info.get('workers', {}))} workers")
+        if "dashboard" in (info.get("services") or {}):
+            return f"{text}; dashboard: {self._client.dashboard_link}"
+        return (f"{text}; the scheduler serves no dashboard (it needs bokeh >= 3.1: "
+                f"pip install 'stagesizer[dask]')")
 
     @property
     def parallelism(self) -> int:
@@ -350,3 +378,6 @@ class DaskEngine:
             if self._own_client:
                 self._client.close()
             self._client = None
+        if self._cluster is not None:
+            self._cluster.close()
+            self._cluster = None

@@ -4,8 +4,6 @@ from __future__ import annotations
 
 import copy
 import json
-import math
-from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
 
@@ -13,6 +11,7 @@ import numpy as np
 
 from ..errors import StudyDefinitionError
 from ..result import CAUTION
+from .labels import si_kind, split_unit
 from .pareto import non_dominated_ranks, to_minimisation
 from .spec import FIELD_UNITS, Study, apply_case, study_from_dict
 from .store import StudyStore
@@ -25,6 +24,9 @@ __all__ = [
     "field_unit",
     "column_label",
     "input_label",
+    "study_input_names",
+    "input_converters",
+    "RANK_CAP",
     "PARETO_CSV",
     "PARETO_XLSX",
     "REPORT_HTML",
@@ -40,13 +42,6 @@ CAUTION_TXT = "CAUTION.txt"
 def field_unit(field: str) -> str:
     """Unit of a problem field path such as ``stage.first.isp`` ('' when unknown)."""
     return FIELD_UNITS.get(field.rsplit(".", 1)[-1], "")
-
-
-#: Unit-suffix -> unit shown in brackets, longest suffix first.
-_SUFFIX_UNITS = (
-    ("_kg_per_m_s", "kg/(m/s)"), ("_m_s2", "m/s^2"), ("_m_s", "m/s"), ("_kg", "kg"),
-    ("_pa", "Pa"), ("_deg", "deg"), ("_m3", "m^3"), ("_m2", "m^2"), ("_n", "N"), ("_m", "m"), ("_s", "s"),
-)
 
 
 def column_label(name: str, *, cost_unit: str = "cost units") -> str:
@@ -70,10 +65,8 @@ def column_label(name: str, *, cost_unit: str = "cost units") -> str:
     """
     if name == "cost":
         return f"cost [{cost_unit}]"
-    for suffix, unit in _SUFFIX_UNITS:
-        if name.endswith(suffix) and len(name) > len(suffix):
-            return f"{name[: -len(suffix)]} [{unit}]"
-    return f"{name} [-]"
+    base, unit = split_unit(name)
+    return f"{base} [{unit}]"
 
 
 def input_label(name: str, unit: str) -> str:
@@ -84,97 +77,212 @@ def input_label(name: str, unit: str) -> str:
     return f"{name} [{unit}]" if unit else name
 
 
-@dataclass
+#: Fronts numbered this or beyond are all given this number (``pareto_rank``): the
+#: report and the exports need the front and its near neighbours, and capping the
+#: peeling bounds its cost with three objectives at a million cases.
+RANK_CAP = 10
+
+#: Rows decoded at a time when cases.csv is written.
+_CHUNK = 5000
+
+_STAGE_COLUMNS = ("ignition_mass_kg", "propellant_mass_kg", "structural_mass_kg", "delta_v_m_s")
+
+
+def study_input_names(study: Study) -> list[str]:
+    """Input names of a study's cases in the order `expand_cases` gives them:
+    stage count, propellant per stage, then the grid axes, then the sampled axes."""
+    spec = study.spec
+    names: list[str] = []
+    if spec.choices.stage_count is not None:
+        names.append("stage_count")
+    names += [f"propellant.{n}" for n in spec.choices.propellant]
+    grid = [ax for ax in spec.axis if not ax.is_sampled or spec.study.design == "grid"]
+    samp = [ax for ax in spec.axis if ax.is_sampled and spec.study.design != "grid"]
+    names += [ax.label or ax.field for ax in grid + samp]
+    return names
+
+
+def input_converters(study: Study) -> dict[str, Any]:
+    """Input name -> function turning a stored input value into its SI number.
+
+    Axis levels may be written with units (``"300 km"``); the stored inputs
+    keep what the study file says (they are the case's identity), and the
+    exports and the report show the SI number. Text inputs pass through.
+    """
+    from ..units import to_si
+
+    out: dict[str, Any] = {}
+    for ax in study.spec.axis:
+        kind = si_kind(ax.field)
+        cache: dict[Any, Any] = {}
+
+        def conv(v: Any, kind: str | None = kind, cache: dict = cache) -> Any:
+            if not isinstance(v, str) or kind is None:
+                return v
+            if v not in cache:
+                try:
+                    cache[v] = to_si(v, kind)
+                except ValueError:
+                    cache[v] = v
+            return cache[v]
+
+        out[ax.label or ax.field] = conv
+    return out
+
+
 class StudyResults:
-    """Every stored case of a study, with its Pareto ranking.
+    """Every stored case of a study, ranked, read lazily from the store.
+
+    Loading reads only the case ids, statuses and objective values (pulled
+    out of the stored JSON by SQLite); the front's full results, any case's
+    inputs and the export rows are read when asked for, a chunk at a time.
 
     Attributes
     ----------
     folder : Path
     study : Study
         Rebuilt from the copy kept in the store (the study file is not needed).
-    rows : list of dict
-        One per stored case (see `StudyStore.rows`), plus ``rank``: the
-        non-dominated front of the feasible ('ok') cases, 0 = Pareto front,
-        -1 for cases that are not feasible.
     total : int
         Cases in the study (stored or not).
+    case_ids : ndarray of int
+        Stored case ids, ascending.
+    status : ndarray of str
+        Status of each stored case.
+    objective_values : ndarray, shape (n, k)
+        Objective metrics of each stored case, in their own senses (NaN where absent).
+    ranks : ndarray of int
+        Non-dominated front of each feasible ('ok') case, 0 = Pareto front
+        (fronts from `RANK_CAP` on are given `RANK_CAP`); -1 for the others.
     """
 
-    folder: Path
-    study: Study
-    rows: list[dict[str, Any]]
-    total: int
-
-    @property
-    def input_names(self) -> list[str]:
-        names: list[str] = []
-        for r in self.rows:
-            for k in r["inputs"]:
-                if k not in names:
-                    names.append(k)
-        return names
+    def __init__(self, folder: Path, study: Study, total: int, case_ids: np.ndarray,
+                 status: np.ndarray, objective_values: np.ndarray, ranks: np.ndarray) -> None:
+        self.folder = Path(folder)
+        self.study = study
+        self.total = total
+        self.case_ids = case_ids
+        self.status = status
+        self.objective_values = objective_values
+        self.ranks = ranks
+        self.input_names = study_input_names(study)
+        self._rows: list[dict[str, Any]] | None = None
+        self._pareto: list[dict[str, Any]] | None = None
 
     @property
     def input_units(self) -> dict[str, str]:
         """Input name -> unit, from the axis field each name varies ('' for text choices)."""
         return study_input_units(self.study)
 
-    @property
-    def pareto(self) -> list[dict[str, Any]]:
-        """Feasible cases on the Pareto front, sorted by the first objective."""
-        front = [r for r in self.rows if r["rank"] == 0]
-        ob = self.study.objectives[0]
-        return sorted(front, key=lambda r: r["metrics"][ob.metric] * (1 if ob.sense == "min" else -1))
+    def rank_of(self, case_id: int) -> int:
+        i = int(np.searchsorted(self.case_ids, case_id))
+        return int(self.ranks[i]) if i < len(self.case_ids) and self.case_ids[i] == case_id else -1
 
-    def counts(self) -> dict[str, int]:
-        out: dict[str, int] = {}
-        for r in self.rows:
-            out[r["status"]] = out.get(r["status"], 0) + 1
+    def read(self, case_ids, *, with_result: bool = True) -> list[dict[str, Any]]:
+        """Stored rows of the given cases (ordered by case id), each with its ``rank``."""
+        out: list[dict[str, Any]] = []
+        with StudyStore(self.folder) as store:
+            for chunk in store.iter_rows(with_result=with_result, case_ids=[int(c) for c in case_ids]):
+                out.extend(chunk)
+        for r in out:
+            r["rank"] = self.rank_of(r["case_id"])
         return out
 
+    @property
+    def rows(self) -> list[dict[str, Any]]:
+        """Every stored case with its full result (decoded on first use; a large study
+        is better read with `iter_rows` or exported with `write_outputs`)."""
+        if self._rows is None:
+            self._rows = [r for chunk in self.iter_rows() for r in chunk]
+        return self._rows
+
+    def iter_rows(self, *, with_result: bool = True, chunk: int = _CHUNK):
+        """Stored cases in chunks (lists of row dicts with ``rank``), case-id order."""
+        with StudyStore(self.folder) as store:
+            for part in store.iter_rows(with_result=with_result, chunk=chunk):
+                for r in part:
+                    r["rank"] = self.rank_of(r["case_id"])
+                yield part
+
+    @property
+    def front_ids(self) -> np.ndarray:
+        """Case ids on the Pareto front, ascending."""
+        return self.case_ids[self.ranks == 0]
+
+    @property
+    def pareto(self) -> list[dict[str, Any]]:
+        """Feasible cases on the Pareto front with their results, sorted by the first objective."""
+        if self._pareto is None:
+            front = self.read(self.front_ids)
+            ob = self.study.objectives[0]
+            sign = 1 if ob.sense == "min" else -1
+            self._pareto = sorted(front, key=lambda r: sign * r["metrics"][ob.metric])
+        return self._pareto
+
+    def counts(self) -> dict[str, int]:
+        names, n = np.unique(self.status.astype(str), return_counts=True) if len(self.status) else ([], [])
+        return {str(k): int(v) for k, v in zip(names, n)}
+
+    def _columns(self) -> tuple[list[str], list[str], list[str]]:
+        """(metric names, stage names, column headers) shared by every chunk of an export."""
+        if getattr(self, "_cols", None) is None:
+            with StudyStore(self.folder) as store:
+                names = store.metric_names()
+            wanted = {o.metric for o in self.study.objectives} | {b.metric for b in self.study.bounds}
+            metrics = [k for k in names if "." not in k or k in wanted]
+            stages = [s.get("name") for s in self.study.base.get("stage", []) if isinstance(s, dict)]
+            units = self.input_units
+            cu = self.study.cost_unit
+            cols = ["case_id", "status", "pareto_rank [-]"]
+            cols += [input_label(k, units.get(k, "")) for k in self.input_names]
+            cols += [column_label(k, cost_unit=cu) for k in metrics]
+            model = self._uses_stage_model()
+            per_stage = _STAGE_COLUMNS + (_STAGE_MODEL_COLUMNS if model else ())
+            cols += [column_label(f"{n}.{q}") for n in stages for q in per_stage]
+            cols += ["message", "elapsed [s]"]
+            self._cols = (metrics, stages, cols, per_stage)
+        return self._cols
+
+    def _uses_stage_model(self) -> bool:
+        """True when a stage of the base problem or a study choice names a propellant or a structure model."""
+        stages = [s for s in self.study.base.get("stage", []) if isinstance(s, dict)]
+        if any("propellant" in s or "structure" in s for s in stages):
+            return True
+        return any(".structure." in ax.field or ax.field.endswith(".propellant") for ax in self.study.spec.axis)
+
     def frame(self, rows: list[dict[str, Any]] | None = None):
-        """Cases as a pandas DataFrame: inputs, metrics and per-stage masses, units in headers."""
+        """Cases as a pandas DataFrame: inputs (SI numbers), metrics and per-stage masses,
+        units in headers. All stored cases unless `rows` is given."""
         import pandas as pd
 
-        units = self.input_units
-        cu = self.study.cost_unit
-        src = self.rows if rows is None else rows
-        # every stage name any case has, bottom first, so columns keep one order
-        stage_names: list[str] = []
-        for r in src:
-            for s in (r.get("result") or {}).get("stages", []) or []:
-                if s.get("name") not in stage_names:
-                    stage_names.append(s.get("name"))
-        metric_names: list[str] = []
-        for r in src:
-            for k in r["metrics"]:
-                if "." not in k and k not in metric_names:
-                    metric_names.append(k)
-        # stage-model quantities (tank lengths, engines...) only where some case has them
-        model_cols = tuple(q for q in _STAGE_MODEL_COLUMNS if any(
-            s.get(q) is not None for r in src for s in (r.get("result") or {}).get("stages", []) or []))
+        if rows is None:
+            parts = [self._frame_of(chunk) for chunk in self.iter_rows()]
+            return pd.concat(parts, ignore_index=True) if parts else self._frame_of([])
+        return self._frame_of(rows)
+
+    def _frame_of(self, rows: list[dict[str, Any]]):
+        import pandas as pd
+
+        metrics, stages, cols, per_stage = self._columns()
+        conv = input_converters(self.study)
+        ident = (lambda v: v)
         records = []
-        for r in src:
-            rec: dict[str, Any] = {"case_id": r["case_id"], "status": r["status"],
-                                   "pareto_rank [-]": r["rank"]}
-            for k in self.input_names:
-                rec[input_label(k, units.get(k, ""))] = r["inputs"].get(k)
-            for k in metric_names:
-                rec[column_label(k, cost_unit=cu)] = r["metrics"].get(k)
+        for r in rows:
+            rec: list[Any] = [r["case_id"], r["status"], r.get("rank", self.rank_of(r["case_id"]))]
+            inp = r["inputs"]
+            rec += [conv.get(k, ident)(inp.get(k)) for k in self.input_names]
+            m = r["metrics"]
+            rec += [m.get(k) for k in metrics]
             by_name = {s.get("name"): s for s in (r.get("result") or {}).get("stages", []) or []}
-            for n in stage_names:
+            for n in stages:
                 s = by_name.get(n, {})
-                for q in _STAGE_COLUMNS + model_cols:
-                    rec[column_label(f"{n}.{q}")] = s.get(q)
-            rec["message"] = r["message"]
-            rec["elapsed [s]"] = r["elapsed_s"]
+                rec += [s.get(q) for q in per_stage]
+            rec += [r["message"], r["elapsed_s"]]
             records.append(rec)
-        return pd.DataFrame.from_records(records)
+        return pd.DataFrame.from_records(records, columns=cols)
 
 
 _STAGE_COLUMNS = ("ignition_mass_kg", "propellant_mass_kg", "structural_mass_kg", "delta_v_m_s")
-#: Stage-model outputs added per stage when a case has them (see sizing.result.StageResult).
+#: Stage-model outputs added per stage when the study's stages use the stage model (sizing.result.StageResult).
 _STAGE_MODEL_COLUMNS = ("structural_coefficient", "fuel_mass_kg", "oxidiser_mass_kg", "fuel_volume_m3",
                         "oxidiser_volume_m3", "stage_length_m", "length_to_diameter", "engine_count",
                         "engine_mass_kg", "thrust_to_weight", "burn_time_s", "gravity_loss_m_s")
@@ -207,6 +315,9 @@ def _study_from_store(store: StudyStore) -> Study:
 def load_results(folder: str | Path) -> StudyResults:
     """Read a study's output folder and rank its feasible cases.
 
+    Only case ids, statuses and objective values are read (SQL), so loading a
+    million-case study takes seconds and little memory.
+
     Raises
     ------
     StudyOutputConflictError
@@ -214,28 +325,33 @@ def load_results(folder: str | Path) -> StudyResults:
     """
     with StudyStore(folder) as store:
         study = _study_from_store(store)
-        rows = store.rows()
-        total = int(store.get_meta("n_cases") or len(rows))
-    obs = study.objectives
-    ok = [r for r in rows if r["status"] == "ok"]
-    for r in rows:
-        r["rank"] = -1
-    if ok:
-        F = np.array([[r["metrics"].get(o.metric, math.nan) for o in obs] for r in ok], dtype=float)
-        ranks = non_dominated_ranks(to_minimisation(F, [o.sense for o in obs]), max_rank=50)
-        for r, k in zip(ok, ranks):
-            r["rank"] = int(k)
-    return StudyResults(Path(folder), study, rows, total)
+        obs = study.objectives
+        ids, status, vals = store.metric_columns([o.metric for o in obs])
+        total = int(store.get_meta("n_cases") or len(ids))
+    case_ids = np.asarray(ids, dtype=np.int64)
+    st = np.asarray(status, dtype=object)
+    F = np.array(vals, dtype=float).reshape(len(ids), len(obs)) if ids else np.empty((0, len(obs)))
+    ranks = np.full(len(ids), -1, dtype=int)
+    ok = np.flatnonzero(st == "ok")
+    if ok.size:
+        G = to_minimisation(F[ok], [o.sense for o in obs])
+        ranks[ok] = non_dominated_ranks(G, max_rank=RANK_CAP)
+    return StudyResults(Path(folder), study, total, case_ids, st, F, ranks)
 
 
 def write_outputs(folder: str | Path, *, report: bool = True) -> dict[str, Path]:
     """Write pareto.csv, pareto.xlsx, cases.csv and (optionally) report.html.
+
+    cases.csv is written a chunk of cases at a time, so memory stays bounded
+    at any study size.
 
     Returns
     -------
     dict
         Name -> path of each file written.
     """
+    from ..report.xlsx import write_frames_xlsx
+
     res = load_results(folder)
     folder = Path(folder)
     with StudyStore(folder) as store:
@@ -244,17 +360,19 @@ def write_outputs(folder: str | Path, *, report: bool = True) -> dict[str, Path]
     pf = res.frame(res.pareto)
     pf.to_csv(folder / PARETO_CSV, index=False)
     out["pareto_csv"] = folder / PARETO_CSV
-    try:
-        import pandas as pd
+    import pandas as pd
 
-        with pd.ExcelWriter(folder / PARETO_XLSX, engine="openpyxl") as xw:
-            pf.to_excel(xw, index=False, sheet_name="pareto")
-            pd.DataFrame({"caution": [CAUTION]}).to_excel(xw, index=False, sheet_name="caution")
-        out["pareto_xlsx"] = folder / PARETO_XLSX
-    except ImportError:  # pragma: no cover - openpyxl is a dependency
-        pass
-    res.frame().to_csv(folder / CASES_CSV, index=False)
-    out["cases_csv"] = folder / CASES_CSV
+    write_frames_xlsx(folder / PARETO_XLSX, [
+        ("pareto", pf), ("caution", pd.DataFrame({"caution": [CAUTION]}))])
+    out["pareto_xlsx"] = folder / PARETO_XLSX
+    path = folder / CASES_CSV
+    first = True
+    for chunk in res.iter_rows():
+        res._frame_of(chunk).to_csv(path, index=False, header=first, mode="w" if first else "a")
+        first = False
+    if first:
+        res._frame_of([]).to_csv(path, index=False)
+    out["cases_csv"] = path
     caution = folder / CAUTION_TXT
     caution.write_text(
         f"{res.study.name}: study results in this folder (cases.csv, pareto.csv, pareto.xlsx, "
@@ -269,41 +387,11 @@ def write_outputs(folder: str | Path, *, report: bool = True) -> dict[str, Path]
 
 def write_report(res: StudyResults, path: str | Path | None = None) -> Path:
     """Render the study's self-contained HTML report (see `sizing.report.html`)."""
-    from ..report.html import StudyReportData, write_study_report
+    from ..report.html import write_study_report
+    from .report_data import report_data
 
-    units = res.input_units
-    data = StudyReportData(
-        title=res.study.name,
-        vehicle=res.study.spec.study.vehicle or "",
-        description=res.study.spec.study.description or "",
-        source=res.study.source,
-        objectives=[(o.metric, o.sense, o.label) for o in res.study.objectives],
-        constraints=[b.label for b in res.study.bounds],
-        cost_unit=res.study.cost_unit,
-        input_names=res.input_names,
-        input_units=units,
-        total=res.total,
-        cases=[{"case_id": r["case_id"], "status": r["status"], "message": r["message"],
-                "rank": r["rank"], "inputs": r["inputs"], "metrics": {
-                    k: v for k, v in r["metrics"].items() if "." not in k}}
-               for r in res.rows],
-        designs={r["case_id"]: _design(r) for r in res.pareto},
-    )
     p = Path(path) if path is not None else res.folder / REPORT_HTML
-    return write_study_report(data, p)
-
-
-def _design(row: dict[str, Any]) -> dict[str, Any]:
-    """What the report shows for one Pareto design: stages and delta-v budget."""
-    res = row.get("result") or {}
-    stages = [{k: s.get(k) for k in ("name", "isp_s", "structural_coefficient", "ignition_mass_kg",
-                                     "propellant_mass_kg", "structural_mass_kg", "mass_ratio",
-                                     "payload_ratio", "delta_v_m_s", "delta_v_share")}
-              for s in res.get("stages", []) or []]
-    losses = res.get("losses_m_s") if isinstance(res.get("losses_m_s"), dict) else {}
-    return {"stages": stages, "gross_mass_kg": res.get("gross_mass_kg"),
-            "payload_mass_kg": res.get("payload_mass_kg"), "delta_v_m_s": res.get("delta_v_m_s"),
-            "losses_m_s": {k: v for k, v in losses.items() if isinstance(v, (int, float))}}
+    return write_study_report(report_data(res), p)
 
 
 def write_review_pack(folder: str | Path, case_id: int, out_dir: str | Path | None = None) -> Path:
@@ -370,6 +458,6 @@ def write_review_pack(folder: str | Path, case_id: int, out_dir: str | Path | No
     for k, v in row["metrics"].items():
         if "." not in k:
             lines.append(f"| {column_label(k, cost_unit=study.cost_unit)} | {v:,.6g} |")
-    lines += ["", result_markdown(result, title=f"{study.name}, case {case_id}")]
+    lines += ["", result_markdown(result, title=f"{study.name}, case {case_id}", caution=None)]
     (out / "review.md").write_text("\n".join(lines) + "\n", encoding="utf-8")
     return out

@@ -110,10 +110,8 @@ def _make_engine(engine: str, ctx: EvalContext, workers: int | None, scheduler,
         return LocalEngine(ctx, workers=workers, case_function=case_function)
     if engine == "serial":
         return SerialEngine(ctx, case_function=case_function)
-    if engine == "dask":
-        if scheduler is None:
-            raise ValueError("engine 'dask' needs a scheduler address, e.g. --scheduler tcp://host:8786.")
-        return DaskEngine(ctx, scheduler=scheduler, case_function=case_function)
+    if engine == "dask":  # scheduler None: a local cluster of `workers` processes
+        return DaskEngine(ctx, scheduler=scheduler, case_function=case_function, workers=workers)
     raise ValueError(f"unknown engine {engine!r}. Choose one of: 'local', 'dask', 'serial'.")
 
 
@@ -146,7 +144,7 @@ def run_study(study: Study | str | Path, out: str | Path, *, engine: str = "loca
               workers: int | None = None, scheduler: Any = None, restart: bool = False,
               on_progress: Callable[[StudyProgress], None] | None = None,
               case_function: CaseFunction | None = None, store: str = "sqlite",
-              write_outputs: bool = True) -> StudySummary:
+              write_outputs: bool = True, on_message: Callable[[str], None] | None = None) -> StudySummary:
     """Run (or resume) a study into an output folder.
 
     Parameters
@@ -162,7 +160,8 @@ def run_study(study: Study | str | Path, out: str | Path, *, engine: str = "loca
     workers : int, optional
         Local worker processes (default: all cores).
     scheduler : str or distributed.Client, optional
-        For ``engine='dask'``: ``tcp://host:port`` or a client.
+        For ``engine='dask'``: ``tcp://host:port`` or a client; None starts a
+        local Dask cluster of `workers` processes.
     restart : bool
         Discard results stored by a different (or the same) study file.
     on_progress : callable, optional
@@ -173,6 +172,9 @@ def run_study(study: Study | str | Path, out: str | Path, *, engine: str = "loca
         'none' keeps nothing (benchmarks measure the store's overhead with it).
     write_outputs : bool
         Write the Pareto exports and the HTML report when the study completes.
+    on_message : callable, optional
+        Called with one line of text about the run, e.g. where a Dask cluster's
+        dashboard is.
 
     Returns
     -------
@@ -234,6 +236,8 @@ def run_study(study: Study | str | Path, out: str | Path, *, engine: str = "loca
             eng = _make_engine(engine, ctx, workers, scheduler, case_function)
             eng.start()
             summary.workers = eng.parallelism
+            if on_message is not None and hasattr(eng, "description"):
+                on_message(eng.description)
             try:
                 _drive(eng, todo, batch, report)
             except KeyboardInterrupt:

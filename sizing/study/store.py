@@ -17,7 +17,7 @@ import math
 import sqlite3
 from datetime import datetime, timezone
 from pathlib import Path
-from typing import Any, Iterable, Mapping
+from typing import Any, Iterable, Iterator, Mapping, Sequence
 
 from ..errors import StudyOutputConflictError
 
@@ -78,6 +78,13 @@ def encode_outcome(outcome: dict[str, Any], inputs: Any = None) -> dict[str, Any
 
 def _enc(v: Any) -> str:
     return v if isinstance(v, str) else _json(v)
+
+
+def _decode(r: tuple) -> dict[str, Any]:
+    return {"case_id": r[0], "key": r[1], "status": r[2], "message": r[3],
+            "inputs": json.loads(r[4]), "metrics": json.loads(r[5]),
+            "result": None if r[6] is None else json.loads(r[6]),
+            "elapsed_s": r[7], "attempts": r[8], "finished_utc": r[9]}
 
 
 class StudyStore:
@@ -190,13 +197,70 @@ class StudyStore:
         cols = ("case_id, case_key, status, message, inputs, metrics, "
                 + ("result, " if with_result else "NULL, ") + "elapsed_s, attempts, finished_utc")
         where, args = ("WHERE case_id = ?", (int(case_id),)) if case_id is not None else ("", ())
-        out = []
-        for r in self._con.execute(f"SELECT {cols} FROM cases {where} ORDER BY case_id", args):
-            out.append({"case_id": r[0], "key": r[1], "status": r[2], "message": r[3],
-                        "inputs": json.loads(r[4]), "metrics": json.loads(r[5]),
-                        "result": None if r[6] is None else json.loads(r[6]),
-                        "elapsed_s": r[7], "attempts": r[8], "finished_utc": r[9]})
-        return out
+        return [_decode(r) for r in self._con.execute(f"SELECT {cols} FROM cases {where} ORDER BY case_id", args)]
+
+    def iter_rows(self, *, with_result: bool = True, case_ids: Iterable[int] | None = None,
+                  chunk: int = 5000) -> Iterator[list[dict[str, Any]]]:
+        """Stored cases in chunks of at most `chunk` rows, ordered by case id (JSON decoded).
+
+        Only one chunk is in memory at a time, so a million-case study can be
+        exported with bounded memory. ``case_ids`` restricts the rows read.
+        """
+        cols = ("case_id, case_key, status, message, inputs, metrics, "
+                + ("result, " if with_result else "NULL, ") + "elapsed_s, attempts, finished_utc")
+        if case_ids is None:
+            cur = self._con.execute(f"SELECT {cols} FROM cases ORDER BY case_id")
+            while True:
+                batch = cur.fetchmany(chunk)
+                if not batch:
+                    return
+                yield [_decode(r) for r in batch]
+        ids = sorted({int(i) for i in case_ids})
+        step = 900  # below SQLite's limit on bound parameters
+        buf: list[dict[str, Any]] = []
+        for i in range(0, len(ids), step):
+            part = ids[i:i + step]
+            q = f"SELECT {cols} FROM cases WHERE case_id IN ({','.join('?' * len(part))}) ORDER BY case_id"
+            buf.extend(_decode(r) for r in self._con.execute(q, part))
+            if len(buf) >= chunk:
+                yield buf
+                buf = []
+        if buf:
+            yield buf
+
+    def metric_columns(self, metrics: Sequence[str]) -> tuple[list[int], list[str], list[tuple]]:
+        """Case ids, statuses and the named metrics of every stored case, read in SQL.
+
+        The metrics are pulled out of each row's JSON by SQLite (``json_extract``),
+        so ranking a study never decodes its result blobs in Python.
+
+        Returns
+        -------
+        (case_ids, statuses, values)
+            ``values[i]`` holds the metrics of case i in the order asked (None when absent).
+        """
+        ex = "".join(", json_extract(metrics, ?)" for _ in metrics)
+        args = [f'$."{m}"' for m in metrics]
+        ids: list[int] = []
+        status: list[str] = []
+        vals: list[tuple] = []
+        for r in self._con.execute(f"SELECT case_id, status{ex} FROM cases ORDER BY case_id", args):
+            ids.append(r[0])
+            status.append(r[1])
+            vals.append(r[2:])
+        return ids, status, vals
+
+    def metric_names(self) -> list[str]:
+        """Every metric name any stored case has: those of the first feasible case in its
+        order, then the others in name order."""
+        first = self._con.execute("SELECT metrics FROM cases WHERE status = 'ok' ORDER BY case_id LIMIT 1"
+                                  ).fetchone()
+        names = list(json.loads(first[0])) if first else []
+        seen = set(names)
+        extra = [k for (k,) in self._con.execute(
+            "SELECT DISTINCT j.key FROM cases, json_each(cases.metrics) AS j ORDER BY j.key")
+            if k not in seen]
+        return names + extra
 
     def result_of(self, case_id: int) -> dict[str, Any] | None:
         """One stored case, or None."""

@@ -106,7 +106,7 @@ def test_cli_study_bad_first_case_then_fixed_file_same_folder(tmp_path, capsys):
 
 
 @pytest.mark.parametrize("argv, msg", [
-    (["--engine", "dask"], "--scheduler: required with --engine dask"),
+    (["--engine", "local", "--scheduler", "tcp://127.0.0.1:1"], "--scheduler: only used with --engine dask"),
     (["--workers", "0"], "--workers: must be >= 1"),
 ])
 def test_cli_study_bad_options(tmp_path, capsys, argv, msg):

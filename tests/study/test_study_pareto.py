@@ -42,6 +42,33 @@ def test_pareto_mask_matches_brute_force(F):
     assert non_dominated_ranks(F).tolist() == _brute_ranks(F).tolist()
 
 
+@given(F=st.integers(1, 4).flatmap(lambda k: arrays(
+    np.float64, st.tuples(st.integers(1, 60), st.just(k)),
+    elements=st.integers(0, 4).map(float))), cap=st.integers(1, 4))
+def test_non_dominated_ranks_capped_matches_brute_force(F, cap):
+    """Property: with max_rank, ranks below the cap are exact and the rest equal the cap
+    (one to four objectives, many ties)."""
+    want = np.minimum(_brute_ranks(F), cap)
+    assert non_dominated_ranks(F, max_rank=cap).tolist() == want.tolist()
+    assert pareto_mask(F).tolist() == _brute_mask(F).tolist()
+
+
+def test_pareto_blocked_scan_crosses_blocks():
+    """More rows than one scan block (2048): fronts found across blocks equal the definition."""
+    rng = np.random.default_rng(3)
+    F = np.round(rng.random((2600, 3)) * 20.0)
+    F[:, 2] = 40.0 - F[:, 0] - F[:, 1] + np.round(rng.random(2600) * 3.0)
+    # the definition, vectorised: dom[i, j] = row j dominates row i
+    dom = np.all(F[None, :, :] <= F[:, None, :], axis=2) & np.any(F[None, :, :] < F[:, None, :], axis=2)
+    want = np.full(len(F), 3)
+    left = np.ones(len(F), dtype=bool)
+    for r in range(3):
+        front = left & ~np.any(dom[:, left], axis=1)
+        want[front] = r
+        left &= ~front
+    assert non_dominated_ranks(F, max_rank=3).tolist() == want.tolist()
+
+
 def test_pareto_random_continuous_three_objectives():
     F = np.random.default_rng(7).random((300, 3))
     assert pareto_mask(F).tolist() == _brute_mask(F).tolist()

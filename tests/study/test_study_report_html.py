@@ -56,15 +56,15 @@ NO_WEBGL = """(function () { var g = HTMLCanvasElement.prototype.getContext;
     return /webgl/i.test(String(t)) ? null : g.apply(this, arguments); }; })();"""
 
 
-def _open(p, report, problems, *, webgl=True):
+def _open(p, report, problems, *, webgl=True, width=1400):
     browser = p.chromium.launch(executable_path=CHROMIUM, args=ARGS)
-    page = browser.new_page()
+    page = browser.new_page(viewport={"width": width, "height": 900})
     if not webgl:
         page.add_init_script(NO_WEBGL)
     page.on("console", lambda m: problems.append(m.text) if m.type == "error" else None)
     page.on("pageerror", lambda e: problems.append(str(e)))
     page.goto(report.as_uri())
-    page.wait_for_selector('body[data-ready="1"]', timeout=30000)
+    page.wait_for_selector('body[data-drawn="1"]', timeout=60000, state="attached")
     return browser, page
 
 
@@ -82,7 +82,7 @@ def test_report_plots_readable_in_headless_chromium(report):
             assert page.get_attribute("body", "data-parcoords") == "webgl"
             dims = page.evaluate("document.getElementById('plot-parcoords').data[0].dimensions"
                                  ".map(function (d) { return [d.label, d.tickvals || null]; })")
-            (ticks,) = [t for label, t in dims if label.startswith("stage_count")]
+            (ticks,) = [t for label, t in dims if label.startswith("stage count [-]")]
             assert ticks == [2, 3]
             bars = page.evaluate("document.getElementById('plot-stack').data.map(function (t) {"
                                  " return [t.name, t.marker.color, (t.marker.pattern || {}).shape || ''];})")
@@ -128,7 +128,7 @@ def test_report_in_headless_chromium(report):
             page.on("request", lambda r: problems.append(f"network: {r.url}")
                     if not r.url.startswith(("file:", "data:", "blob:")) else None)
             page.goto(report.as_uri())
-            page.wait_for_selector('body[data-ready="1"]', timeout=30000)
+            page.wait_for_selector('body[data-drawn="1"]', timeout=60000, state="attached")
             assert page.evaluate("window.__xss") is None
             assert page.text_content("#title") == EVIL_TITLE
             assert EVIL_VEHICLE in page.text_content("#vehicle")

@@ -267,7 +267,7 @@ def test_study_dask_engine_local_cluster(tmp_path, monkeypatch):
     run_study(study, tmp_path / "local", engine="serial", write_outputs=False)
     with dask.config.set({"distributed.scheduler.allowed-failures": 0}):
         with distributed.LocalCluster(n_workers=2, threads_per_worker=1, processes=True,
-                                      host="127.0.0.1", dashboard_address=None) as cluster:
+                                      host="127.0.0.1", dashboard_address="127.0.0.1:0") as cluster:
             with distributed.Client(cluster) as client:
                 summary = run_study(study, tmp_path / "dask", engine="dask", scheduler=client,
                                     case_function=dying_cases, write_outputs=False)
@@ -342,3 +342,64 @@ def test_result_metrics_target_error_carries_the_target_unit():
     assert column_label("target_error_m") == "target_error [m]"
     assert column_label("target_error_m_s") == "target_error [m/s]"
     assert column_label("max_dynamic_pressure_pa") == "max_dynamic_pressure [Pa]"
+
+
+def test_study_dask_local_cluster_from_the_command_line(tmp_path, capsys):
+    """`--engine dask` without a scheduler starts a local cluster for the run and prints
+    where it is and its dashboard; the results equal the local engine's."""
+    pytest.importorskip("distributed")
+    from sizing.cli import main
+
+    spec = tmp_path / "s.toml"
+    spec.write_text(_toml_of_small_study())
+    assert main(["study", str(spec), "--out", str(tmp_path / "dask"), "--quiet", "--no-report",
+                 "--engine", "dask", "--workers", "2"]) == 0
+    err = capsys.readouterr().err
+    assert "Dask local cluster at tcp://127.0.0.1:" in err and ", 2 workers" in err
+    assert "dashboard: http://127.0.0.1:" in err or "serves no dashboard" in err
+    run_study(study_from_dict(small_study()), tmp_path / "local", engine="serial", write_outputs=False)
+    a, b = _rows(tmp_path / "local"), _rows(tmp_path / "dask")
+    assert sorted(a) == sorted(b)
+    for k in a:
+        assert b[k]["metrics"]["gross_mass_kg"] == pytest.approx(a[k]["metrics"]["gross_mass_kg"], rel=1e-12)
+
+
+def test_study_dask_worker_killed_mid_run_loses_no_case(tmp_path, monkeypatch):
+    """SIGKILL of a Dask worker process while it sizes cases: every case is still stored
+    once, with the results of an uninterrupted run."""
+    distributed = pytest.importorskip("distributed")
+    import threading
+
+    monkeypatch.setenv("SIZING_TEST_DELAY_S", "0.05")
+    data = small_study(axis=[
+        {"field": "mission.payload_mass", "start": 1000.0, "stop": 9000.0, "num": 8},
+        {"field": "mission.delta_v", "start": 8000.0, "stop": 10000.0, "num": 5},
+    ])
+    data["study"]["solver"] = "each"
+    study = study_from_dict(data)
+    run_study(study, tmp_path / "ref", engine="serial", write_outputs=False)
+    from study_helpers import slow_cases
+
+    out = tmp_path / "dask"
+    with distributed.LocalCluster(n_workers=2, threads_per_worker=1, processes=True,
+                                  host="127.0.0.1", dashboard_address="127.0.0.1:0") as cluster:
+        with distributed.Client(cluster) as client:
+            pids = client.run(os.getpid)
+            done: dict = {}
+            t = threading.Thread(target=lambda: done.update(s=run_study(
+                study, out, engine="dask", scheduler=client, case_function=slow_cases,
+                write_outputs=False)))
+            t.start()
+            t_end = time.monotonic() + 60.0
+            while time.monotonic() < t_end and not ((out / "study.sqlite").exists() and len(_rows(out)) >= 6):
+                time.sleep(0.02)
+            n_at_kill = len(_rows(out))
+            os.kill(next(iter(pids.values())), signal.SIGKILL)
+            t.join(timeout=120)
+    assert not t.is_alive()
+    assert 6 <= n_at_kill < 40, "the kill came too late to interrupt the study"
+    assert done["s"].counts == {"ok": 40}
+    ref, got = _rows(tmp_path / "ref"), _rows(out)
+    assert sorted(got) == sorted(ref)
+    for k, r in ref.items():
+        assert got[k]["metrics"]["gross_mass_kg"] == pytest.approx(r["metrics"]["gross_mass_kg"], rel=1e-12)

@@ -1,0 +1,451 @@
+"""Stage masses and ascent steering optimised together for a target orbit (direct shooting).
+
+The design vector holds, scaled to O(1):
+
+* the log of each stage's propellant mass relative to a starting split;
+* the pitch kick [deg] and a launch-azimuth offset [deg] (the first stage flies
+  a vertical rise, the kick and a zero-lift gravity turn: no angle of attack
+  through the dense atmosphere);
+* the pitch above the local horizontal [deg] at nodes spread evenly over each
+  upper stage's ascent burn, interpolated linearly in time (the steering
+  programme written to the design file); upper stages steer in the plane of
+  an orbit of the target inclination through the current point;
+* with a coast-and-insertion arc: the coast [s], the insertion burn's fixed
+  pitch [deg] and the insertion burn's share of the last stage's propellant
+  (restart), or the kick stage's coast (a separate insertion stage).
+
+Every evaluation flies the whole ascent, coast and insertion burn with the
+compiled kernel (`sizing.physics.flight`). Constraints: perigee and apogee
+radii of the final orbit, inclination, and optional path limits (max-q, max
+sensed acceleration) and a pitch-rate limit (linear in the nodes). Objective:
+gross liftoff mass, or minus the payload for a fixed gross mass. Solved by
+`sizing.optimize.shooting.solve_shooting` in two passes: the stage split held
+in its starting proportions with one overall scale (finds the steering and a
+feasible size), then every stage free.
+
+A stage that carries no useful propellant shrinks towards the lower bound; the
+result says so (`FlightSizingResult.warnings`).
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field, replace
+
+import numpy as np
+
+from sizing.errors import FieldError
+from sizing.optimize.shooting import ShootingResult, find_feasible, solve_shooting
+from sizing.physics.flight import AscentProfile
+from sizing.physics.flight import layout as L
+from sizing.physics.flight.kernel import run_flight
+from sizing.physics.flight.profiles import InsertionBurn
+from sizing.physics.flight.setup import burn_schedule, prepare_flight, replay_steps
+from sizing.physics.gravity import circular_speed_m_s, launch_azimuth_deg, site_rotation_speed_m_s
+from sizing.physics.rocket import stack_masses
+from sizing.physics.staging import optimal_mass_ratios
+from sizing.physics.vehicle import FlightStageSpec, LaunchSite, Vehicle, build_vehicle
+from sizing.units import GM_EARTH_M3_S2, R_EARTH_EQ_M
+
+__all__ = ["INSERTION_MODES", "OrbitGoal", "PathLimits", "OrbitDesign", "size_for_orbit"]
+
+#: How the vehicle reaches the target orbit.
+INSERTION_MODES = ("coast", "kick_stage", "direct")
+_PITCH_SCALE_DEG = 30.0
+COAST0 = 300.0  # starting insertion coast [s]
+_COAST_SCALE_S = 1000.0
+_SHARE_SCALE = 0.05  # insertion share of the last stage's propellant per unit
+
+
+@dataclass(frozen=True, slots=True)
+class OrbitGoal:
+    """Target orbit.
+
+    Parameters
+    ----------
+    perigee_altitude_m, apogee_altitude_m : float
+        Apsis altitudes above the equatorial radius [m] (equal: circular).
+    inclination_deg : float, optional
+        Orbit inclination [deg]; None flies the site's azimuth and leaves it free.
+    ascending : bool
+        Northbound (True) or southbound pass over the site.
+    insertion : str
+        ``"coast"``: the last stage burns into a transfer orbit, coasts and
+        restarts to raise the perigee (circularise); ``"kick_stage"``: the last
+        stage is an insertion stage that ignites after the coast;
+        ``"direct"``: final burnout is the insertion.
+    """
+
+    perigee_altitude_m: float
+    apogee_altitude_m: float
+    inclination_deg: float | None = None
+    ascending: bool = True
+    insertion: str = "coast"
+
+    def __post_init__(self) -> None:
+        if self.insertion not in INSERTION_MODES:
+            raise FieldError("mission.insertion", f"must be one of {', '.join(map(repr, INSERTION_MODES))}.",
+                             self.insertion)
+        if not self.apogee_altitude_m >= self.perigee_altitude_m:
+            raise FieldError("mission.orbit_apogee", "must be >= the perigee altitude.", self.apogee_altitude_m)
+
+
+@dataclass(frozen=True, slots=True)
+class PathLimits:
+    """Path limits a reviewer sets (None: no limit).
+
+    max_dynamic_pressure_pa [Pa], max_acceleration_m_s2 (sensed) [m/s^2],
+    max_pitch_rate_deg_s (between programme nodes) [deg/s].
+    """
+
+    max_dynamic_pressure_pa: float | None = None
+    max_acceleration_m_s2: float | None = None
+    max_pitch_rate_deg_s: float | None = None
+
+
+@dataclass(frozen=True, slots=True)
+class OrbitDesign:
+    """An optimised launcher: masses, vehicle, site, steering programme, and the optimiser's account."""
+
+    vehicle: Vehicle
+    site: LaunchSite
+    profile: AscentProfile
+    propellant_mass_kg: tuple[float, ...]
+    structural_mass_kg: tuple[float, ...]
+    payload_mass_kg: float
+    success: bool
+    message: str
+    n_flights: int
+    n_iterations: int
+    residuals: dict = field(default_factory=dict)
+    warnings: tuple[str, ...] = ()
+
+
+@dataclass(slots=True)
+class _Layout:
+    """Where each variable sits in z, and how to turn z into a flight."""
+
+    specs: tuple[FlightStageSpec, ...]
+    payload_kg: float
+    site: LaunchSite
+    goal: OrbitGoal
+    mp_ref: np.ndarray
+    nodes: int
+    vertical_rise_s: float
+    kick_duration_s: float
+    azimuth_deg: float
+    plane_inclination_deg: float | None
+    payload_diameter_m: float | None
+    staging_delay_s: float
+    scale_only: bool = False  # pass 1: one overall mass scale
+    n_mass: int = 0
+    i_kick: int = 0
+    i_az: int = 0
+    i_pitch: int = 0
+    n_pitch: int = 0
+    i_ins: int = -1  # coast, pitch, share (coast mode) or coast, pitch (kick stage)
+    steered: tuple[int, ...] = ()
+
+    def __post_init__(self) -> None:
+        n = len(self.specs)
+        kick_stage = self.goal.insertion == "kick_stage"
+        last_steered = n - 2 if kick_stage else n - 1
+        self.steered = tuple(range(min(1, n - 1) if n > 1 else 0, last_steered + 1))
+        self.n_mass = 1 if self.scale_only else n
+        self.i_kick = self.n_mass
+        self.i_az = self.i_kick + 1
+        self.i_pitch = self.i_az + 1
+        self.n_pitch = 1 + (self.nodes - 1) * len(self.steered)
+        self.i_ins = self.i_pitch + self.n_pitch if self.goal.insertion != "direct" else -1
+
+    @property
+    def size(self) -> int:
+        extra = {"coast": 3, "kick_stage": 2, "direct": 0}[self.goal.insertion]
+        return self.i_pitch + self.n_pitch + extra
+
+    def bounds(self) -> tuple[np.ndarray, np.ndarray]:
+        lo = np.full(self.size, -np.inf)
+        hi = np.full(self.size, np.inf)
+        lo[:self.n_mass], hi[:self.n_mass] = math.log(1e-3), math.log(20.0)
+        lo[self.i_kick], hi[self.i_kick] = 0.02, 3.0  # 0.2 .. 30 deg / 10
+        lo[self.i_az], hi[self.i_az] = -5.0, 5.0  # deg
+        sl = slice(self.i_pitch, self.i_pitch + self.n_pitch)
+        lo[sl], hi[sl] = -60.0 / _PITCH_SCALE_DEG, 80.0 / _PITCH_SCALE_DEG
+        if self.i_ins >= 0:
+            lo[self.i_ins], hi[self.i_ins] = 0.0, 8.0  # coast up to 8000 s
+            lo[self.i_ins + 1], hi[self.i_ins + 1] = -45.0 / _PITCH_SCALE_DEG, 45.0 / _PITCH_SCALE_DEG
+            if self.goal.insertion == "coast":
+                lo[self.i_ins + 2], hi[self.i_ins + 2] = 0.002 / _SHARE_SCALE, 0.9 / _SHARE_SCALE
+        return lo, hi
+
+    def masses(self, z: np.ndarray) -> tuple[list[float], list[float]]:
+        if self.scale_only:
+            mp = self.mp_ref * math.exp(z[0])
+        else:
+            mp = self.mp_ref * np.exp(z[:self.n_mass])
+        ms = [s.structural_coefficient / (1.0 - s.structural_coefficient) * m for s, m in zip(self.specs, mp)]
+        return [float(m) for m in mp], ms
+
+    def gross_mass(self, z: np.ndarray) -> float:
+        mp, ms = self.masses(z)
+        return self.payload_kg + sum(mp) + sum(ms)
+
+    def vehicle(self, z: np.ndarray) -> Vehicle:
+        mp, ms = self.masses(z)
+        return build_vehicle(self.specs, mp, ms, self.payload_kg, payload_diameter_m=self.payload_diameter_m,
+                             staging_delay_s=self.staging_delay_s)
+
+    def insertion(self, z: np.ndarray, vehicle: Vehicle) -> InsertionBurn | None:
+        if self.i_ins < 0:
+            return None
+        coast = float(z[self.i_ins]) * _COAST_SCALE_S
+        pitch = float(z[self.i_ins + 1]) * _PITCH_SCALE_DEG
+        if self.goal.insertion == "coast":
+            share = float(z[self.i_ins + 2]) * _SHARE_SCALE
+            return InsertionBurn(coast, pitch, share * vehicle.stages[-1].propellant_mass_kg)
+        return InsertionBurn(coast, pitch)
+
+    def node_rows(self, vehicle: Vehicle, insertion: InsertionBurn | None) -> list[tuple[float, int]]:
+        """(time since liftoff [s], pitch-variable index) of each programme row.
+
+        Node n of the j-th steered stage is variable j (nodes - 1) + n, so a
+        stage's last node is the next stage's first (held across staging).
+        """
+        sched = burn_schedule(vehicle, ignore_first_coast=True, insertion=insertion)
+        t_kick_end = self.vertical_rise_s + self.kick_duration_s
+        rows: list[tuple[float, int]] = []
+        for j, i in enumerate(self.steered):
+            a, b = sched.windows[i]
+            if insertion is not None and insertion.propellant_kg is not None and i == len(self.specs) - 1:
+                b = sched.cutoff_s
+            if i == 0:
+                a = max(a, t_kick_end)
+            for n in range(self.nodes):
+                t = a + (b - a) * n / (self.nodes - 1)
+                if not rows or t > rows[-1][0] + 1e-6:
+                    rows.append((float(t), j * (self.nodes - 1) + n))
+        return rows
+
+    def profile(self, z: np.ndarray, vehicle: Vehicle) -> AscentProfile:
+        insertion = self.insertion(z, vehicle)
+        pitch = np.asarray(z[self.i_pitch:self.i_pitch + self.n_pitch]) * _PITCH_SCALE_DEG
+        rows = [(t, float(pitch[k])) for t, k in self.node_rows(vehicle, insertion)]
+        first = self.specs[self.steered[0]].name if self.steered else None
+        table = len(rows) >= 2
+        return AscentProfile(
+            vertical_rise_s=self.vertical_rise_s, pitch_kick_deg=float(z[self.i_kick]) * 10.0,
+            kick_duration_s=self.kick_duration_s, steering="table" if table else "gravity_turn",
+            steer_from_stage=first, pitch_table=tuple(rows) if table else None,
+            hold_inclination_deg=self.plane_inclination_deg, ascending=self.goal.ascending, insertion=insertion)
+
+    def site_for(self, z: np.ndarray) -> LaunchSite:
+        return replace(self.site, azimuth_deg=(self.azimuth_deg + float(z[self.i_az])) % 360.0)
+
+    def pitch_rate_rows(self, z: np.ndarray, limit_deg_s: float) -> tuple[np.ndarray, np.ndarray]:
+        """Linear inequalities limit * dt -/+ (theta_j - theta_i) >= 0 between consecutive rows (dt of design z)."""
+        veh = self.vehicle(z)
+        rows = self.node_rows(veh, self.insertion(z, veh))
+        A, b = [], []
+        for (t0, i), (t1, j) in zip(rows, rows[1:]):
+            if i == j:
+                continue
+            for sign in (1.0, -1.0):
+                a = np.zeros(self.size)
+                a[self.i_pitch + j] -= sign * _PITCH_SCALE_DEG
+                a[self.i_pitch + i] += sign * _PITCH_SCALE_DEG
+                A.append(a)
+                b.append(limit_deg_s * (t1 - t0))
+        return np.array(A), np.array(b)
+
+
+def orbit_residuals_m_s(y: np.ndarray, rp_t: float, ra_t: float) -> tuple[list[float], float]:
+    """Speed-like residuals of a final state against a target orbit [m/s], and its inclination [deg].
+
+    Circular target (rp = ra = r_t): radial speed v_r, v_theta - sqrt(GM/r_t)
+    and the radius error as the speed that moves an apsis as far,
+    (r - r_t) v_c / (4 r_t) (vis-viva to first order). Three conditions: the
+    apsis pair alone is degenerate at zero eccentricity (|e| has no slope
+    there). Elliptical target: v - sqrt(GM (2/r - 1/a_t)) (vis-viva) and
+    (h - sqrt(GM p_t)) / r (angular momentum), which fix a and e. All are close
+    to linear in the burnout velocity, unlike apsis altitudes (about 3.6 km of
+    apogee per m/s in low orbit), which keeps the optimiser's linearisation
+    valid over its steps. Formulas: Curtis, Orbital Mechanics for Engineering
+    Students, 3rd ed., Ch. 2 (vis-viva, angular momentum; from memory).
+    """
+    r, v = y[0:3], y[3:6]
+    rn = float(np.linalg.norm(r))
+    h = np.cross(r, v)
+    hn = float(np.linalg.norm(h))
+    inc = math.degrees(math.acos(max(-1.0, min(1.0, h[2] / hn)))) if hn > 0 else 90.0
+    if abs(ra_t - rp_t) < 1.0:
+        v_c = math.sqrt(GM_EARTH_M3_S2 / rp_t)
+        v_r = float(r @ v) / rn
+        return [v_r, hn / rn - v_c, (rn - rp_t) * v_c / (4.0 * rp_t)], inc
+    a_t = 0.5 * (rp_t + ra_t)
+    p_t = 2.0 * rp_t * ra_t / (rp_t + ra_t)
+    v_req = math.sqrt(max(0.0, GM_EARTH_M3_S2 * (2.0 / rn - 1.0 / a_t)))
+    return [float(np.linalg.norm(v)) - v_req, (hn - math.sqrt(GM_EARTH_M3_S2 * p_t)) / rn], inc
+
+
+def _flight(lay: _Layout, z: np.ndarray, rtol: float, steps: np.ndarray | None = None):
+    """Fly design z; with `steps`, replay that step record (see `replay_steps`) when the phases allow it."""
+    vehicle = lay.vehicle(z)
+    profile = lay.profile(z, vehicle)
+    site = lay.site_for(z)
+    setup = prepare_flight(vehicle, site, profile="ascent", ascent=profile, rotating=True, stop_at="burnout",
+                           record_history=False, detect_impact=False, rtol=rtol)
+    if steps is not None:
+        setup = replay_steps(setup, steps) or setup
+    return vehicle, profile, site, run_flight(*setup.kernel_args(1))
+
+
+class _Outputs:
+    """fly(z) -> [objective, apsis residuals, inclination residual, path margins] for `solve_shooting`."""
+
+    def __init__(self, lay: _Layout, limits: PathLimits, *, max_payload_gross_kg: float | None, rtol: float):
+        self.lay, self.limits, self.rtol = lay, limits, rtol
+        self.gross_cap = max_payload_gross_kg
+        g = lay.goal
+        self.rp_t = R_EARTH_EQ_M + g.perigee_altitude_m
+        self.ra_t = R_EARTH_EQ_M + g.apogee_altitude_m
+        self.v_t = circular_speed_m_s(g.perigee_altitude_m)
+        self.n_orbit = 3 if abs(self.ra_t - self.rp_t) < 1.0 else 2
+        self.n_eq = self.n_orbit + (1 if g.inclination_deg is not None else 0)
+        self.n_ineq = (limits.max_dynamic_pressure_pa is not None) + (limits.max_acceleration_m_s2 is not None)
+        self.m_ref = lay.gross_mass(np.zeros(lay.size))
+
+    def __call__(self, z: np.ndarray, steps: np.ndarray | None = None) -> tuple[np.ndarray, np.ndarray | None]:
+        try:
+            _, _, _, (out, y, _, _, _, rec) = _flight(self.lay, z, self.rtol, steps)
+        except FieldError:  # a design outside the models' domain (e.g. thrust-to-weight <= 1)
+            return np.full(1 + self.n_eq + self.n_ineq, 1e3), None
+        token = rec[: int(out[L.OUT_N_STEPREC])].copy() if out[L.OUT_N_STEPREC] > 0 else None
+        orbit, inc = orbit_residuals_m_s(y, self.rp_t, self.ra_t)
+        res = [self.lay.gross_mass(z) / self.m_ref, *orbit]
+        if self.lay.goal.inclination_deg is not None:
+            res.append(math.radians(inc - self.lay.goal.inclination_deg) * self.v_t)  # plane error as a speed
+        if self.limits.max_dynamic_pressure_pa is not None:
+            res.append((self.limits.max_dynamic_pressure_pa - out[L.OUT_MAXQ]) / self.limits.max_dynamic_pressure_pa)
+        if self.limits.max_acceleration_m_s2 is not None:
+            res.append((self.limits.max_acceleration_m_s2 - out[L.OUT_MAX_ACC]) / self.limits.max_acceleration_m_s2)
+        return np.array(res), (token if steps is None else None)
+
+
+def _initial_split(specs, payload_kg: float, goal: OrbitGoal, site: LaunchSite, loss_guess_m_s: float) -> np.ndarray:
+    """Lagrange-optimal propellant masses for the orbit speed plus a loss guess minus the rotation bonus."""
+    v = circular_speed_m_s(0.5 * (goal.perigee_altitude_m + goal.apogee_altitude_m))
+    bonus = site_rotation_speed_m_s(site.latitude_deg, site.altitude_m) * math.sin(math.radians(site.azimuth_deg))
+    dv = v + loss_guess_m_s - bonus
+    c = [s.exhaust_velocity_vac_m_s for s in specs]
+    eps = [s.structural_coefficient for s in specs]
+    try:
+        sol = optimal_mass_ratios(c, eps, dv)
+        m = stack_masses(sol.mass_ratios, eps, payload_kg)
+        return np.maximum(np.asarray(m["propellant_mass_kg"], float), 1e-3 * payload_kg)
+    except (ValueError, FieldError):
+        return np.full(len(specs), 5.0 * payload_kg)
+
+
+def _start(lay: _Layout, rtol: float) -> np.ndarray:
+    """A starting design: a 3 deg kick, the upper-stage pitch falling linearly from the flight-path angle
+    reached at their ignition to zero, and an insertion coast to the transfer orbit's apoapsis."""
+    z = np.zeros(lay.size)
+    z[lay.i_kick] = 0.3
+    gt = AscentProfile(vertical_rise_s=lay.vertical_rise_s, pitch_kick_deg=3.0, kick_duration_s=lay.kick_duration_s,
+                       steering="gravity_turn")
+    veh = lay.vehicle(z)
+    setup = prepare_flight(veh, lay.site_for(z), profile="ascent", ascent=gt, rotating=True, stop_at="burnout",
+                           record_history=True, detect_impact=False, rtol=1e-6)
+    out, y, _, burn, hist, _ = run_flight(*setup.kernel_args(256))
+    h = hist[: int(out[L.OUT_N_HIST])]
+    r, v = h[:, 1:4], h[:, 4:7]
+    fpa = np.degrees(np.arcsin(np.clip(np.einsum("ij,ij->i", r, v) / (np.linalg.norm(r, axis=1)
+                                                                        * np.linalg.norm(v, axis=1)), -1, 1)))
+    s0 = lay.steered[0] if lay.steered else 0
+    t_ign = burn_schedule(veh, ignore_first_coast=True).windows[s0][0]
+    gam0 = float(np.interp(t_ign, h[:, 0], fpa))
+    z[lay.i_pitch:lay.i_pitch + lay.n_pitch] = np.linspace(gam0, 0.0, lay.n_pitch) / _PITCH_SCALE_DEG
+    if lay.i_ins >= 0:
+        z[lay.i_ins] = COAST0 / 1000.0  # refined below
+        if lay.goal.insertion == "coast":
+            z[lay.i_ins + 2] = 0.1 / _SHARE_SCALE
+    return z
+
+
+def size_for_orbit(specs, payload_mass_kg: float, goal: OrbitGoal, site: LaunchSite | None = None, *,
+                   limits: PathLimits | None = None, nodes_per_stage: int = 4, vertical_rise_s: float = 10.0,
+                   kick_duration_s: float = 10.0, loss_guess_m_s: float = 1500.0,
+                   payload_diameter_m: float | None = None, staging_delay_s: float = 0.0, rtol: float = 1e-8,
+                   max_iterations: int = 60) -> OrbitDesign:
+    """Minimum gross mass stage split and ascent programme for a target orbit (module notes).
+
+    Parameters
+    ----------
+    specs : sequence of FlightStageSpec
+        Stages without masses, bottom first.
+    payload_mass_kg : float
+        Payload [kg].
+    goal : OrbitGoal
+    site : LaunchSite, optional
+        Launch site; its azimuth is replaced by the inclination's launch
+        azimuth (rotation-corrected) when the goal gives an inclination.
+    limits : PathLimits, optional
+    nodes_per_stage : int
+        Pitch-programme nodes per upper-stage burn, >= 2.
+    vertical_rise_s, kick_duration_s : float
+        First-stage vertical rise and kick duration [s].
+    loss_guess_m_s : float
+        Losses assumed for the starting split [m/s].
+    rtol : float
+        Integrator tolerance of the optimisation flights [-].
+    """
+    specs = tuple(specs)
+    site = site or LaunchSite()
+    limits = limits or PathLimits()
+    if nodes_per_stage < 2:
+        raise FieldError("steering.nodes_per_stage", "must be >= 2.", nodes_per_stage)
+    if goal.insertion == "kick_stage" and len(specs) < 2:
+        raise FieldError("mission.insertion", "'kick_stage' needs at least two stages.", goal.insertion)
+    az = site.azimuth_deg
+    if goal.inclination_deg is not None:
+        v_orb = circular_speed_m_s(goal.perigee_altitude_m)
+        az = launch_azimuth_deg(site.latitude_deg, goal.inclination_deg, orbit_speed_m_s=v_orb,
+                                ascending=goal.ascending, altitude_m=site.altitude_m)
+    site = replace(site, azimuth_deg=az)
+    mp0 = _initial_split(specs, payload_mass_kg, goal, site, loss_guess_m_s)
+    common = dict(specs=specs, payload_kg=float(payload_mass_kg), site=site, goal=goal, mp_ref=mp0,
+                  nodes=nodes_per_stage, vertical_rise_s=vertical_rise_s, kick_duration_s=kick_duration_s,
+                  azimuth_deg=az, plane_inclination_deg=goal.inclination_deg, payload_diameter_m=payload_diameter_m,
+                  staging_delay_s=staging_delay_s)
+    lay1 = _Layout(**common, scale_only=True)
+    z1 = _start(lay1, rtol)
+    out1 = _Outputs(lay1, limits, max_payload_gross_kg=None, rtol=rtol)
+    lo1, hi1 = lay1.bounds()
+    z1, n_fl = find_feasible(out1, z1, lo1, hi1, n_eq=out1.n_eq)
+    lay2 = _Layout(**common, scale_only=False)
+    z2 = np.concatenate([np.full(len(specs), z1[0]), z1[1:]])
+    res = _run(lay2, z2, limits, rtol, max_iterations)
+    return _design(lay2, res, n_fl + res.n_flights, res.n_iterations)
+
+
+def _run(lay: _Layout, z0: np.ndarray, limits: PathLimits, rtol: float, max_iterations: int) -> ShootingResult:
+    outputs = _Outputs(lay, limits, max_payload_gross_kg=None, rtol=rtol)
+    lo, hi = lay.bounds()
+    lin = None
+    if limits.max_pitch_rate_deg_s is not None:
+        lin = lay.pitch_rate_rows(z0, limits.max_pitch_rate_deg_s)
+    return solve_shooting(outputs, z0, lo, hi, n_eq=outputs.n_eq, n_ineq=outputs.n_ineq, linear_ineq=lin,
+                          eq_tol=0.05, max_iterations=max_iterations, step=1e-6)
+
+
+def _design(lay: _Layout, res: ShootingResult, n_flights: int, n_iterations: int) -> OrbitDesign:
+    z = res.z
+    vehicle = lay.vehicle(z)
+    mp, ms = lay.masses(z)
+    residuals = {"orbit_m_s": [float(v) for v in res.outputs[1:-1 if lay.goal.inclination_deg is not None else None]]}
+    if lay.goal.inclination_deg is not None:
+        residuals["plane_m_s"] = float(res.outputs[-1])
+    return OrbitDesign(vehicle=vehicle, site=lay.site_for(z), profile=lay.profile(z, vehicle),
+                       propellant_mass_kg=tuple(mp), structural_mass_kg=tuple(ms), payload_mass_kg=lay.payload_kg,
+                       success=res.success, message=res.message, n_flights=n_flights, n_iterations=n_iterations,
+                       residuals=residuals)

@@ -1,0 +1,77 @@
+"""The one place a problem is checked for sizing: `solve` and `sizing check` both call it.
+
+Loading (`sizing.problem.load`) checks each key on its own; some faults show
+only when the problem is put together for a method: limits with an apogee or
+orbit target, a flight target without thrust-to-weight or a first-stage
+diameter, an inclination the launch site cannot reach, the Lagrange method
+asked for a problem with limits. `prepare` runs every such check before any
+numerics, so a file that `sizing check` accepts is one `sizing solve` accepts.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+from ..errors import MSG_UNKNOWN_METHOD
+from ..problem.model import Problem
+
+__all__ = ["Prepared", "prepare", "METHODS", "MSG_LAGRANGE_LIMITS"]
+
+#: Methods `solve` accepts. "auto" takes the Lagrange closed form when no limit
+#: is set and the convex program otherwise.
+METHODS = ("auto", "lagrange", "cvxpy", "slsqp")
+
+MSG_LAGRANGE_LIMITS = ("method 'lagrange' handles no limits (mass ratio, delta-v share, mass caps); "
+                       "use 'cvxpy' or 'auto'.")
+
+
+@dataclass(frozen=True, slots=True)
+class Prepared:
+    """A problem that passed every check, with the method that will size it.
+
+    Attributes
+    ----------
+    problem : Problem
+    method : str
+        The method asked for ('auto' resolved for delta-v problems; flight
+        targets keep what was asked, the flight layer chooses).
+    """
+
+    problem: Problem
+    method: str
+
+
+def prepare(problem: Problem, *, method: str | None = None) -> Prepared:
+    """Check a loaded problem for sizing with a method, before any numerics.
+
+    Parameters
+    ----------
+    problem : Problem
+    method : str, optional
+        Overrides ``[solver].method``.
+
+    Returns
+    -------
+    Prepared
+
+    Raises
+    ------
+    ValueError
+        An unknown method, or 'lagrange' for a problem with limits.
+    ProblemDefinitionError
+        A flight-target problem the flight layer cannot size (see
+        `sizing.optimize.flight_problem.check_flight_problem`).
+    """
+    m = method or problem.method or "auto"
+    if m not in METHODS:
+        raise ValueError(f"{MSG_UNKNOWN_METHOD} {m!r}. Choose one of: {', '.join(repr(x) for x in METHODS)}.")
+    if problem.is_flight_target:
+        from .flight_problem import check_flight_problem
+
+        check_flight_problem(problem)
+        return Prepared(problem, m)
+    if m == "auto":
+        m = "cvxpy" if problem.has_constraints else "lagrange"
+    if m == "lagrange" and problem.has_constraints:
+        raise ValueError(MSG_LAGRANGE_LIMITS)
+    return Prepared(problem, m)
