@@ -308,7 +308,7 @@ def _append_csv_section(result, path: Path) -> None:
     with path.open("a", newline="", encoding="utf-8") as fh:
         w = csv.writer(fh)
         write_csv_section(w, title, header, rows)
-        for stitle, sheader, srows in safety_tables(result):
+        for stitle, sheader, srows in safety_tables(result, numeric=True):
             write_csv_section(w, stitle, sheader, srows)
         write_csv_section(w, None, _EXTRAS_HEADER, _export_extras(result))
 
@@ -335,7 +335,7 @@ def _add_xlsx_sheets(result, path: Path) -> None:
         fmt = column_format([cell.value])
         if fmt is not None:  # one quantity per row: each value its own format
             cell.number_format = fmt
-    tables = safety_tables(result)
+    tables = safety_tables(result, numeric=True)
     for k, (stitle, sheader, srows) in enumerate(tables):
         ws2 = wb.create_sheet(("stability", "ejection timing", "recovery")[k] if len(tables) == 3
                               else f"flight safety {k + 1}")

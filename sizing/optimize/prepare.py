@@ -70,6 +70,13 @@ def prepare(problem: Problem, *, method: str | None = None) -> Prepared:
 
         check_flight_problem(problem)
         return Prepared(problem, m)
+    model = problem.has_stage_models and any(s.has_mass_model for s in problem.stages)
+    if model:
+        if m in ("lagrange", "cvxpy"):
+            from ._stage_nlp import MSG_MODEL_METHOD
+
+            raise ValueError(f"method {m!r} {MSG_MODEL_METHOD} 'slsqp' (or 'auto').")
+        return Prepared(problem, "slsqp")
     if m == "auto":
         m = "cvxpy" if problem.has_constraints else "lagrange"
     if m == "lagrange" and problem.has_constraints:

@@ -35,43 +35,50 @@ def has_safety(result) -> bool:
     return "stability" in _h(result)
 
 
-def _f(v: Any, spec: str) -> str:
+def _f(v: Any, spec: str, numeric: bool = False):
+    """Text for the terminal and Markdown; with `numeric`, the number itself (None when missing) for CSV/XLSX."""
     if v is None or (isinstance(v, float) and not math.isfinite(v)):
-        return "n/a"
-    return format(v, spec)
+        return None if numeric else "n/a"
+    return float(v) if numeric else format(v, spec)
 
 
-def stability_rows(result) -> tuple[str, list[str], list[list[str]]]:
-    """Static margin through the flight: one row per configuration and event."""
+def stability_rows(result, numeric: bool = False) -> tuple[str, list[str], list[list[Any]]]:
+    """Static margin through the flight: one row per configuration and event (`numeric`: numbers, not text)."""
     st = _h(result).get("stability")
     if not st:
         return "", [], []
     header = ["configuration", "event", "time [s]", "Mach [-]", "mass [g]", "CG from tip [mm]",
               "CP from tip [mm]", "C_N_alpha [1/rad]", "static margin [cal]"]
-    rows = [[p["configuration"], p["event"], _f(p["time_s"], ".2f"), _f(p["mach"], ".2f"),
-             _f(p["mass_kg"] * 1e3, ",.0f"), _f(p["cg_m"] * 1e3, ",.0f"), _f(p["cp_m"] * 1e3, ",.0f"),
-             _f(p["cn_alpha_per_rad"], ".2f"),
+    n = numeric
+    rows = [[p["configuration"], p["event"], _f(p["time_s"], ".2f", n), _f(p["mach"], ".2f", n),
+             _f(p["mass_kg"] * 1e3, ",.0f", n), _f(p["cg_m"] * 1e3, ",.0f", n), _f(p["cp_m"] * 1e3, ",.0f", n),
+             _f(p["cn_alpha_per_rad"], ".2f", n),
+             _f(p["static_margin_cal"], ".2f", n) if n else
              _f(p["static_margin_cal"], ".2f") + ("*" if p["mach_beyond_method"] else "")] for p in st["phases"]]
+    if numeric:
+        header = header + ["CP held at Mach 0.8 [-]"]
+        rows = [r + ["yes" if p["mach_beyond_method"] else "no"] for r, p in zip(rows, st["phases"])]
     title = (f"Static stability (Barrowman 1967; minimum {st['min_static_margin_cal']:g} cal at rail exit and "
              "upper-stage ignition, common practice, no source; * Mach above 0.8, CP held at Mach 0.8)")
     return title, header, rows
 
 
-def ejection_rows(result) -> tuple[str, list[str], list[list[str]]]:
-    """Each motor's ejection delay against the coast to apogee."""
+def ejection_rows(result, numeric: bool = False) -> tuple[str, list[str], list[list[Any]]]:
+    """Each motor's ejection delay against the coast to apogee (`numeric`: numbers, not text)."""
     ej = _h(result).get("ejection")
     if not ej:
         return "", [], []
     header = ["stage", "motor", "delay [s]", "coast to apogee [s]", "fires vs apogee [s]",
               "speed at deployment [m/s]", "verdict", "recommended delay [s]"]
-    rows = [[e["stage"] + (" (separated)" if e["separated"] else ""), e["motor"], _f(e["delay_s"], "g"),
-             _f(e["coast_to_apogee_s"], ".1f"), _f(e["deploy_offset_s"], "+.1f"),
-             _f(e["speed_at_deploy_m_s"], ".0f"), e["verdict"], _f(e["recommended_delay_s"], "g")] for e in ej]
+    n = numeric
+    rows = [[e["stage"] + (" (separated)" if e["separated"] else ""), e["motor"], _f(e["delay_s"], "g", n),
+             _f(e["coast_to_apogee_s"], ".1f", n), _f(e["deploy_offset_s"], "+.1f", n),
+             _f(e["speed_at_deploy_m_s"], ".0f", n), e["verdict"], _f(e["recommended_delay_s"], "g", n)] for e in ej]
     return "Ejection timing (within 2 s of apogee counts as ok; common practice, no source)", header, rows
 
 
-def recovery_rows(result) -> tuple[str, list[str], list[list[str]]]:
-    """Canopy sizes, descent time, drift and landing point of each stage."""
+def recovery_rows(result, numeric: bool = False) -> tuple[str, list[str], list[list[Any]]]:
+    """Canopy sizes, descent time, drift and landing point of each stage (`numeric`: numbers, not text)."""
     rec = _h(result).get("recovery")
     if not rec:
         return "", [], []
@@ -86,13 +93,15 @@ def recovery_rows(result) -> tuple[str, list[str], list[list[str]]]:
                 sizes.append(f"{c['length_m'] * 1e3:,.0f} x {c['width_m'] * 1e3:,.0f}")
             else:
                 sizes.append(f"{c['role'] + ' ' if r['device'] == 'dual' else ''}dia. {c['diameter_m'] * 1e3:,.0f}")
+        n = numeric
         rows.append([r["stage"], r["device"] + ("" if r["described"] else " (assumed)"),
-                     _f(r["mass_kg"] * 1e3, ",.0f"), "; ".join(sizes),
+                     _f(r["mass_kg"] * 1e3, ",.0f", n), "; ".join(sizes),
                      " / ".join(f"{c['cd']:g}" for c in r["canopies"]),
                      " / ".join(f"{c['target_rate_m_s']:g}" for c in r["canopies"]),
-                     _f(r["deploy_height_m"], ",.0f"),
-                     _f(r["descent_time_s"], ".0f"), _f(r["landing_rate_m_s"], ".1f"), _f(r["drift_m"], ",.0f"),
-                     _f(r["landing_distance_m"], ",.0f"), _f(r["landing_bearing_deg"], ".0f")])
+                     _f(r["deploy_height_m"], ",.0f", n),
+                     _f(r["descent_time_s"], ".0f", n), _f(r["landing_rate_m_s"], ".1f", n),
+                     _f(r["drift_m"], ",.0f", n), _f(r["landing_distance_m"], ",.0f", n),
+                     _f(r["landing_bearing_deg"], ".0f", n)])
     wind = (_h(result).get("wind") or {}).get("description", "calm")
     return (f"Recovery (drag equation, quasi-steady descent; wind {wind}; ascent in calm air)", header, rows)
 
@@ -104,9 +113,10 @@ def transposed(table: tuple[str, list[str], list[list[str]]], *, key_columns: in
     return title, head, [[header[j]] + [r[j] for r in rows] for j in range(key_columns, len(header))]
 
 
-def safety_tables(result) -> list[tuple[str, list[str], list[list[str]]]]:
-    """The non-empty safety tables, in print order."""
-    return [t for t in (stability_rows(result), ejection_rows(result), recovery_rows(result)) if t[2]]
+def safety_tables(result, numeric: bool = False) -> list[tuple[str, list[str], list[list[Any]]]]:
+    """The non-empty safety tables, in print order (`numeric`: numbers for CSV and XLSX)."""
+    tables = (stability_rows(result, numeric), ejection_rows(result, numeric), recovery_rows(result, numeric))
+    return [t for t in tables if t[2]]
 
 
 # ---------------------------------------------------------------- sketch
