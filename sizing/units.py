@@ -50,6 +50,7 @@ SI_UNITS: dict[str, str] = {
     "mass_per_length": "kg/m",
     "mass_per_area": "kg/m**2",
     "angle": "deg",
+    "angular_rate": "deg/s",
     "dimensionless": "",
 }
 

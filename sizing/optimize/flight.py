@@ -1,64 +1,40 @@
-"""Sizing a multistage vehicle to a flight target with simulated losses.
+"""Sizing a multistage vehicle to a flight target with the losses of a simulated flight.
 
-The optimal mass split (Lagrange multiplier method,
-`sizing.physics.staging.optimal_mass_ratios`) needs an ideal delta-v. A flight
-target (an apogee, a circular orbit) does not give one directly: the losses
-depend on the vehicle. `size_to_target` closes that loop:
+Two targets, one result type:
 
-1. Fixed point. Start from delta-v_0 = target-equivalent speed + guessed
-   losses. At iteration k: split the mass optimally for delta-v_k, build the
-   vehicle (thrust from thrust-to-weight at ignition), fly it, and measure the
-   achieved target-equivalent speed v_k. The effective loss is
-   L_k = delta-v_k - v_k (gravity + drag + steering + pressure, minus the
-   rotation bonus for an orbit), and the next ideal delta-v is
-   delta-v_{k+1} = v_target + L_k. From the second iterate on, the update is
-   accelerated with the secant slope d v / d delta-v of the last two
-   iterates (when that slope lies in (0.2, 5)); with slope 1 it is the plain
-   fixed point. Stop when the target is met within the tolerance.
-2. Fallback. If the fixed point stalls (error not shrinking) or runs out of
-   iterations, the target error is a scalar function of the ideal delta-v:
-   a bracket is built from the iterates and closed with scipy.optimize.brentq.
+* `ApogeeTarget`: stage masses sized together with the simulated vertical
+  flight (`sizing.optimize.apogee_sizing`);
+* `OrbitTarget`: stage masses and the ascent steering programme optimised
+  together, with a coast and insertion burn or direct insertion
+  (`sizing.optimize.orbit_sizing`).
 
-Target-equivalent speeds:
-
-* apogee: v_eq(h) = sqrt(2 g0 (h - h_site)), the launch speed that coasts to h
-  in a vacuum with constant gravity g0 (a monotone re-labelling of the
-  apogee; the iteration then adds speed, not altitude);
-* circular orbit at altitude h: the inertial burnout speed, to be equal to the
-  circular speed sqrt(GM/(R + h)). The ascent is steered so that burnout is
-  at h with zero flight-path angle (`sizing.optimize.ascent.target_burnout`).
-
-An unreachable target (beyond what the stages give at a gross-to-payload
-mass ratio of `max_gross_to_payload`) raises `InfeasibleProblemError` with the
-best achieved value in its message and `.best`.
+Both end with one flight of the sized design, with its time history, by the
+same code `sizing fly` runs: what the result reports is what the design file
+reproduces. Preliminary estimates only: not a flight-safety analysis or a
+flight clearance.
 """
 
 from __future__ import annotations
 
 import math
 from collections.abc import Mapping, Sequence
-from dataclasses import dataclass, replace
+from dataclasses import dataclass, field
 from types import MappingProxyType
 
-from sizing.errors import MSG_TARGET_UNREACHABLE, FieldError, InfeasibleProblemError
-from sizing.physics.gravity import circular_speed_m_s, launch_azimuth_deg
-from sizing.physics.rocket import stack_masses
-from sizing.physics.staging import (
-    optimal_mass_ratios,
-    optimal_mass_ratios_for_growth,
-)
-from sizing.optimize.ascent import target_burnout
-from sizing.physics.flight import AscentProfile, FlightResult, fly_vertical
-from sizing.physics.vehicle import FlightStageSpec, LaunchSite, Vehicle, build_vehicle
-from sizing.units import G0_M_S2
+from sizing.errors import FieldError
+from sizing.optimize.apogee_sizing import size_for_apogee
+from sizing.optimize.orbit_sizing import OrbitGoal, PathLimits, size_for_orbit
+from sizing.physics.flight import AscentProfile, FlightResult, fly_ascent, fly_vertical
+from sizing.physics.gravity import circular_speed_m_s
+from sizing.physics.vehicle import FlightStageSpec, LaunchSite, Vehicle
+from sizing.units import G0_M_S2, R_EARTH_EQ_M
 
-__all__ = [
-    "ApogeeTarget",
-    "OrbitTarget",
-    "SizingIteration",
-    "FlightSizingResult",
-    "size_to_target",
-]
+__all__ = ["ApogeeTarget", "OrbitTarget", "PathLimits", "FlightSizingResult", "size_to_target",
+           "FLY_OPTIONS_VERTICAL", "FLY_OPTIONS_ASCENT"]
+
+#: Options of the final flight of a sized design, shared with `sizing fly` (so fly reproduces solve).
+FLY_OPTIONS_VERTICAL = {"earth": "round", "max_step_s": 0.5}
+FLY_OPTIONS_ASCENT = {"max_step_s": 2.0}
 
 
 @dataclass(frozen=True, slots=True)
@@ -79,51 +55,40 @@ class ApogeeTarget:
 
 @dataclass(frozen=True, slots=True)
 class OrbitTarget:
-    """Reach a circular orbit with a gravity-turn ascent (`fly_ascent`).
+    """Reach an orbit with an optimised ascent (`sizing.optimize.orbit_sizing`).
 
     Parameters
     ----------
     altitude_m : float
-        Circular orbit altitude [m], > site altitude.
+        Perigee altitude above the equatorial radius [m] (circular orbit when
+        `apogee_altitude_m` is None).
     inclination_deg : float, optional
-        Orbit inclination [deg]; sets the launch azimuth (northbound when
-        `ascending`). Default: fly the site's azimuth.
+        Orbit inclination [deg]; sets the launch azimuth. None: fly the site's azimuth.
     ascending : bool
         Northbound (True) or southbound launch for the inclination.
-    profile : AscentProfile, optional
-        Steering programme; its target altitude is set from `altitude_m`.
+    apogee_altitude_m : float, optional
+        Apogee altitude [m] of an elliptical target.
+    insertion : {"coast", "kick_stage", "direct"}
+        How the last stage reaches the orbit (see `OrbitGoal`).
+    nodes_per_stage : int
+        Pitch-programme nodes per upper-stage burn.
+    vertical_rise_s, kick_duration_s : float
+        First-stage vertical rise and pitch-kick duration [s].
     """
 
     altitude_m: float
     inclination_deg: float | None = None
     ascending: bool = True
-    profile: AscentProfile | None = None
+    apogee_altitude_m: float | None = None
+    insertion: str = "coast"
+    nodes_per_stage: int = 4
+    vertical_rise_s: float = 10.0
+    kick_duration_s: float = 10.0
 
-
-@dataclass(frozen=True, slots=True)
-class SizingIteration:
-    """One flown candidate.
-
-    Attributes
-    ----------
-    ideal_delta_v_m_s : float
-        Ideal delta-v the mass split was made for [m/s].
-    achieved_speed_m_s : float
-        Achieved target-equivalent speed [m/s] (nan if the flight failed).
-    target_error : float
-        Achieved minus target, in the target's unit (apogee [m]; orbit:
-        burnout speed minus circular speed [m/s]).
-    gross_mass_kg : float
-        Gross liftoff mass of the candidate [kg].
-    method : str
-        ``"fixed_point"`` or ``"brentq"``.
-    """
-
-    ideal_delta_v_m_s: float
-    achieved_speed_m_s: float
-    target_error: float
-    gross_mass_kg: float
-    method: str
+    @property
+    def goal(self) -> OrbitGoal:
+        ap = self.altitude_m if self.apogee_altitude_m is None else self.apogee_altitude_m
+        return OrbitGoal(self.altitude_m, ap, self.inclination_deg, self.ascending, self.insertion)
 
 
 @dataclass(frozen=True, slots=True)
@@ -135,39 +100,47 @@ class FlightSizingResult:
     converged : bool
     message : str
     method : str
-        Last method used: ``"fixed_point"`` or ``"brentq"``.
+        ``"integrated"`` (masses and flight optimised together) or ``"lagrange-line"``
+        (the Lagrange split for the flown delta-v, kept when the integrated step failed).
     stage_names : tuple of str
     propellant_mass_kg, structural_mass_kg, stage_mass_kg : tuple of float
         Per stage, bottom first [kg].
     mass_ratios : tuple of float
-        Optimal stage mass ratios m0/mf [-].
+        Stage mass ratios m0/mf [-].
     stage_delta_v_m_s : tuple of float
         Ideal delta-v per stage [m/s].
     gross_mass_kg, payload_mass_kg : float
-        [kg]
     ideal_delta_v_m_s : float
-        Converged total ideal delta-v [m/s].
+        Total ideal delta-v of the design [m/s].
     target_speed_m_s : float
-        Target-equivalent speed (v_eq of the apogee, or circular speed) [m/s].
+        Target-equivalent speed: sqrt(2 g0 (h - h_site)) for an apogee, the
+        target orbit's speed at its perigee for an orbit [m/s].
     losses_m_s : Mapping[str, float]
         gravity, drag, steering, pressure of the final flight [m/s].
     rotation_bonus_m_s : float
-        [m/s], see `sizing.physics.flight`.
     achieved : Mapping[str, float]
-        ``apogee_m``, or ``perigee_alt_m``, ``apogee_alt_m``, ``speed_m_s``,
-        ``flight_path_angle_deg``, ``inclination_deg``.
+        Apogee: ``apogee_above_site_m``, ``apogee_above_sea_level_m``. Orbit:
+        ``perigee_altitude_m``, ``apogee_altitude_m``, ``inclination_deg``,
+        ``speed_m_s``, ``flight_path_angle_deg``.
     target_error : float
-        Achieved minus target (apogee [m] or speed [m/s]).
+        Apogee: achieved minus target [m]. Orbit: largest apsis error [m].
     tolerance : float
-        Tolerance on `target_error` (same unit).
+        Tolerance on `target_error` [m].
     n_iterations : int
-        Flights flown by the outer loop.
-    history : tuple of SizingIteration
+        Optimiser iterations.
+    n_flights : int
+        Flights flown by the sizing (Jacobians included).
     vehicle : Vehicle
+    site : LaunchSite
+        The site as flown (orbit: the optimised launch azimuth).
+    profile : AscentProfile or None
+        The optimised steering programme (orbit targets).
     flight : FlightResult
         Final flight, with time history.
+    alternatives : tuple of (str, float)
+        Shorter stacks sized for comparison: (stages, gross mass [kg]).
     warnings : tuple of str
-        Design-review flags from the final flight and convergence notes.
+        Design-review flags and convergence notes.
     """
 
     converged: bool
@@ -189,343 +162,148 @@ class FlightSizingResult:
     target_error: float
     tolerance: float
     n_iterations: int
-    history: tuple[SizingIteration, ...]
+    n_flights: int
     vehicle: Vehicle
+    site: LaunchSite
+    profile: AscentProfile | None
     flight: FlightResult
-    warnings: tuple[str, ...]
+    alternatives: tuple[tuple[str, float], ...] = ()
+    warnings: tuple[str, ...] = field(default=())
 
 
-class _Candidate:
-    __slots__ = ("dv", "vehicle", "flight", "speed", "error", "ratios", "masses", "ok")
+def _mass_figures(vehicle: Vehicle):
+    """(propellant, structural, stage masses, mass ratios, stage ideal delta-v) of a vehicle."""
+    mp = tuple(s.propellant_mass_kg for s in vehicle.stages)
+    ms = tuple(s.structural_mass_kg for s in vehicle.stages)
+    ratios, dvs = [], []
+    for i, s in enumerate(vehicle.stages):
+        m0 = vehicle.ignition_mass_kg(i)
+        n = m0 / (m0 - s.propellant_mass_kg)
+        ratios.append(n)
+        dvs.append(s.exhaust_velocity_vac_m_s * math.log(n))
+    return mp, ms, tuple(a + b for a, b in zip(mp, ms)), tuple(ratios), tuple(dvs)
 
 
-def size_to_target(
-    specs: Sequence[FlightStageSpec],
-    payload_mass_kg: float,
-    target: ApogeeTarget | OrbitTarget,
-    site: LaunchSite | None = None,
-    *,
-    tolerance: float | None = None,
-    max_iterations: int = 12,
-    initial_loss_m_s: float | None = None,
-    max_gross_to_payload: float = 1.0e4,
-    payload_diameter_m: float | None = None,
-    staging_delay_s: float = 0.0,
-    acceleration_limit_m_s2: float | None = None,
-) -> FlightSizingResult:
-    """Size the stages so that the simulated flight meets a target.
+def size_to_target(specs: Sequence[FlightStageSpec], payload_mass_kg: float, target: ApogeeTarget | OrbitTarget,
+                   site: LaunchSite | None = None, *, tolerance: float | None = None,
+                   limits: PathLimits | None = None, gross_mass_kg: float | None = None,
+                   max_gross_mass_kg: float | None = None, max_gross_to_payload: float = 1.0e4,
+                   payload_diameter_m: float | None = None, staging_delay_s: float = 0.0,
+                   acceleration_limit_m_s2: float | None = None, compare_shorter: bool = True) -> FlightSizingResult:
+    """Size the stages (and, for an orbit, the steering) so that the simulated flight meets a target.
 
     Parameters
     ----------
     specs : sequence of FlightStageSpec
         Stages without masses, bottom first.
     payload_mass_kg : float
-        Payload [kg], > 0.
+        Payload [kg], > 0 (the starting guess when `gross_mass_kg` is given).
     target : ApogeeTarget or OrbitTarget
     site : LaunchSite, optional
         Default: sea level, equator, due east, no rail.
     tolerance : float, optional
-        Apogee target: |apogee error| [m], default max(1 m, 1e-4 (h - h_site)).
-        Orbit target: |burnout speed - circular speed| [m/s], default 0.5 m/s.
-    max_iterations : int
-        Fixed-point iterations before the brentq fallback; the fallback gets
-        as many again.
-    initial_loss_m_s : float, optional
-        First loss guess [m/s]; default 1500 m/s for orbit (published typical
-        1.5-2 km/s, check-values section 3) and 0.3 v_eq for an apogee.
+        Apogee error, or apsis-altitude error for an orbit [m]; default
+        max(1 m, 1e-4 of the apogee above the site), 1 km for an orbit.
+    limits : PathLimits, optional
+        Max-q, max sensed acceleration, max pitch rate (optimisation constraints).
+    gross_mass_kg : float, optional
+        Apogee targets: maximise the payload for this gross mass [kg].
+    max_gross_mass_kg : float, optional
+        Apogee targets: gross mass cap [kg].
     max_gross_to_payload : float
-        Largest gross-to-payload mass ratio searched [-].
+        Largest gross-to-payload ratio searched for an apogee [-].
     payload_diameter_m, staging_delay_s : see `Vehicle`.
     acceleration_limit_m_s2 : float, optional
-        Passed to the flight (warning when exceeded).
-
-    Returns
-    -------
-    FlightSizingResult
+        Review flag in the final flight (and the path limit when `limits` gives none).
+    compare_shorter : bool
+        Apogee targets: also size each stack with one stage left out.
 
     Raises
     ------
     FieldError
-        Bad specs, a target at or below the launch site, or first-stage
-        thrust-to-weight <= 1.
+        Bad specs or a target at or below the launch site.
     InfeasibleProblemError
-        When the target cannot be reached within `max_gross_to_payload`;
-        ``.best`` holds the best achieved value and its ideal delta-v.
-
-    References
-    ----------
-    .. [1] H. D. Curtis, Orbital Mechanics for Engineering Students, 3rd ed., 2014,
-       Sec. 11.6 (optimal staging), Sec. 11.2-11.3 (launch losses).
-    .. [2] R. P. Brent, Algorithms for Minimization without Derivatives, 1973
-       (scipy.optimize.brentq).
+        An apogee that no split reaches within `max_gross_to_payload`.
     """
     specs = tuple(specs)
     if not specs or not all(isinstance(s, FlightStageSpec) for s in specs):
         raise FieldError("stages", "must be one or more FlightStageSpec.", specs)
     site = site or LaunchSite()
-    payload = float(payload_mass_kg)
-    if not payload > 0:
+    if not float(payload_mass_kg) > 0:
         raise FieldError("payload_mass_kg", "must be > 0.", payload_mass_kg)
-    c = [s.exhaust_velocity_vac_m_s for s in specs]
-    eps = [s.structural_coefficient for s in specs]
-    dv_cap = optimal_mass_ratios_for_growth(c, eps, math.log(max_gross_to_payload)).delta_v_m_s
+    limits = limits or PathLimits()
+    if limits.max_acceleration_m_s2 is None and acceleration_limit_m_s2 is not None:
+        limits = PathLimits(limits.max_dynamic_pressure_pa, acceleration_limit_m_s2, limits.max_pitch_rate_deg_s)
+    if isinstance(target, OrbitTarget):
+        return _orbit(specs, float(payload_mass_kg), target, site, tolerance, limits, payload_diameter_m,
+                      staging_delay_s)
+    if isinstance(target, ApogeeTarget):
+        return _apogee(specs, float(payload_mass_kg), target, site, tolerance, limits, gross_mass_kg,
+                       max_gross_mass_kg, max_gross_to_payload, payload_diameter_m, staging_delay_s,
+                       compare_shorter)
+    raise FieldError("mission", "target must be an ApogeeTarget or an OrbitTarget.", target)
 
-    is_orbit = isinstance(target, OrbitTarget)
-    profile = None
-    if is_orbit:
-        h_t = float(target.altitude_m)
-        if not h_t > site.altitude_m + 50e3:
-            raise FieldError(
-                "mission.orbit_altitude",
-                f"must be above the launch site by more than 50 km "
-                f"(site at {site.altitude_m:g} m).",
-                target.altitude_m,
-            )
-        v_target = circular_speed_m_s(h_t)
-        if target.inclination_deg is not None:
-            az = launch_azimuth_deg(
-                site.latitude_deg, target.inclination_deg, orbit_speed_m_s=v_target,
-                ascending=target.ascending, altitude_m=site.altitude_m,
-            )
-            az_plane = launch_azimuth_deg(
-                site.latitude_deg, target.inclination_deg, ascending=target.ascending,
-            )
-            site = replace(site, azimuth_deg=az)
-            profile = replace(target.profile or AscentProfile(),
-                              plane_azimuth_deg=az_plane)
-        else:
-            profile = target.profile or AscentProfile()
-        tol = 0.5 if tolerance is None else float(tolerance)
-        loss0 = 1500.0 if initial_loss_m_s is None else float(initial_loss_m_s)
-        from sizing.physics.gravity import site_rotation_speed_m_s
 
-        bonus0 = site_rotation_speed_m_s(site.latitude_deg, site.altitude_m) * math.sin(
-            math.radians(site.azimuth_deg)
-        )
-        dv0 = v_target + loss0 - bonus0
-        target_label = "mission.orbit_altitude"
-    elif isinstance(target, ApogeeTarget):
-        h_t = float(target.apogee_m)
-        if not h_t > site.altitude_m:
-            raise FieldError(
-                "mission.apogee",
-                f"must be above the launch site altitude ({site.altitude_m:g} m).",
-                target.apogee_m,
-            )
-        v_target = math.sqrt(2.0 * G0_M_S2 * (h_t - site.altitude_m))
-        tol = max(1.0, 1e-4 * (h_t - site.altitude_m)) if tolerance is None else float(tolerance)
-        loss0 = 0.3 * v_target if initial_loss_m_s is None else float(initial_loss_m_s)
-        dv0 = v_target + loss0
-        target_label = "mission.apogee"
-    else:
-        raise FieldError("mission", "target must be an ApogeeTarget or an OrbitTarget.", target)
+def _apogee(specs, payload, target, site, tolerance, limits, gross, gross_cap, ratio_cap, dia, delay,
+            compare) -> FlightSizingResult:
+    d = size_for_apogee(specs, payload, target.apogee_m, site, earth=target.earth, tolerance_m=tolerance,
+                        max_gross_to_payload=ratio_cap, max_dynamic_pressure_pa=limits.max_dynamic_pressure_pa,
+                        max_acceleration_m_s2=limits.max_acceleration_m_s2, gross_mass_kg=gross,
+                        max_gross_mass_kg=gross_cap, payload_diameter_m=dia, staging_delay_s=delay,
+                        compare_shorter=compare)
+    tol = max(1.0, 1e-4 * (target.apogee_m - site.altitude_m)) if tolerance is None else float(tolerance)
+    fr = fly_vertical(d.vehicle, site, acceleration_limit_m_s2=limits.max_acceleration_m_s2,
+                      **{**FLY_OPTIONS_VERTICAL, "earth": target.earth})
+    err = fr.apogee_m - target.apogee_m
+    ok = abs(err) <= tol
+    achieved = {"apogee_above_site_m": fr.apogee_m - site.altitude_m, "apogee_above_sea_level_m": fr.apogee_m}
+    v_t = math.sqrt(2.0 * G0_M_S2 * (target.apogee_m - site.altitude_m))
+    method = "integrated" if "kept" not in d.message else "lagrange-line"
+    msg = (f"target met within {tol:g} m after {d.n_flights} flights ({method})." if ok else
+           f"target not met within {tol:g} m after {d.n_flights} flights; error {err:.3g} m.")
+    return _result(ok, msg, method, d.vehicle, site, None, fr, v_t, achieved, err, tol, d.n_iterations,
+                   d.n_flights, d.alternatives, list(d.warnings) + ([] if ok else [msg]))
 
-    def v_eq(h: float) -> float:
-        return math.sqrt(2.0 * G0_M_S2 * max(0.0, h - site.altitude_m))
 
-    kick_state = {"profile": profile, "optimized": False}
+def _orbit(specs, payload, target, site, tolerance, limits, dia, delay) -> FlightSizingResult:
+    goal = target.goal
+    d = size_for_orbit(specs, payload, goal, site, limits=limits, nodes_per_stage=target.nodes_per_stage,
+                       vertical_rise_s=target.vertical_rise_s, kick_duration_s=target.kick_duration_s,
+                       payload_diameter_m=dia, staging_delay_s=delay)
+    fr = fly_ascent(d.vehicle, d.site, d.profile, acceleration_limit_m_s2=limits.max_acceleration_m_s2,
+                    **FLY_OPTIONS_ASCENT)
+    tol = 1000.0 if tolerance is None else float(tolerance)
+    o = fr.orbit
+    err = max(abs(o.perigee_alt_m - goal.perigee_altitude_m), abs(o.apogee_alt_m - goal.apogee_altitude_m))
+    warnings = []
+    if goal.inclination_deg is not None and abs(o.inclination_deg - goal.inclination_deg) > 0.05:
+        warnings.append(f"inclination reached {o.inclination_deg:.3f} deg is more than 0.05 deg from the target "
+                        f"{goal.inclination_deg:g} deg.")
+    ok = d.success and err <= tol and fr.terminated_by == "burnout" and not warnings
+    achieved = {"perigee_altitude_m": o.perigee_alt_m, "apogee_altitude_m": o.apogee_alt_m,
+                "inclination_deg": o.inclination_deg, "speed_m_s": o.speed_m_s,
+                "flight_path_angle_deg": o.flight_path_angle_deg}
+    r_p, r_a = R_EARTH_EQ_M + goal.perigee_altitude_m, R_EARTH_EQ_M + goal.apogee_altitude_m
+    v_t = circular_speed_m_s(goal.perigee_altitude_m) * math.sqrt(2.0 * r_a / (r_p + r_a))  # vis-viva at perigee
+    msg = (f"orbit met within {tol:g} m after {d.n_flights} flights ({d.n_iterations} optimiser iterations)."
+           if ok else f"orbit not met within {tol:g} m (apsis error {err:,.0f} m) after {d.n_flights} flights: "
+           f"{d.message}. Raise thrust-to-weight or Isp, or lower the target.")
+    for s, m in zip(specs, d.propellant_mass_kg):
+        if m < 0.02 * sum(d.propellant_mass_kg):
+            warnings.append(f"stage {s.name!r} carries {100 * m / sum(d.propellant_mass_kg):.1f} % of the "
+                            "propellant: it does not pay for itself; size the vehicle without it.")
+    return _result(ok, msg, "integrated", d.vehicle, d.site, d.profile, fr, v_t, achieved, err, tol,
+                   d.n_iterations, d.n_flights, (), warnings + ([] if ok else [msg]))
 
-    memo: dict[float, _Candidate] = {}
 
-    def fly(dv: float, *, history: bool = False) -> _Candidate:
-        if not history and dv in memo:
-            return memo[dv]
-        cand = _Candidate()
-        if not history:
-            memo[dv] = cand
-        cand.dv = dv
-        sol = optimal_mass_ratios(c, eps, dv)
-        m = stack_masses(sol.mass_ratios, eps, payload)
-        mp = [max(float(x), 1e-9 * payload) for x in m["propellant_mass_kg"]]
-        ms = [max(float(x), 1e-9 * payload) for x in m["structural_mass_kg"]]
-        cand.ratios = sol.mass_ratios
-        cand.masses = (mp, ms)
-        veh = build_vehicle(specs, mp, ms, payload, payload_diameter_m=payload_diameter_m,
-                            staging_delay_s=staging_delay_s)
-        cand.vehicle = veh
-        if is_orbit:
-            p = kick_state["profile"]
-            res = target_burnout(veh, site, p, h_t, record_history=history,
-                                 acceleration_limit_m_s2=acceleration_limit_m_s2, optimize_kick=True)
-            ra, rg = res.targeting_residual
-            cand.ok = res.terminated_by == "burnout" and abs(ra) < 10.0 and abs(rg) < 0.01
-            if cand.ok:
-                kick_state["profile"] = res.ascent_profile
-                kick_state["optimized"] = True
-            cand.speed = res.final_inertial_speed_m_s if cand.ok else math.nan
-            cand.error = cand.speed - v_target if cand.ok else math.nan
-        else:
-            res = fly_vertical(veh, site, earth=target.earth, record_history=history,
-                               acceleration_limit_m_s2=acceleration_limit_m_s2)
-            cand.ok = True
-            cand.speed = v_eq(res.apogee_m)
-            cand.error = res.apogee_m - h_t
-        cand.flight = res
-        return cand
-
-    hist: list[SizingIteration] = []
-    cands: list[_Candidate] = []
-
-    def record(cand: _Candidate, method: str) -> None:
-        cands.append(cand)
-        hist.append(SizingIteration(cand.dv, cand.speed, cand.error, cand.vehicle.gross_mass_kg, method))
-
-    def met(cand: _Candidate) -> bool:
-        return cand.ok and abs(cand.error) <= tol
-
-    def best_so_far() -> _Candidate | None:
-        good = [x for x in cands if x.ok]
-        return max(good, key=lambda x: x.speed) if good else None
-
-    def infeasible() -> InfeasibleProblemError:
-        b = best_so_far()
-        if is_orbit:
-            best = {"ideal_delta_v_m_s": b.dv if b else math.nan,
-                    "speed_m_s": b.speed if b else math.nan,
-                    "circular_speed_m_s": v_target}
-            got = f"best burnout speed {b.speed:.1f} m/s" if b else "no candidate reached the altitude"
-            what = f"{h_t:g} m circular orbit (needs {v_target:.1f} m/s)"
-        else:
-            best = {"ideal_delta_v_m_s": b.dv if b else math.nan,
-                    "apogee_m": b.flight.apogee_m if b else math.nan}
-            got = f"best apogee {b.flight.apogee_m:.1f} m" if b else "no candidate flew"
-            what = f"apogee {h_t:g} m"
-        dv_txt = f" at ideal delta-v {b.dv:.1f} m/s" if b else ""
-        return InfeasibleProblemError(
-            f"{target_label}: {what} {MSG_TARGET_UNREACHABLE}; {got}{dv_txt} "
-            f"(searched up to gross/payload = {max_gross_to_payload:g}). "
-            "Raise Isp, lower structural coefficients, add a stage or lower the target.",
-            best,
-        )
-
-    # --- fixed point ------------------------------------------------------
-    method = "fixed_point"
-    dv = min(dv0, dv_cap)
-    done = None
-    stall = 0
-    prev_err = math.inf
-    for _ in range(max_iterations):
-        cand = fly(dv)
-        record(cand, "fixed_point")
-        if met(cand):
-            done = cand
-            break
-        if not cand.ok:
-            break
-        err = abs(cand.error)
-        stall = stall + 1 if err > 0.5 * prev_err else 0
-        prev_err = err
-        if stall >= 2:
-            break
-        dv_new = v_target + (cand.dv - cand.speed)
-        if len(cands) >= 2 and cands[-2].ok:
-            # secant acceleration of the same update, when the slope is sane
-            a, b = cands[-2], cand
-            slope = (b.speed - a.speed) / (b.dv - a.dv) if b.dv != a.dv else 0.0
-            if 0.2 < slope < 5.0:
-                dv_new = b.dv + (v_target - b.speed) / slope
-        if dv_new >= dv_cap:
-            if cand.dv >= dv_cap * (1 - 1e-9):
-                raise infeasible()
-            dv_new = dv_cap
-        dv = max(dv_new, 1.0)
-
-    # --- brentq fallback --------------------------------------------------
-    if done is None:
-        from scipy.optimize import brentq
-
-        method = "brentq"
-        lo = max((x for x in cands if x.ok and x.error < 0), key=lambda x: x.dv, default=None)
-        hi = min((x for x in cands if x.ok and x.error > 0), key=lambda x: x.dv, default=None)
-        # expand to a bracket
-        n_extra = 0
-        while (lo is None or hi is None) and n_extra < max_iterations:
-            n_extra += 1
-            if hi is None:
-                base = lo.dv if lo is not None else dv
-                step = max(200.0, 2.0 * abs(lo.error if lo is not None and is_orbit else 0.0))
-                if lo is not None and not is_orbit:
-                    step = max(200.0, 2.0 * (v_target - lo.speed))
-                trial = min(base + step, dv_cap)
-                if lo is not None and lo.dv >= dv_cap * (1 - 1e-9):
-                    raise infeasible()
-            else:
-                trial = max(hi.dv - max(200.0, 2.0 * abs(hi.speed - v_target)), 1.0)
-            cand = fly(trial)
-            record(cand, "brentq")
-            if met(cand):
-                done = cand
-                break
-            if not cand.ok or cand.error < 0:
-                # a failed ascent (altitude not reached) counts as short of the target
-                lo = cand
-            else:
-                hi = cand
-        if done is None:
-            if lo is None or hi is None:
-                raise infeasible()
-            store: dict[float, _Candidate] = {}
-
-            def f(x: float) -> float:
-                cnd = fly(x)
-                record(cnd, "brentq")
-                store[x] = cnd
-                if not cnd.ok:
-                    return -1e6
-                return cnd.speed - v_target if is_orbit else cnd.flight.apogee_m - h_t
-
-            try:
-                x = brentq(f, lo.dv, hi.dv, xtol=1e-3, rtol=1e-10, maxiter=max_iterations * 3)
-                done = store.get(x) or fly(x)
-            except (ValueError, RuntimeError):
-                pass
-
-    converged = done is not None and met(done)
-    final_c = done if done is not None else (best_so_far() or cands[-1])
-    final = fly(final_c.dv, history=True)
-    flight = final.flight
-    mp, ms = final.masses
-    stage_mass = tuple(a + b for a, b in zip(mp, ms))
-    stage_dv = tuple(ci * math.log(n) for ci, n in zip(c, final.ratios))
-    if is_orbit:
-        o = flight.orbit
-        achieved = {
-            "perigee_alt_m": o.perigee_alt_m, "apogee_alt_m": o.apogee_alt_m,
-            "speed_m_s": o.speed_m_s, "flight_path_angle_deg": o.flight_path_angle_deg,
-            "inclination_deg": o.inclination_deg,
-        }
-    else:
-        achieved = {"apogee_m": flight.apogee_m}
-    warns = list(flight.warnings)
-    if converged:
-        msg = (f"target met within {tol:g} {'m/s' if is_orbit else 'm'} after "
-               f"{len(hist)} flights ({method}).")
-    else:
-        msg = (f"target not met within {tol:g} {'m/s' if is_orbit else 'm'} after "
-               f"{len(hist)} flights; error {final.error:.3g}. Raise max_iterations or loosen the tolerance.")
-        warns.append(msg)
+def _result(ok, msg, method, vehicle, site, profile, fr, v_t, achieved, err, tol, n_it, n_fl, alternatives,
+            warnings) -> FlightSizingResult:
+    mp, ms, stage, ratios, dvs = _mass_figures(vehicle)
     return FlightSizingResult(
-        converged=converged,
-        message=msg,
-        method=method,
-        stage_names=tuple(s.name for s in specs),
-        propellant_mass_kg=tuple(mp),
-        structural_mass_kg=tuple(ms),
-        stage_mass_kg=stage_mass,
-        mass_ratios=tuple(final.ratios),
-        stage_delta_v_m_s=stage_dv,
-        gross_mass_kg=final.vehicle.gross_mass_kg,
-        payload_mass_kg=payload,
-        ideal_delta_v_m_s=final.dv,
-        target_speed_m_s=v_target,
-        losses_m_s=flight.losses_m_s,
-        rotation_bonus_m_s=flight.rotation_bonus_m_s,
-        achieved=MappingProxyType(achieved),
-        target_error=final.error,
-        tolerance=tol,
-        n_iterations=len(hist),
-        history=tuple(hist),
-        vehicle=final.vehicle,
-        flight=flight,
-        warnings=tuple(warns),
-    )
+        converged=ok, message=msg, method=method, stage_names=tuple(s.name for s in vehicle.stages),
+        propellant_mass_kg=mp, structural_mass_kg=ms, stage_mass_kg=stage, mass_ratios=ratios,
+        stage_delta_v_m_s=dvs, gross_mass_kg=vehicle.gross_mass_kg, payload_mass_kg=vehicle.payload_mass_kg,
+        ideal_delta_v_m_s=sum(dvs), target_speed_m_s=v_t, losses_m_s=fr.losses_m_s,
+        rotation_bonus_m_s=fr.rotation_bonus_m_s, achieved=MappingProxyType(dict(achieved)), target_error=err,
+        tolerance=tol, n_iterations=n_it, n_flights=n_fl, vehicle=vehicle, site=site, profile=profile, flight=fr,
+        alternatives=tuple(alternatives), warnings=tuple(dict.fromkeys(list(fr.warnings) + list(warnings))))

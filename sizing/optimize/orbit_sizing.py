@@ -43,7 +43,7 @@ from sizing.physics.flight.profiles import InsertionBurn
 from sizing.physics.flight.setup import burn_schedule, prepare_flight, replay_steps
 from sizing.physics.gravity import circular_speed_m_s, launch_azimuth_deg, site_rotation_speed_m_s
 from sizing.physics.rocket import stack_masses
-from sizing.physics.staging import optimal_mass_ratios
+from sizing.physics.loss_estimate import gravity_loss_split
 from sizing.physics.vehicle import FlightStageSpec, LaunchSite, Vehicle, build_vehicle
 from sizing.units import GM_EARTH_M3_S2, R_EARTH_EQ_M
 
@@ -119,6 +119,7 @@ class OrbitDesign:
     n_iterations: int
     residuals: dict = field(default_factory=dict)
     warnings: tuple[str, ...] = ()
+    trade_factors: dict | None = None
 
 
 @dataclass(slots=True)
@@ -138,6 +139,8 @@ class _Layout:
     payload_diameter_m: float | None
     staging_delay_s: float
     scale_only: bool = False  # pass 1: one overall mass scale
+    payload_free: bool = False  # the payload is a variable (log, last slot): maximum payload for a gross mass
+    extra_inert_kg: tuple[float, ...] | None = None  # inert mass added per stage (trade factors)
     n_mass: int = 0
     i_kick: int = 0
     i_az: int = 0
@@ -161,7 +164,10 @@ class _Layout:
     @property
     def size(self) -> int:
         extra = {"coast": 3, "kick_stage": 2, "direct": 0}[self.goal.insertion]
-        return self.i_pitch + self.n_pitch + extra
+        return self.i_pitch + self.n_pitch + extra + (1 if self.payload_free else 0)
+
+    def payload(self, z: np.ndarray) -> float:
+        return self.payload_kg * math.exp(float(z[-1])) if self.payload_free else self.payload_kg
 
     def bounds(self) -> tuple[np.ndarray, np.ndarray]:
         lo = np.full(self.size, -np.inf)
@@ -171,6 +177,8 @@ class _Layout:
         lo[self.i_az], hi[self.i_az] = -5.0, 5.0  # deg
         sl = slice(self.i_pitch, self.i_pitch + self.n_pitch)
         lo[sl], hi[sl] = -60.0 / _PITCH_SCALE_DEG, 80.0 / _PITCH_SCALE_DEG
+        if self.payload_free:
+            lo[-1], hi[-1] = math.log(1e-3), math.log(1e3)
         if self.i_ins >= 0:
             lo[self.i_ins], hi[self.i_ins] = 0.0, 8.0  # coast up to 8000 s
             lo[self.i_ins + 1], hi[self.i_ins + 1] = -45.0 / _PITCH_SCALE_DEG, 45.0 / _PITCH_SCALE_DEG
@@ -184,15 +192,17 @@ class _Layout:
         else:
             mp = self.mp_ref * np.exp(z[:self.n_mass])
         ms = [s.structural_coefficient / (1.0 - s.structural_coefficient) * m for s, m in zip(self.specs, mp)]
+        if self.extra_inert_kg is not None:
+            ms = [a + b for a, b in zip(ms, self.extra_inert_kg)]
         return [float(m) for m in mp], ms
 
     def gross_mass(self, z: np.ndarray) -> float:
         mp, ms = self.masses(z)
-        return self.payload_kg + sum(mp) + sum(ms)
+        return self.payload(z) + sum(mp) + sum(ms)
 
     def vehicle(self, z: np.ndarray) -> Vehicle:
         mp, ms = self.masses(z)
-        return build_vehicle(self.specs, mp, ms, self.payload_kg, payload_diameter_m=self.payload_diameter_m,
+        return build_vehicle(self.specs, mp, ms, self.payload(z), payload_diameter_m=self.payload_diameter_m,
                              staging_delay_s=self.staging_delay_s)
 
     def insertion(self, z: np.ndarray, vehicle: Vehicle) -> InsertionBurn | None:
@@ -302,16 +312,19 @@ def _flight(lay: _Layout, z: np.ndarray, rtol: float, steps: np.ndarray | None =
 class _Outputs:
     """fly(z) -> [objective, apsis residuals, inclination residual, path margins] for `solve_shooting`."""
 
-    def __init__(self, lay: _Layout, limits: PathLimits, *, max_payload_gross_kg: float | None, rtol: float):
+    def __init__(self, lay: _Layout, limits: PathLimits, *, rtol: float, gross_mass_kg: float | None = None,
+                 max_gross_mass_kg: float | None = None):
         self.lay, self.limits, self.rtol = lay, limits, rtol
-        self.gross_cap = max_payload_gross_kg
+        self.gross_target = gross_mass_kg if lay.payload_free else None
+        self.gross_cap = max_gross_mass_kg
         g = lay.goal
         self.rp_t = R_EARTH_EQ_M + g.perigee_altitude_m
         self.ra_t = R_EARTH_EQ_M + g.apogee_altitude_m
         self.v_t = circular_speed_m_s(g.perigee_altitude_m)
         self.n_orbit = 3 if abs(self.ra_t - self.rp_t) < 1.0 else 2
-        self.n_eq = self.n_orbit + (1 if g.inclination_deg is not None else 0)
-        self.n_ineq = (limits.max_dynamic_pressure_pa is not None) + (limits.max_acceleration_m_s2 is not None)
+        self.n_eq = self.n_orbit + (1 if g.inclination_deg is not None else 0) + (self.gross_target is not None)
+        self.n_ineq = ((limits.max_dynamic_pressure_pa is not None) + (limits.max_acceleration_m_s2 is not None)
+                       + (self.gross_cap is not None))
         self.m_ref = lay.gross_mass(np.zeros(lay.size))
 
     def __call__(self, z: np.ndarray, steps: np.ndarray | None = None) -> tuple[np.ndarray, np.ndarray | None]:
@@ -321,29 +334,36 @@ class _Outputs:
             return np.full(1 + self.n_eq + self.n_ineq, 1e3), None
         token = rec[: int(out[L.OUT_N_STEPREC])].copy() if out[L.OUT_N_STEPREC] > 0 else None
         orbit, inc = orbit_residuals_m_s(y, self.rp_t, self.ra_t)
-        res = [self.lay.gross_mass(z) / self.m_ref, *orbit]
+        gross = self.lay.gross_mass(z)
+        obj = -self.lay.payload(z) / self.lay.payload_kg if self.lay.payload_free else gross / self.m_ref
+        res = [obj, *orbit]
         if self.lay.goal.inclination_deg is not None:
             res.append(math.radians(inc - self.lay.goal.inclination_deg) * self.v_t)  # plane error as a speed
+        if self.gross_target is not None:
+            res.append(100.0 * (gross - self.gross_target) / self.gross_target)  # 1 unit = 1 % of the gross mass
         if self.limits.max_dynamic_pressure_pa is not None:
             res.append((self.limits.max_dynamic_pressure_pa - out[L.OUT_MAXQ]) / self.limits.max_dynamic_pressure_pa)
         if self.limits.max_acceleration_m_s2 is not None:
             res.append((self.limits.max_acceleration_m_s2 - out[L.OUT_MAX_ACC]) / self.limits.max_acceleration_m_s2)
+        if self.gross_cap is not None:
+            res.append((self.gross_cap - gross) / self.gross_cap)
         return np.array(res), (token if steps is None else None)
 
 
 def _initial_split(specs, payload_kg: float, goal: OrbitGoal, site: LaunchSite, loss_guess_m_s: float) -> np.ndarray:
-    """Lagrange-optimal propellant masses for the orbit speed plus a loss guess minus the rotation bonus."""
+    """Propellant masses of the gravity-loss-aware split (`sizing.physics.loss_estimate`) for the orbit
+    speed plus `loss_guess_m_s` of drag and steering, minus the rotation bonus."""
     v = circular_speed_m_s(0.5 * (goal.perigee_altitude_m + goal.apogee_altitude_m))
     bonus = site_rotation_speed_m_s(site.latitude_deg, site.altitude_m) * math.sin(math.radians(site.azimuth_deg))
-    dv = v + loss_guess_m_s - bonus
     c = [s.exhaust_velocity_vac_m_s for s in specs]
     eps = [s.structural_coefficient for s in specs]
-    try:
-        sol = optimal_mass_ratios(c, eps, dv)
-        m = stack_masses(sol.mass_ratios, eps, payload_kg)
-        return np.maximum(np.asarray(m["propellant_mass_kg"], float), 1e-3 * payload_kg)
-    except (ValueError, FieldError):
-        return np.full(len(specs), 5.0 * payload_kg)
+    psi = [s.thrust_to_weight * (s.isp_vac_s / s.isp_sl_s if (i == 0 and s.isp_sl_s) else 1.0)
+           for i, s in enumerate(specs)]
+    n = gravity_loss_split(c, eps, psi, v + loss_guess_m_s - bonus)
+    m = stack_masses(n, eps, payload_kg)
+    mp = np.asarray(m["propellant_mass_kg"], float)
+    # a stage the estimate empties starts at a small share, so the optimiser can still grow it
+    return np.maximum(mp, 0.05 * mp.sum() / len(mp))
 
 
 def _start(lay: _Layout, rtol: float) -> np.ndarray:
@@ -374,9 +394,10 @@ def _start(lay: _Layout, rtol: float) -> np.ndarray:
 
 def size_for_orbit(specs, payload_mass_kg: float, goal: OrbitGoal, site: LaunchSite | None = None, *,
                    limits: PathLimits | None = None, nodes_per_stage: int = 4, vertical_rise_s: float = 10.0,
-                   kick_duration_s: float = 10.0, loss_guess_m_s: float = 1500.0,
+                   kick_duration_s: float = 10.0, loss_guess_m_s: float = 300.0,
                    payload_diameter_m: float | None = None, staging_delay_s: float = 0.0, rtol: float = 1e-8,
-                   max_iterations: int = 60) -> OrbitDesign:
+                   max_iterations: int = 60, gross_mass_kg: float | None = None,
+                   max_gross_mass_kg: float | None = None) -> OrbitDesign:
     """Minimum gross mass stage split and ascent programme for a target orbit (module notes).
 
     Parameters
@@ -395,9 +416,14 @@ def size_for_orbit(specs, payload_mass_kg: float, goal: OrbitGoal, site: LaunchS
     vertical_rise_s, kick_duration_s : float
         First-stage vertical rise and kick duration [s].
     loss_guess_m_s : float
-        Losses assumed for the starting split [m/s].
+        Drag and steering losses assumed for the starting split [m/s] (gravity
+        losses are estimated per stage).
     rtol : float
         Integrator tolerance of the optimisation flights [-].
+    gross_mass_kg : float, optional
+        Maximise the payload for this gross mass [kg] (`payload_mass_kg` is then the starting guess).
+    max_gross_mass_kg : float, optional
+        Gross mass cap [kg].
     """
     specs = tuple(specs)
     site = site or LaunchSite()
@@ -419,33 +445,70 @@ def size_for_orbit(specs, payload_mass_kg: float, goal: OrbitGoal, site: LaunchS
                   staging_delay_s=staging_delay_s)
     lay1 = _Layout(**common, scale_only=True)
     z1 = _start(lay1, rtol)
-    out1 = _Outputs(lay1, limits, max_payload_gross_kg=None, rtol=rtol)
+    out1 = _Outputs(lay1, limits, rtol=rtol)
     lo1, hi1 = lay1.bounds()
     z1, n_fl = find_feasible(out1, z1, lo1, hi1, n_eq=out1.n_eq)
-    lay2 = _Layout(**common, scale_only=False)
     z2 = np.concatenate([np.full(len(specs), z1[0]), z1[1:]])
-    res = _run(lay2, z2, limits, rtol, max_iterations)
-    return _design(lay2, res, n_fl + res.n_flights, res.n_iterations)
-
-
-def _run(lay: _Layout, z0: np.ndarray, limits: PathLimits, rtol: float, max_iterations: int) -> ShootingResult:
-    outputs = _Outputs(lay, limits, max_payload_gross_kg=None, rtol=rtol)
-    lo, hi = lay.bounds()
+    if gross_mass_kg is not None:  # scale the feasible vehicle and its payload to the gross mass
+        k = gross_mass_kg / lay1.gross_mass(z1)
+        common.update(payload_kg=common["payload_kg"] * k, mp_ref=mp0 * k)
+        z2 = np.concatenate([z2, [0.0]])
+    lay2 = _Layout(**common, scale_only=False, payload_free=gross_mass_kg is not None)
+    outputs = _Outputs(lay2, limits, rtol=rtol, gross_mass_kg=gross_mass_kg, max_gross_mass_kg=max_gross_mass_kg)
+    lo, hi = lay2.bounds()
     lin = None
     if limits.max_pitch_rate_deg_s is not None:
-        lin = lay.pitch_rate_rows(z0, limits.max_pitch_rate_deg_s)
-    return solve_shooting(outputs, z0, lo, hi, n_eq=outputs.n_eq, n_ineq=outputs.n_ineq, linear_ineq=lin,
-                          eq_tol=0.05, max_iterations=max_iterations, step=1e-6)
+        lin = lay2.pitch_rate_rows(z2, limits.max_pitch_rate_deg_s)
+    res = solve_shooting(outputs, z2, lo, hi, n_eq=outputs.n_eq, n_ineq=outputs.n_ineq, linear_ineq=lin,
+                         eq_tol=0.05, max_iterations=max_iterations, step=1e-6)
+    design = _design(lay2, outputs, res, n_fl + res.n_flights, res.n_iterations)
+    if not res.success or gross_mass_kg is not None:
+        return design
+    out_kw = dict(rtol=rtol, max_gross_mass_kg=max_gross_mass_kg)
+    return replace(design, trade_factors=_trade_factors(common, limits, out_kw, res, lay2.gross_mass(res.z)))
 
 
-def _design(lay: _Layout, res: ShootingResult, n_flights: int, n_iterations: int) -> OrbitDesign:
+def _trade_factors(common: dict, limits: PathLimits, out_kw: dict, res: ShootingResult, gross: float) -> dict:
+    """Gross-mass trade factors at the optimum by the envelope theorem: one flight per parameter.
+
+    Each parameter (payload +1 kg; per stage structural mass +1 kg, Isp +1 s,
+    structural coefficient +0.01) is changed with the design held at the
+    optimum; the change of the gross mass and of the constraint outputs,
+    weighted by the multipliers (`ShootingResult.objective_change`), is the
+    first-order change of the minimum gross mass with steering and split
+    re-optimised.
+    """
+    specs = common["specs"]
+    n = len(specs)
+
+    def change(**kw) -> float:
+        lay = _Layout(**{**common, **kw})
+        outputs = _Outputs(lay, limits, **out_kw)
+        g = outputs(res.z)[0]
+        return float(res.objective_change(g) * outputs.m_ref)
+
+    stages = {}
+    for i, s in enumerate(specs):
+        inert = tuple(1.0 if k == i else 0.0 for k in range(n))
+        isp = specs[:i] + (replace(s, isp_vac_s=s.isp_vac_s + 1.0,
+                                   isp_sl_s=None if s.isp_sl_s is None else s.isp_sl_s + 1.0),) + specs[i + 1:]
+        eps = specs[:i] + (replace(s, structural_coefficient=s.structural_coefficient + 0.01),) + specs[i + 1:]
+        stages[s.name] = {"per_structural_kg": change(extra_inert_kg=inert), "per_isp_s": change(specs=isp),
+                          "per_0_01_structural_coefficient": change(specs=eps)}
+    return {"basis": ("change in minimum gross mass at fixed payload and target orbit, steering and split "
+                      "re-optimised (envelope theorem on the flown optimum, first order)"),
+            "gross_mass_per_payload_kg": change(payload_kg=common["payload_kg"] + 1.0),
+            "gross_mass_kg": gross, "stages": stages}
+
+
+def _design(lay: _Layout, outputs: _Outputs, res: ShootingResult, n_flights: int, n_iterations: int) -> OrbitDesign:
     z = res.z
     vehicle = lay.vehicle(z)
     mp, ms = lay.masses(z)
-    residuals = {"orbit_m_s": [float(v) for v in res.outputs[1:-1 if lay.goal.inclination_deg is not None else None]]}
+    residuals = {"orbit_m_s": [float(v) for v in res.outputs[1:1 + outputs.n_orbit]]}
     if lay.goal.inclination_deg is not None:
-        residuals["plane_m_s"] = float(res.outputs[-1])
+        residuals["plane_m_s"] = float(res.outputs[1 + outputs.n_orbit])
     return OrbitDesign(vehicle=vehicle, site=lay.site_for(z), profile=lay.profile(z, vehicle),
-                       propellant_mass_kg=tuple(mp), structural_mass_kg=tuple(ms), payload_mass_kg=lay.payload_kg,
+                       propellant_mass_kg=tuple(mp), structural_mass_kg=tuple(ms), payload_mass_kg=lay.payload(z),
                        success=res.success, message=res.message, n_flights=n_flights, n_iterations=n_iterations,
                        residuals=residuals)

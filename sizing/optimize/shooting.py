@@ -30,7 +30,7 @@ from __future__ import annotations
 import math
 import warnings
 from collections.abc import Callable
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 
 import numpy as np
 
@@ -59,6 +59,10 @@ class ShootingResult:
         SQP iterations.
     max_violation : float
         Largest constraint violation (scaled units).
+    multipliers : numpy.ndarray
+        Lagrange multipliers of the equality and inequality outputs at z (0 for
+        inactive inequalities): least-squares solution of grad f + J^T lambda = 0
+        over the active constraints, from the forward-difference Jacobian.
     """
 
     z: np.ndarray
@@ -68,6 +72,19 @@ class ShootingResult:
     n_flights: int
     n_iterations: int
     max_violation: float
+    multipliers: np.ndarray = field(default_factory=lambda: np.zeros(0))
+
+    def objective_change(self, outputs_perturbed: np.ndarray) -> float:
+        """First-order change of the optimal objective when a parameter moves the outputs at z (envelope theorem).
+
+        d f* = d f + lambda . d c (Fiacco, Introduction to Sensitivity and Stability
+        Analysis in Nonlinear Programming, 1983, Ch. 3; Bertsekas, Nonlinear
+        Programming, 3rd ed., 2016, Sec. 3.2; from memory): the change of the
+        objective and of the constraint outputs at the optimal design, weighted by
+        the multipliers.
+        """
+        d = np.asarray(outputs_perturbed, float) - self.outputs
+        return float(d[0] + self.multipliers @ d[1:1 + self.multipliers.size])
 
 
 class _Evaluator:
@@ -219,8 +236,23 @@ def solve_shooting(fly: Callable, z0, lower, upper, *, n_eq: int, n_ineq: int = 
     z = best["z"] if math.isfinite(best["f"]) else np.clip(z0, lower, upper)
     g = ev.g(z)
     viol = violation(z, g)
+    lam = _multipliers(ev.jac(z, lower, upper), g, n_eq, n_ineq, z, lower, upper)
     ok = converged and viol <= eq_tol and math.isfinite(g[0])
     if not converged and viol <= eq_tol:
         message += " (best feasible iterate kept)"
     return ShootingResult(z=z, outputs=g, success=ok or (viol <= eq_tol and math.isfinite(best["f"])),
-                          message=message, n_flights=ev.n_flights, n_iterations=n_it[0], max_violation=viol)
+                          message=message, n_flights=ev.n_flights, n_iterations=n_it[0], max_violation=viol,
+                          multipliers=lam)
+
+
+def _multipliers(J: np.ndarray, g: np.ndarray, n_eq: int, n_ineq: int, z, lower, upper) -> np.ndarray:
+    """KKT multipliers: grad f + sum lambda_i grad c_i = 0 on the free variables, active constraints only."""
+    free = (z > lower + 1e-9) & (z < upper - 1e-9)
+    rows = list(range(1, 1 + n_eq)) + [1 + n_eq + k for k in range(n_ineq) if g[1 + n_eq + k] < 1e-6]
+    lam = np.zeros(n_eq + n_ineq)
+    if not rows or not free.any():
+        return lam
+    A = J[rows][:, free].T
+    sol, *_ = np.linalg.lstsq(A, -J[0, free], rcond=None)
+    lam[[r - 1 for r in rows]] = sol
+    return lam

@@ -24,7 +24,7 @@ from ..errors import (
     ProblemDefinitionError,
 )
 from ..units import G0_M_S2, to_si
-from .model import LaunchDef, Problem, SolveFor, StageDef
+from .model import LaunchDef, Problem, SolveFor, StageDef, SteeringDef
 from .schema import (
     LaunchTable,
     MaterialEntryTable,
@@ -216,6 +216,71 @@ class _Collector:
         self.faults.append(text)
 
 
+def _flight_fields(col: _Collector, m, st, stage_names: set[str]) -> dict[str, Any]:
+    """The flight-target keys of [mission] and the [steering] table (SI), for `Problem`."""
+    out: dict[str, Any] = {
+        "orbit_apogee_m": col.quantity("mission.orbit_apogee", m.orbit_apogee, "length", lo=0.0),
+        "insertion": m.insertion,
+        "max_dynamic_pressure_pa": col.quantity("mission.max_dynamic_pressure", m.max_dynamic_pressure,
+                                                "pressure", lo=0.0),
+        "max_pitch_rate_deg_s": col.quantity("mission.max_pitch_rate", m.max_pitch_rate, "angular_rate", lo=0.0),
+    }
+    if m.orbit_apogee is not None and m.orbit_altitude is None:
+        col.fault("mission.orbit_apogee: needs mission.orbit_altitude (the perigee altitude) beside it.")
+    if (out["orbit_apogee_m"] is not None and m.orbit_altitude is not None
+            and out["orbit_apogee_m"] < to_si_or_nan(m.orbit_altitude, "length")):
+        col.fault(f"mission.orbit_apogee: must be >= orbit_altitude (the perigee). Got {m.orbit_apogee!r}.")
+    if st is None:
+        out["steering"] = SteeringDef()
+        return out
+    table = None
+    if st.pitch_table is not None:
+        rows = []
+        for k, row in enumerate(st.pitch_table):
+            if len(row) != 2:
+                col.fault(f"steering.pitch_table[{k + 1}]: must be [time, pitch]. Got {row!r}.")
+                continue
+            t = col.quantity(f"steering.pitch_table[{k + 1}][1]", row[0], "time", lo=0.0, lo_open=False)
+            p = col.quantity(f"steering.pitch_table[{k + 1}][2]", row[1], "angle", lo=-90.0, hi=90.0)
+            if t is not None and p is not None:
+                rows.append((t, p))
+        if any(b[0] <= a[0] for a, b in zip(rows, rows[1:])):
+            col.fault("steering.pitch_table: times must be strictly increasing.")
+        if len(rows) < 2:
+            col.fault("steering.pitch_table: needs at least two [time, pitch] rows.")
+        table = tuple(rows)
+    if st.steer_from_stage is not None and st.steer_from_stage not in stage_names:
+        col.fault(f"steering.steer_from_stage: must name a stage ({', '.join(sorted(stage_names))}). "
+                  f"Got {st.steer_from_stage!r}.")
+    out["steering"] = SteeringDef(
+        nodes_per_stage=st.nodes_per_stage,
+        kick_duration_s=col.quantity("steering.kick_duration", st.kick_duration, "time", lo=0.0),
+        pitch_kick_deg=col.quantity("steering.pitch_kick", st.pitch_kick, "angle", lo=0.0, hi=45.0, lo_open=False),
+        vertical_rise_time_s=col.quantity("steering.vertical_rise_time", st.vertical_rise_time, "time", lo=0.0,
+                                          lo_open=False),
+        pitch_table=table, steer_from_stage=st.steer_from_stage,
+        hold_inclination_deg=col.quantity("steering.hold_inclination", st.hold_inclination, "angle", lo=0.0,
+                                          hi=180.0, lo_open=False, hi_open=False),
+        ascending=st.ascending,
+        yaw_bias_deg=col.quantity("steering.yaw_bias", st.yaw_bias, "angle", lo=-30.0, hi=30.0),
+        insertion_coast_s=col.quantity("steering.insertion_coast", st.insertion_coast, "time", lo=0.0,
+                                       lo_open=False),
+        insertion_pitch_deg=col.quantity("steering.insertion_pitch", st.insertion_pitch, "angle", lo=-89.0,
+                                         hi=89.0),
+        insertion_propellant_kg=col.quantity("steering.insertion_propellant", st.insertion_propellant, "mass",
+                                             lo=0.0),
+    )
+    return out
+
+
+def to_si_or_nan(value: Any, kind: str) -> float:
+    """SI value of a quantity, or nan when it cannot be read (its own check reports it)."""
+    try:
+        return to_si(value, kind)
+    except ValueError:
+        return math.nan
+
+
 def problem_from_dict(data: Mapping[str, Any], *, source: str = "<dict>") -> Problem:
     """Validate a raw problem structure (as read from TOML) and build the SI `Problem`.
 
@@ -286,9 +351,10 @@ def problem_from_dict(data: Mapping[str, Any], *, source: str = "<dict>") -> Pro
         else:
             col.fault("mission: give two of payload_mass, gross_mass and a target "
                       f"(delta_v, apogee or orbit_altitude). Missing {' and '.join(missing)}.")
-    if (apogee is not None or orbit is not None) and solve_for not in (None, SolveFor.GROSS_MASS):
-        col.fault("mission: apogee and orbit_altitude targets solve for gross_mass (give payload_mass). "
-                  f"Got solve_for = {str(solve_for)!r}.")
+    if (apogee is not None or orbit is not None) and solve_for not in (None, SolveFor.GROSS_MASS,
+                                                                       SolveFor.PAYLOAD_MASS):
+        col.fault("mission: apogee and orbit_altitude targets solve for gross_mass (give payload_mass) or for "
+                  f"payload_mass (give gross_mass). Got solve_for = {str(solve_for)!r}.")
     if gross is None and design_gross is not None:
         gross = design_gross
     if payload is not None and gross is not None and gross <= payload:
@@ -425,6 +491,7 @@ def problem_from_dict(data: Mapping[str, Any], *, source: str = "<dict>") -> Pro
     if apogee is not None and apogee <= 0:
         col.fault(f"mission.apogee: must be above the launch site. Got {m.apogee!r}.")
 
+    flight = _flight_fields(col, m, pf.steering, {s.name for s in stages})
     if col.faults:
         raise ProblemDefinitionError(source, col.faults)
     assert solve_for is not None
@@ -433,7 +500,7 @@ def problem_from_dict(data: Mapping[str, Any], *, source: str = "<dict>") -> Pro
         name=name, source=source, solve_for=solve_for, stages=tuple(stages),
         payload_mass_kg=payload, delta_v_m_s=dv, gross_mass_kg=gross, apogee_m=apogee,
         orbit_altitude_m=orbit, inclination_deg=incl, max_gross_mass_kg=cap,
-        max_acceleration_m_s2=amax, target_tolerance_m=tol_m, g0_m_s2=g0,
+        max_acceleration_m_s2=amax, target_tolerance_m=tol_m, g0_m_s2=g0, **flight,
         method=pf.solver.method, max_iterations=pf.solver.max_iterations,
         tolerance=pf.solver.tolerance, launch=launch, raw=data,
         design_masses_given=all(st.propellant_mass is not None and st.structural_mass is not None

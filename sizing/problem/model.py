@@ -6,7 +6,7 @@ from dataclasses import dataclass, field
 from enum import StrEnum
 from typing import Any, Mapping
 
-__all__ = ["SolveFor", "StageDef", "LaunchDef", "Problem"]
+__all__ = ["SolveFor", "StageDef", "LaunchDef", "SteeringDef", "Problem"]
 
 
 class SolveFor(StrEnum):
@@ -89,6 +89,29 @@ class LaunchDef:
 
 
 @dataclass(frozen=True, slots=True)
+class SteeringDef:
+    """The [steering] table, SI (angles in degrees). A design file gives the whole programme."""
+
+    nodes_per_stage: int | None = None
+    kick_duration_s: float | None = None
+    pitch_kick_deg: float | None = None
+    vertical_rise_time_s: float | None = None
+    pitch_table: tuple[tuple[float, float], ...] | None = None  # (time [s], pitch [deg])
+    steer_from_stage: str | None = None
+    hold_inclination_deg: float | None = None
+    ascending: bool | None = None
+    yaw_bias_deg: float | None = None
+    insertion_coast_s: float | None = None
+    insertion_pitch_deg: float | None = None
+    insertion_propellant_kg: float | None = None
+
+    @property
+    def is_programme(self) -> bool:
+        """True when the file gives a steering programme to fly (a design file)."""
+        return self.pitch_table is not None
+
+
+@dataclass(frozen=True, slots=True)
 class Problem:
     """A validated sizing problem in SI units. Build it with `load_problem`.
 
@@ -99,7 +122,15 @@ class Problem:
     payload_mass_kg, delta_v_m_s, gross_mass_kg : float or None
         Given quantities [kg, m/s, kg]; the one solved for is None.
     apogee_m, orbit_altitude_m : float or None
-        Flight targets replacing `delta_v_m_s` [m].
+        Flight targets replacing `delta_v_m_s` [m]: apogee above the launch
+        site; orbit (perigee) altitude above the equatorial radius.
+    orbit_apogee_m : float or None
+        Apogee altitude of an elliptical orbit target [m].
+    insertion : str or None
+        ``"coast"``, ``"kick_stage"`` or ``"direct"`` (orbit targets).
+    max_dynamic_pressure_pa, max_pitch_rate_deg_s, max_acceleration_m_s2 : float or None
+        Path limits of flight targets [Pa, deg/s, m/s^2].
+    steering : SteeringDef
     raw : Mapping
         The structure the problem was validated from (as read from TOML); the
         study layer copies it to make variants. Treat it as read-only.
@@ -118,6 +149,11 @@ class Problem:
     max_gross_mass_kg: float | None = None
     max_acceleration_m_s2: float | None = None
     target_tolerance_m: float | None = None
+    orbit_apogee_m: float | None = None
+    insertion: str | None = None
+    max_dynamic_pressure_pa: float | None = None
+    max_pitch_rate_deg_s: float | None = None
+    steering: SteeringDef = field(default_factory=SteeringDef)
     g0_m_s2: float = 9.80665
     method: str = "auto"
     max_iterations: int | None = None

@@ -36,7 +36,11 @@ class MissionTable(_Strict):
     max_gross_mass: Quantity | None = None  # kg, cap
     standard_gravity: Quantity | None = None  # m/s^2, g0 used to turn Isp into exhaust velocity
     target_tolerance: Quantity | None = None  # m: apogee error, or error of the far apsis altitude for orbits
-    max_acceleration: Quantity | None = None  # m/s^2, review limit
+    max_acceleration: Quantity | None = None  # m/s^2, path limit (flight targets) and review limit
+    orbit_apogee: Quantity | None = None  # m, apogee altitude of an elliptical orbit (orbit_altitude = perigee)
+    insertion: Literal["coast", "kick_stage", "direct"] | None = None
+    max_dynamic_pressure: Quantity | None = None  # Pa, path limit
+    max_pitch_rate: Quantity | None = None  # deg/s, path limit of the steering programme
     notes: str | None = None
 
 
@@ -156,6 +160,23 @@ class LaunchTable(_Strict):
     payload_diameter: Quantity | None = None  # m
 
 
+class SteeringTable(_Strict):
+    """[steering]: how the ascent is steered; a design file carries the optimised programme."""
+
+    nodes_per_stage: StrictInt | None = Field(default=None, ge=2, le=20)
+    kick_duration: Quantity | None = None  # s
+    pitch_kick: Quantity | None = None  # deg (design files; [launch] pitch_kick is the same)
+    vertical_rise_time: Quantity | None = None  # s
+    pitch_table: list[list[Quantity]] | None = None  # [[time s, pitch deg], ...] from liftoff
+    steer_from_stage: StrictStr | None = None
+    hold_inclination: Quantity | None = None  # deg
+    ascending: bool | None = None
+    yaw_bias: Quantity | None = None  # deg
+    insertion_coast: Quantity | None = None  # s
+    insertion_pitch: Quantity | None = None  # deg
+    insertion_propellant: Quantity | None = None  # kg, restart burn of the last stage (absent: kick stage)
+
+
 class ProblemFile(_Strict):
     """The whole problem file."""
 
@@ -163,5 +184,6 @@ class ProblemFile(_Strict):
     stage: list[StageTable] = Field(min_length=1)
     solver: SolverTable = SolverTable()
     launch: LaunchTable | None = None
+    steering: SteeringTable | None = None
     propellant_table: dict[str, PropellantEntryTable] | None = None
     material_table: dict[str, MaterialEntryTable] | None = None

@@ -112,8 +112,9 @@ def trade_factor_values(result: SizingResult) -> list[tuple[str, str, float, flo
     def row(item, step, dm0, spec):
         return (item, step, dm0, -dm0 / growth if growth else math.nan, spec)
 
-    rows = [("payload", "+1 kg", growth, None, ",.3f"),
-            row("ideal delta-v", "+1 m/s", tf["gross_mass_per_delta_v_kg_per_m_s"], ",.4f")]
+    rows = [("payload", "+1 kg", growth, None, ",.3f")]
+    if tf.get("gross_mass_per_delta_v_kg_per_m_s") is not None:  # not for flight targets
+        rows.append(row("ideal delta-v", "+1 m/s", tf["gross_mass_per_delta_v_kg_per_m_s"], ",.4f"))
     for name, d in tf["stages"].items():
         rows.append(row(f"{name}: structural mass", "+1 kg", d["per_structural_kg"], ",.3f"))
         rows.append(row(f"{name}: Isp", "+1 s", d["per_isp_s"], ",.3f"))

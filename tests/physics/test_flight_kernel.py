@@ -131,7 +131,7 @@ def test_drag_pulls_a_body_up_to_the_wind_speed_closed_form():
     setup.y0[2] = 100.0  # released 100 m above the site, where the wind blows
     setup.opt[L.OPT_VERTICAL] = 0.0  # no rail: free from t = 0
     setup.opt[L.OPT_MAX_TIME] = 60.0
-    out, y, _, _, hist = run_flight(*setup.kernel_args(4096))
+    out, y, _, _, hist, _ = run_flight(*setup.kernel_args(4096))
     h = hist[: int(out[L.OUT_N_HIST])]
     t, u = h[:, L.H_T], h[:, L.H_VX]
 

@@ -31,19 +31,21 @@ from sizing.physics.flight.layout import (
     B_SIZE, B_STAGE, B_T, B_Y, D_ACC, D_ALT, D_DRAG, D_MACH, D_Q, D_THRUST, D_VREL, END_APOGEE, END_BURNOUT,
     END_IMPACT, END_TIME_LIMIT, ENV_DRAG, ENV_RAIL_LEN, ENV_SITE_ALT, H_SIZE, MODE_LINEAR_TANGENT,
     MODE_PITCH_RATE, N_DIAG, N_MOTION, N_STATE, OPT_DETECT_IMPACT, OPT_H_FIRST, OPT_MAX_STEP, OPT_MAX_TIME,
-    OPT_N_STAGES, OPT_POS_SCALE, OPT_RECORD, OPT_RTOL, OPT_STOP, OPT_VEL_SCALE, OPT_VERTICAL, OUT_APOGEE,
+    OPT_N_MARKS, OPT_N_STAGES, OPT_POS_SCALE, OPT_RECORD, OPT_REPLAY, OPT_RTOL, OPT_STOP, OPT_VEL_SCALE, OPT_VERTICAL, OUT_APOGEE,
     OUT_APOGEE_T, OUT_END, OUT_HAS_BUDGET, OUT_IMPACT_T, OUT_MAX_ACC, OUT_MAXQ, OUT_MAXQ_ALT, OUT_MAXQ_T,
-    OUT_N_BURNOUTS, OUT_N_HIST, OUT_N_REJECTED, OUT_N_RHS, OUT_N_STEPS, OUT_RAIL_T, OUT_RAIL_V, OUT_SIZE, OUT_T,
+    OUT_N_BURNOUTS, OUT_N_HIST, OUT_N_REJECTED, OUT_N_RHS, OUT_N_STEPREC, OUT_N_STEPS, OUT_RAIL_T, OUT_RAIL_V, OUT_SIZE, OUT_T,
     OUT_WENT_BELOW, PH_BURNING, PH_BURNOUT_OF, PH_DRAG_LEN, PH_DRAG_OFF, PH_EXIT_AREA, PH_MASS_AFTER, PH_MODE,
-    PH_STAGE, PH_T1, ST_T_START, ST_TAN0, ST_TH0, ST_TH0_GIVEN, STOP_APOGEE, STOP_BURNOUT,
+    PH_MARK, PH_STAGE, PH_STEP_N, PH_STEP_OFF, PH_T0, PH_T1, ST_T_START, ST_TAN0, ST_TH0, ST_TH0_GIVEN, STOP_APOGEE, STOP_BURNOUT,
 )
+from sizing.physics.flight.layout import STEP_RECORD_CAP
 from sizing.physics.flight.tableau import N_STAGES
 
 __all__ = ["run_flight", "run_many"]
 
 # loop state ``ws`` (kernel-private)
 W_T, W_H_NEXT, W_LIFTED, W_ON_RAIL, W_JUST, W_STAGE, W_K1, W_DONE, W_N_TRACK, W_N_Q, W_N_STORED, W_PHASE = range(12)
-W_SIZE = 12
+W_REPLAY_J = 12  # next replayed step of the phase
+W_SIZE = 13
 
 
 class _Buffers:
@@ -277,6 +279,37 @@ def _accepted_step(ws, out, t, t1, y, y1, yc, ytmp, K, Kc, diag, diag1, diagc, t
 
 
 @njit
+def _replay_step(ws, out, t, y, y1, ytmp, K, diag1, ph, par, opt):
+    """Take the next recorded step of the phase (no error control); return its length."""
+    j = int(ws[W_REPLAY_J])
+    n = int(ph[PH_STEP_N])
+    t0, t1 = ph[PH_T0], ph[PH_T1]
+    t_new = t1 if j >= n - 1 else t0 + par[int(ph[PH_STEP_OFF]) + j] * (t1 - t0)
+    h = t_new - t
+    dp_step(t, y, h, K, y1, ytmp, diag1, ws[W_K1] > 0.0, par, ph, ws[W_ON_RAIL] > 0.0, opt[OPT_RTOL],
+            opt[OPT_POS_SCALE], opt[OPT_VEL_SCALE])
+    ws[W_K1] = 1.0
+    ws[W_REPLAY_J] = j + 1
+    out[OUT_N_RHS] += N_STAGES - 1
+    out[OUT_N_STEPS] += 1
+    return h
+
+
+@njit
+def _record_step(out, steps, k, t_end, ph):
+    """Append (phase, step-end fraction of the phase) to the step record, while there is room."""
+    n = int(out[OUT_N_STEPREC])
+    if n < 0:
+        return
+    if n >= steps.shape[0] or not math.isfinite(ph[PH_T1]):
+        out[OUT_N_STEPREC] = -1.0
+        return
+    steps[n, 0] = k
+    steps[n, 1] = (t_end - ph[PH_T0]) / (ph[PH_T1] - ph[PH_T0])
+    out[OUT_N_STEPREC] = n + 1
+
+
+@njit
 def _integrate_to_event(kind, target, c, t, y, h, K, Kt, ye, ytmp, diag, ph, par, on_rail, opt):
     """Integrate from (t, y) to the located event (fraction c of the step) and polish by secant steps."""
     rtol, pos_s, vel_s = opt[OPT_RTOL], opt[OPT_POS_SCALE], opt[OPT_VEL_SCALE]
@@ -379,11 +412,13 @@ def _handle_event(kind, ws, out, t, diag, final_coast, opt):
 
 
 @njit
-def _fly_phase(k, ws, out, y, hist, phases, par, opt, bufs, rec):
+def _fly_phase(k, ws, out, y, hist, phases, par, opt, bufs, rec, steps):
     """Integrate phase k from the current state to its end or to an event that ends the flight."""
     K, Kc, Kt, y1, yc, ye, ytmp, diag, diag1, diagc = bufs
     track, qs, stp_t0, stp_h, stp_y0, stp_K, stp_ph = rec
     ph = phases[k]
+    replay = opt[OPT_REPLAY] > 0.0 and ph[PH_STEP_N] > 0.0
+    ws[W_REPLAY_J] = 0.0
     t1 = ph[PH_T1]
     t1_stop = t1 - 1e-12 * max(1.0, t1) if math.isfinite(t1) else math.inf
     final_coast = k == phases.shape[0] - 1 and not math.isfinite(t1)
@@ -392,7 +427,10 @@ def _fly_phase(k, ws, out, y, hist, phases, par, opt, bufs, rec):
         if t > opt[OPT_MAX_TIME]:
             ws[W_DONE] = 1.0
             return hist
-        h = _accepted_step(ws, out, t, t1, y, y1, yc, ytmp, K, Kc, diag, diag1, diagc, track, ph, par, opt)
+        if replay:
+            h = _replay_step(ws, out, t, y, y1, ytmp, K, diag1, ph, par, opt)
+        else:
+            h = _accepted_step(ws, out, t, t1, y, y1, yc, ytmp, K, Kc, diag, diag1, diagc, track, ph, par, opt)
         slot = _store_step(ws, t, y, h, K, stp_t0, stp_h, stp_y0, stp_K, stp_ph)
         if (y1[3] - y[3]) ** 2 + (y1[4] - y[4]) ** 2 + (y1[5] - y[5]) ** 2 > 0.0:
             ws[W_LIFTED] = 1.0
@@ -401,6 +439,7 @@ def _fly_phase(k, ws, out, y, hist, phases, par, opt, bufs, rec):
             kind, c, target = _find_event(ws, y, y1, h, K, par, opt)
         ws[W_JUST] = EV_NONE
         if kind != EV_NONE:
+            out[OUT_N_STEPREC] = -1.0  # a flight cut by an event cannot be replayed step for step
             on_rail = ws[W_ON_RAIL] > 0.0
             tau = _integrate_to_event(kind, target, c, t, y, h, K, Kc, ye, ytmp, diag, ph, par, on_rail, opt)
             ws[W_T] = t + tau
@@ -415,6 +454,7 @@ def _fly_phase(k, ws, out, y, hist, phases, par, opt, bufs, rec):
                 return hist
             ws[W_JUST] = kind
             continue
+        _record_step(out, steps, k, t + h, ph)
         ws[W_T] = t + h
         y[:] = y1
         K[0] = K[N_STAGES - 1]
@@ -432,14 +472,15 @@ def _fly_phase(k, ws, out, y, hist, phases, par, opt, bufs, rec):
 
 @njit
 def run_flight(phases, par, opt, y_init, hist_cap):
-    """Fly one flight. Returns (out, y_final, y_budget, burnouts, history).
+    """Fly one flight. Returns (out, y_final, y_budget, burnouts, history, steps).
 
     phases: PH_* rows; par: the flight's parameter array (copied: the kernel
     writes the steering start into it); opt: OPT_* options; y_init: the
     13-component state at t = 0. out: OUT_* scalars; y_budget: state at final
     burnout (or the last state); burnouts: one row per stage (B_* layout, nan
     for stages that did not burn out); history: H_* columns, OUT_N_HIST rows
-    (unsorted where max-q was refined).
+    (unsorted where max-q was refined); steps: (phase index, step-end fraction
+    of the phase), OUT_N_STEPREC rows, for replaying the same steps (`OPT_REPLAY`).
     """
     par = par.copy()
     n_st = int(opt[OPT_N_STAGES])
@@ -447,9 +488,10 @@ def run_flight(phases, par, opt, y_init, hist_cap):
     for i in (OUT_RAIL_T, OUT_RAIL_V, OUT_APOGEE_T, OUT_IMPACT_T):
         out[i] = math.nan
     out[OUT_END] = END_TIME_LIMIT
+    steps = np.empty((STEP_RECORD_CAP, 2))
     y = y_init.copy()
     hist = np.empty((max(hist_cap, 1) if opt[OPT_RECORD] > 0.0 else 1, H_SIZE))
-    burn = np.full((n_st, B_SIZE), math.nan)
+    burn = np.full((n_st + int(opt[OPT_N_MARKS]), B_SIZE), math.nan)
     budget = y.copy()
     ws = np.zeros(W_SIZE)
     ws[W_ON_RAIL] = opt[OPT_VERTICAL]
@@ -470,9 +512,13 @@ def run_flight(phases, par, opt, y_init, hist_cap):
         ph = phases[k]
         ws[W_PHASE] = k
         _start_phase(ws, ph, y, par)
-        hist = _fly_phase(k, ws, out, y, hist, phases, par, opt, bufs, rec)
+        hist = _fly_phase(k, ws, out, y, hist, phases, par, opt, bufs, rec, steps)
         if ws[W_DONE] > 0.0:
             break
+        mark = int(ph[PH_MARK])
+        if mark >= 0:
+            burn[mark, B_T], burn[mark, B_STAGE] = ws[W_T], ph[PH_STAGE]
+            burn[mark, B_Y:] = y
         i = int(ph[PH_BURNOUT_OF])
         if i >= 0:
             burn[i, B_T], burn[i, B_STAGE] = ws[W_T], i
@@ -489,7 +535,7 @@ def run_flight(phases, par, opt, y_init, hist_cap):
     if out[OUT_HAS_BUDGET] == 0.0:
         budget[:] = y
     out[OUT_T] = ws[W_T]
-    return out, y, budget, burn, hist
+    return out, y, budget, burn, hist, steps
 
 
 @njit
@@ -500,13 +546,13 @@ def run_many(phase_rows, phase_off, pars, par_off, opts, y_inits):
     Returns (out [n x OUT_SIZE], y_final [n x 13], y_budget [n x 13], burnouts [n x n_st x B_SIZE]).
     """
     n = phase_off.shape[0] - 1
-    n_st = int(opts[0, OPT_N_STAGES])
+    n_rows = int(opts[0, OPT_N_STAGES]) + int(opts[0, OPT_N_MARKS])
     outs = np.empty((n, OUT_SIZE))
     yf = np.empty((n, N_STATE))
     yb = np.empty((n, N_STATE))
-    burns = np.empty((n, n_st, B_SIZE))
+    burns = np.empty((n, n_rows, B_SIZE))
     for j in range(n):
-        o, y, b, bo, _ = run_flight(phase_rows[phase_off[j]:phase_off[j + 1]], pars[par_off[j]:par_off[j + 1]],
+        o, y, b, bo, _, _ = run_flight(phase_rows[phase_off[j]:phase_off[j + 1]], pars[par_off[j]:par_off[j + 1]],
                                     opts[j], y_inits[j], 1)
         outs[j] = o
         yf[j] = y

@@ -96,7 +96,10 @@ PH_DRAG_OFF = 12  # offset of the stage's drag table in ``par`` (Mach at [off, o
 PH_DRAG_LEN = 13
 PH_MASS_AFTER = 14  # mass after the burnout at T1 (next ignition mass, or payload + structure)
 PH_PITCH = 15  # MODE_FIXED: pitch above the local horizontal [rad]
-PH_SIZE = 16
+PH_MARK = 16  # row of the burnout table to record the state in at T1 (cut-offs that are not burnouts), or -1
+PH_STEP_OFF = 17  # replay: offset in ``par`` of this phase's step-end fractions of the phase duration
+PH_STEP_N = 18  # replay: number of steps (0: adaptive steps)
+PH_SIZE = 19
 
 # --- options ``opt`` -----------------------------------------------------------
 OPT_RTOL = 0
@@ -110,7 +113,9 @@ OPT_MAX_TIME = 7  # [s]
 OPT_N_STAGES = 8
 OPT_POS_SCALE = 9  # error norm position scale [m]
 OPT_VEL_SCALE = 10  # error norm velocity floor [m/s]
-OPT_SIZE = 11
+OPT_N_MARKS = 11  # extra rows of the burnout table for cut-offs (PH_MARK)
+OPT_REPLAY = 12  # 1: take the steps listed in the phases (PH_STEP_*) instead of adaptive ones
+OPT_SIZE = 13
 
 STOP_APOGEE, STOP_IMPACT, STOP_BURNOUT = range(3)
 
@@ -136,12 +141,16 @@ OUT_N_RHS = 14
 OUT_HAS_BUDGET = 15
 OUT_N_HIST = 16
 OUT_N_BURNOUTS = 17
-OUT_SIZE = 18
+OUT_N_STEPREC = 18  # rows of the step record (phase index, step-end fraction); -1 if not replayable
+OUT_SIZE = 19
 
 #: History columns recorded by the kernel (the Python side derives the rest).
 H_T, H_X, H_Y, H_Z, H_VX, H_VY, H_VZ, H_M, H_ALT, H_VREL, H_MACH, H_Q, H_ACC, H_THRUST, H_DRAG, H_STAGE = range(16)
 H_SIZE = 16
 
-#: Burnout record: time, stage index, then the 13-component state.
+#: Capacity of the step record (steps of one flight, for replay).
+STEP_RECORD_CAP = 8192
+
+#: Burnout record (one row per stage, then one per marked cut-off): time, stage index, 13-component state.
 B_T, B_STAGE, B_Y = 0, 1, 2
 B_SIZE = 2 + N_STATE

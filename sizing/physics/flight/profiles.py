@@ -7,10 +7,41 @@ from dataclasses import dataclass
 
 from sizing.errors import FieldError
 
-__all__ = ["AscentProfile", "STEERING_LAWS"]
+__all__ = ["AscentProfile", "InsertionBurn", "STEERING_LAWS"]
 
 #: Upper-stage steering laws of `AscentProfile.steering`.
 STEERING_LAWS = ("linear_tangent", "pitch_rate", "gravity_turn", "table")
+
+
+@dataclass(frozen=True, slots=True)
+class InsertionBurn:
+    """Coast and insertion (circularisation) burn by the last stage, at the end of an ascent.
+
+    Parameters
+    ----------
+    coast_s : float
+        Coast from the previous cut-off to ignition of the insertion burn [s], >= 0.
+    pitch_deg : float
+        Fixed pitch of the insertion burn above the local horizontal [deg], in
+        the ascent's steering plane.
+    propellant_kg : float, optional
+        Propellant of the insertion burn [kg]: the last stage burns the rest
+        first, cuts off, coasts and restarts. None: the whole last stage (a
+        kick stage) is the insertion burn, and `coast_s` replaces its
+        `coast_before_ignition_s`.
+    """
+
+    coast_s: float
+    pitch_deg: float = 0.0
+    propellant_kg: float | None = None
+
+    def __post_init__(self) -> None:
+        if not (math.isfinite(self.coast_s) and self.coast_s >= 0):
+            raise FieldError("insertion.coast_s", "must be >= 0.", self.coast_s)
+        if not -89 < self.pitch_deg < 89:
+            raise FieldError("insertion.pitch_deg", "must be in (-89, 89).", self.pitch_deg)
+        if self.propellant_kg is not None and not (math.isfinite(self.propellant_kg) and self.propellant_kg > 0):
+            raise FieldError("insertion.propellant_kg", "must be > 0.", self.propellant_kg)
 
 
 @dataclass(frozen=True, slots=True)
@@ -58,6 +89,8 @@ class AscentProfile:
         Northbound (True) or southbound pass, for `hold_inclination_deg`.
     yaw_bias_deg : float
         Added to the inclination-hold azimuth [deg].
+    insertion : InsertionBurn, optional
+        Coast and insertion burn of the last stage after the ascent burn.
     """
 
     vertical_rise_s: float = 10.0
@@ -72,6 +105,7 @@ class AscentProfile:
     hold_inclination_deg: float | None = None
     ascending: bool = True
     yaw_bias_deg: float = 0.0
+    insertion: InsertionBurn | None = None
 
     def __post_init__(self) -> None:
         if self.steering not in STEERING_LAWS:

@@ -346,7 +346,7 @@ def assemble(*, frame: FlightFrame, profile: str, stage_names, kernel_out, site_
              liftoff_thrust_to_weight: float, ascent: AscentProfile | None, warnings: list[str],
              v_inertial0_m_s: float) -> FlightResult:
     """FlightResult from the kernel's (out, y_final, y_budget, burnouts, history)."""
-    out, y, budget, burn, hist = kernel_out
+    out, y, budget, burn, hist = kernel_out[:5]
     o = out.tolist()
     history = _history(frame, hist[: int(o[OUT_N_HIST])]) if o[OUT_N_HIST] > 0 else FlightHistory.empty()
     is_ascent = profile == "ascent"

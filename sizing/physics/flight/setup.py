@@ -22,7 +22,8 @@ from sizing.physics.flight.results import FlightFrame
 from sizing.physics.vehicle import LaunchSite, Vehicle
 from sizing.units import G0_M_S2, GM_EARTH_M3_S2, OMEGA_EARTH_RAD_S, R_EARTH_EQ_M
 
-__all__ = ["ATMOSPHERE_TOP_M", "MAX_FLIGHT_TIME_S", "Wind", "FlightSetup", "prepare_flight", "altitude_kinks_m"]
+__all__ = ["ATMOSPHERE_TOP_M", "MAX_FLIGHT_TIME_S", "Wind", "FlightSetup", "BurnSchedule", "burn_schedule", "prepare_flight",
+           "replay_steps", "altitude_kinks_m"]
 
 #: Above this altitude the flight is in vacuum [m].
 ATMOSPHERE_TOP_M = 300e3
@@ -103,22 +104,62 @@ class FlightSetup:
         return (self.phases, self.par, self.opt, self.y0, hist_cap)
 
 
-def _stage_windows(vehicle: Vehicle, *, ignore_first_coast: bool) -> list[tuple[float, float]]:
-    """(ignition, burnout) time of each stage [s]."""
-    out = []
+@dataclass(frozen=True, slots=True)
+class BurnSchedule:
+    """Burn timeline: per stage (ignition, final burnout); burning intervals; insertion-burn times."""
+
+    windows: list[tuple[float, float]]
+    burns: list[tuple[int, float, float]]
+    cutoff_s: float | None = None  # end of the ascent burn before the insertion coast
+    insertion_s: float | None = None  # ignition of the insertion burn
+
+    def burning(self, stage: int, t: float) -> bool:
+        return any(s == stage and a <= t < b for s, a, b in self.burns)
+
+    def extra_times(self) -> list[float]:
+        return [t for t in (self.cutoff_s, self.insertion_s) if t is not None]
+
+
+def burn_schedule(vehicle: Vehicle, *, ignore_first_coast: bool, insertion=None) -> BurnSchedule:
+    """Ignition and burnout times of every stage [s], with the last stage's insertion coast and burn."""
+    windows, burns = [], []
     t = 0.0
+    n = len(vehicle.stages)
+    cutoff = ignition = None
     for i, st in enumerate(vehicle.stages):
         coast = 0.0 if (i == 0 and ignore_first_coast) else st.coast_before_ignition_s
+        last = i == n - 1 and insertion is not None
+        if last and insertion.propellant_kg is None:
+            coast, cutoff = insertion.coast_s, t
         if i > 0:
             coast += vehicle.staging_delay_s
         t_ign = t + coast
-        t = t_ign + st.burn_time_s
-        out.append((t_ign, t))
-    return out
+        if last and insertion.propellant_kg is not None:
+            if st.thrust_curve is not None:
+                raise FieldError(f"stages.{st.name}.thrust_curve",
+                                 "an insertion restart needs a constant-thrust last stage.")
+            if not insertion.propellant_kg < st.propellant_mass_kg:
+                raise FieldError("insertion.propellant_kg",
+                                 f"must be < the last stage's propellant ({st.propellant_mass_kg:g} kg).",
+                                 insertion.propellant_kg)
+            first = (st.propellant_mass_kg - insertion.propellant_kg) / st.mass_flow_kg_s
+            cutoff = t_ign + first
+            ignition = cutoff + insertion.coast_s
+            t = ignition + insertion.propellant_kg / st.mass_flow_kg_s
+            burns += [(i, t_ign, cutoff), (i, ignition, t)]
+        else:
+            if last:
+                ignition = t_ign
+            t = t_ign + st.burn_time_s
+            burns.append((i, t_ign, t))
+        windows.append((t_ign, t))
+    return BurnSchedule(windows, burns, cutoff, ignition)
 
 
-def _phase_times(vehicle: Vehicle, windows, extra_times) -> list[float]:
+def _phase_times(vehicle: Vehicle, sched: BurnSchedule, extra_times) -> list[float]:
+    windows = sched.windows
     times = {0.0}
+    times.update(sched.extra_times())
     for (t_ign, t_bo), st in zip(windows, vehicle.stages):
         times.update((t_ign, t_bo))
         for curve in (st.thrust_curve, st.propellant_mass_curve):
@@ -147,8 +188,10 @@ def _propulsion(st, tau0: float, tau1: float, dt: float) -> tuple[float, float, 
     return f0, fb, (float(np.interp(tau0, tm, mm)) - float(np.interp(tau1, tm, mm))) / dt, 0.0
 
 
-def _phase_table(vehicle: Vehicle, windows, extra_times, mode_at, drag_offsets, final_coast: bool) -> np.ndarray:
-    times = _phase_times(vehicle, windows, extra_times)
+def _phase_table(vehicle: Vehicle, sched: BurnSchedule, extra_times, mode_at, drag_offsets, final_coast: bool,
+                 insertion=None) -> np.ndarray:
+    windows = sched.windows
+    times = _phase_times(vehicle, sched, extra_times)
     if final_coast:
         times = times + [math.inf]
     n_st = len(vehicle.stages)
@@ -160,15 +203,20 @@ def _phase_table(vehicle: Vehicle, windows, extra_times, mode_at, drag_offsets, 
         st = vehicle.stages[stage]
         row = np.zeros(L.PH_SIZE)
         row[L.PH_T0], row[L.PH_T1], row[L.PH_STAGE] = a, b, stage
-        row[L.PH_BURNING] = 1.0 if (t_ign <= mid < t_bo and math.isfinite(b)) else 0.0
+        row[L.PH_BURNING] = 1.0 if (sched.burning(stage, mid) and math.isfinite(b)) else 0.0
         if row[L.PH_BURNING]:
             row[L.PH_FA], row[L.PH_FB], row[L.PH_MA], row[L.PH_MB] = _propulsion(st, a - t_ign, b - t_ign, b - a)
-        row[L.PH_BURNOUT_OF] = -1.0
+        row[L.PH_BURNOUT_OF] = row[L.PH_MARK] = -1.0
+        for k, tm in enumerate((sched.cutoff_s, sched.insertion_s)):
+            if tm is not None and math.isfinite(b) and abs(b - tm) <= 1e-9 * max(1.0, b):
+                row[L.PH_MARK] = n_st + k
         if math.isfinite(b) and abs(b - t_bo) <= 1e-9 * max(1.0, b):
             row[L.PH_BURNOUT_OF] = stage
             row[L.PH_MASS_AFTER] = (vehicle.ignition_mass_kg(stage + 1) if stage < n_st - 1
                                     else vehicle.payload_mass_kg + st.structural_mass_kg)
         row[L.PH_MODE] = mode_at(mid)
+        if sched.insertion_s is not None and mid > sched.insertion_s and stage == n_st - 1:
+            row[L.PH_MODE], row[L.PH_PITCH] = L.MODE_FIXED, math.radians(insertion.pitch_deg)
         row[L.PH_EXIT_AREA] = st.exit_area_m2
         row[L.PH_REF_AREA] = vehicle.reference_area_m2(stage)
         row[L.PH_DRAG_OFF], row[L.PH_DRAG_LEN] = drag_offsets[stage], len(st.drag.mach)
@@ -244,7 +292,7 @@ def _liftoff(vehicle: Vehicle, site: LaunchSite, with_gravity: bool, vertical: b
     return f_lift / weight0, []
 
 
-def _steering(steer: np.ndarray, vehicle: Vehicle, ascent: AscentProfile, windows, east0, north0, up0,
+def _steering(steer: np.ndarray, vehicle: Vehicle, ascent: AscentProfile, sched: BurnSchedule, east0, north0, up0,
               round_: bool):
     """Fill the ST_* slots of `steer`; return (pitch table [times, then pitch], extra phase times, steering start)."""
     steer[L.ST_KICK_SIN] = math.sin(math.radians(ascent.pitch_kick_deg))
@@ -261,10 +309,12 @@ def _steering(steer: np.ndarray, vehicle: Vehicle, ascent: AscentProfile, window
         k = names.index(ascent.steer_from_stage)
     else:
         raise FieldError("profile.steer_from_stage", f"must be one of {names}.", ascent.steer_from_stage)
+    windows = sched.windows
     t_start = windows[k][0]
     extra.append(t_start)
     steer[L.ST_T_START] = t_start
-    steer[L.ST_SPAN] = max(windows[-1][1] - t_start, 1e-9)
+    t_end = sched.cutoff_s if sched.cutoff_s is not None else windows[-1][1]
+    steer[L.ST_SPAN] = max(t_end - t_start, 1e-9)
     steer[L.ST_THF] = math.radians(ascent.final_pitch_deg)
     steer[L.ST_TANF] = math.tan(steer[L.ST_THF])
     if ascent.initial_pitch_deg is not None:
@@ -333,14 +383,16 @@ def prepare_flight(vehicle: Vehicle, site: LaunchSite, *, profile: str, ascent: 
     par, (r0, up0, east0, north0), wind_table = _environment(
         site, round_=round_, omega=omega, with_drag=with_drag, with_gravity=with_gravity,
         vacuum_below_ground=not detect_impact, vertical=vertical, wind=wind, atmosphere=atmosphere)
-    windows = _stage_windows(vehicle, ignore_first_coast=not vertical)
+    if not vertical:
+        ascent = ascent or AscentProfile()
+    insertion = ascent.insertion if not vertical else None
+    sched = burn_schedule(vehicle, ignore_first_coast=not vertical, insertion=insertion)
     extra: list[float] = []
     par[L.ST_SPAN] = 1.0
     pitch_table = np.zeros(0)
     t_start = None
     if not vertical:
-        ascent = ascent or AscentProfile()
-        pitch_table, extra, t_start = _steering(par, vehicle, ascent, windows, east0, north0, up0, round_)
+        pitch_table, extra, t_start = _steering(par, vehicle, ascent, sched, east0, north0, up0, round_)
     kinks = _ALT_KINKS if atmosphere is None else np.array([math.inf])
     tables = [kinks, pitch_table, wind_table]
     tables += [np.concatenate([np.array(s.drag.mach, float), np.array(s.drag.cd, float)]) for s in vehicle.stages]
@@ -351,7 +403,8 @@ def prepare_flight(vehicle: Vehicle, site: LaunchSite, *, profile: str, ascent: 
     offsets = starts[3:]
     par = np.concatenate([par] + tables)
     final_coast = vertical and stop_at != "burnout"
-    phases = _phase_table(vehicle, windows, extra, _mode_function(vertical, ascent, t_start), offsets, final_coast)
+    phases = _phase_table(vehicle, sched, extra, _mode_function(vertical, ascent, t_start), offsets, final_coast,
+                          insertion)
     total_burn = sum(s.burn_time_s for s in vehicle.stages)
     opt = np.zeros(L.OPT_SIZE)
     opt[L.OPT_RTOL] = rtol
@@ -364,6 +417,7 @@ def prepare_flight(vehicle: Vehicle, site: LaunchSite, *, profile: str, ascent: 
     opt[L.OPT_DETECT_IMPACT] = 1.0 if detect_impact else 0.0
     opt[L.OPT_MAX_TIME] = MAX_FLIGHT_TIME_S
     opt[L.OPT_N_STAGES] = len(vehicle.stages)
+    opt[L.OPT_N_MARKS] = 2 if insertion is not None else 0
     opt[L.OPT_POS_SCALE], opt[L.OPT_VEL_SCALE] = _POS_SCALE_M, _VEL_SCALE_M_S
     r0 = tuple(par[L.ENV_R0:L.ENV_R0 + 3])
     y0 = np.zeros(L.N_STATE)
@@ -372,3 +426,35 @@ def prepare_flight(vehicle: Vehicle, site: LaunchSite, *, profile: str, ascent: 
     y0[6] = vehicle.gross_mass_kg
     frame = FlightFrame(round_, float(par[L.ENV_RADIUS]), omega, r0, float(par[L.ENV_MU]))
     return FlightSetup(phases, par, opt, y0, frame, tw_lift, tuple(warnings), float(np.linalg.norm(y0[3:6])))
+
+
+def replay_steps(setup: FlightSetup, steps: np.ndarray) -> FlightSetup | None:
+    """The same flight set up to take the recorded steps of another flight (internal numerical differentiation).
+
+    `steps` is a kernel step record (phase index, step-end fraction of the
+    phase). A flight whose inputs differ slightly from the recorded one keeps
+    the recorded steps, mapped onto its own phase durations, so its end state is
+    a smooth function of the inputs: forward differences of replayed flights
+    are derivatives of one fixed discretisation (H. G. Bock, "Numerical
+    treatment of inverse problems in chemical reaction kinetics", in Modelling
+    of Chemical Reaction Systems, Springer, 1981, 102-125: internal numerical
+    differentiation; from memory). Returns None when the phase structure
+    differs (the caller then flies adaptively).
+    """
+    n_ph = setup.phases.shape[0]
+    if steps.shape[0] == 0 or not np.all(np.isfinite(setup.phases[:, L.PH_T1])):
+        return None
+    idx = steps[:, 0].astype(np.int64)
+    if idx.max() >= n_ph or np.any(np.diff(idx) < 0):
+        return None
+    counts = np.bincount(idx, minlength=n_ph)
+    if np.any(counts == 0):
+        return None
+    phases = setup.phases.copy()
+    starts = setup.par.shape[0] + np.concatenate([[0], np.cumsum(counts)[:-1]])
+    phases[:, L.PH_STEP_OFF], phases[:, L.PH_STEP_N] = starts, counts
+    opt = setup.opt.copy()
+    opt[L.OPT_REPLAY] = 1.0
+    par = np.concatenate([setup.par, steps[:, 1]])
+    return FlightSetup(phases, par, opt, setup.y0, setup.frame, setup.liftoff_thrust_to_weight, setup.warnings,
+                       setup.v_inertial0_m_s)
