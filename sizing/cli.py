@@ -146,9 +146,8 @@ def print_result(result, console=None, *, caution: bool = True) -> None:
     tfr = trade_factor_rows(result)
     if tfr:
         basis = result.trade_factors.get("basis", "")
-        how = basis.rsplit("(", 1)[-1].rstrip(")") if "(" in basis else basis
-        t = Table(title=escape(f"Trade factors at fixed ideal delta-v, by {how}: change per step in gross mass "
-                               "(payload fixed) or in payload (gross mass fixed)"), title_justify="left")
+        t = Table(title=escape(f"Trade factors ({basis}): change per step in gross mass (payload fixed) or in "
+                               "payload (gross mass fixed)"), title_justify="left")
         for i, h in enumerate(TRADE_FACTOR_HEADER):
             t.add_column(escape(h), justify="right" if i >= 2 else "left", no_wrap=True)
         for r in tfr:
@@ -164,6 +163,17 @@ def print_result(result, console=None, *, caution: bool = True) -> None:
             t.add_column("value", justify="right")
             t.add_column("unit")
             for r in rows:
+                t.add_row(*map(escape, r))
+            con.print(t)
+        from .report.tables import STEERING_HEADER, steering_rows
+
+        srows = steering_rows(result)
+        if srows:
+            t = Table(title="Steering programme (pitch interpolated linearly in time between nodes; fly it with "
+                            "the design file from --out design.toml)", title_justify="left")
+            for i, h in enumerate(STEERING_HEADER):
+                t.add_column(escape(h), justify="right" if i in (1, 2) else "left")
+            for r in srows:
                 t.add_row(*map(escape, r))
             con.print(t)
     if result.best:
@@ -207,6 +217,10 @@ def _cmd_solve(args) -> int:
 
     check_out_path(args.out, EXPORT_FORMATS)
     problem = load_problem(args.file)
+    if args.out and Path(args.out).suffix.lower() == ".toml" and not problem.is_flight_target:
+        from .report.design import MSG_NO_DESIGN
+
+        raise ValueError(f"--out {args.out}: {MSG_NO_DESIGN}.")
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always")
         result = solve(problem, method=args.method)
@@ -238,7 +252,8 @@ def build_parser() -> argparse.ArgumentParser:
     p = sub.add_parser("solve", help="find the optimal mass split of a problem file")
     p.add_argument("file", type=Path, help="problem file (TOML)")
     p.add_argument("--json", action="store_true", help="print one JSON object to stdout")
-    p.add_argument("--out", type=Path, help="also write the table: .csv .md .json .xlsx")
+    p.add_argument("--out", type=Path, help="also write the table: .csv .md .json .xlsx, or the design file "
+                                            "(.toml; apogee and orbit targets) that `sizing fly` flies")
     p.add_argument("--method", choices=("auto", "lagrange", "cvxpy", "slsqp"), default=None,
                    help="override [solver].method")
     p.set_defaults(func=_cmd_solve)

@@ -169,6 +169,7 @@ class FlightSizingResult:
     flight: FlightResult
     alternatives: tuple[tuple[str, float], ...] = ()
     warnings: tuple[str, ...] = field(default=())
+    trade_factors: dict | None = None
 
 
 def _mass_figures(vehicle: Vehicle):
@@ -207,9 +208,9 @@ def size_to_target(specs: Sequence[FlightStageSpec], payload_mass_kg: float, tar
     limits : PathLimits, optional
         Max-q, max sensed acceleration, max pitch rate (optimisation constraints).
     gross_mass_kg : float, optional
-        Apogee targets: maximise the payload for this gross mass [kg].
+        Maximise the payload for this gross mass [kg].
     max_gross_mass_kg : float, optional
-        Apogee targets: gross mass cap [kg].
+        Gross mass cap [kg].
     max_gross_to_payload : float
         Largest gross-to-payload ratio searched for an apogee [-].
     payload_diameter_m, staging_delay_s : see `Vehicle`.
@@ -236,7 +237,7 @@ def size_to_target(specs: Sequence[FlightStageSpec], payload_mass_kg: float, tar
         limits = PathLimits(limits.max_dynamic_pressure_pa, acceleration_limit_m_s2, limits.max_pitch_rate_deg_s)
     if isinstance(target, OrbitTarget):
         return _orbit(specs, float(payload_mass_kg), target, site, tolerance, limits, payload_diameter_m,
-                      staging_delay_s)
+                      staging_delay_s, gross_mass_kg, max_gross_mass_kg)
     if isinstance(target, ApogeeTarget):
         return _apogee(specs, float(payload_mass_kg), target, site, tolerance, limits, gross_mass_kg,
                        max_gross_mass_kg, max_gross_to_payload, payload_diameter_m, staging_delay_s,
@@ -261,15 +262,17 @@ def _apogee(specs, payload, target, site, tolerance, limits, gross, gross_cap, r
     method = "integrated" if "kept" not in d.message else "lagrange-line"
     msg = (f"target met within {tol:g} m after {d.n_flights} flights ({method})." if ok else
            f"target not met within {tol:g} m after {d.n_flights} flights; error {err:.3g} m.")
+    notes = [w for w in d.warnings if "pays" not in w and "pay for" not in w] + stage_notes(fr, d.vehicle, orbit=False)
     return _result(ok, msg, method, d.vehicle, site, None, fr, v_t, achieved, err, tol, d.n_iterations,
-                   d.n_flights, d.alternatives, list(d.warnings) + ([] if ok else [msg]))
+                   d.n_flights, d.alternatives, notes + ([] if ok else [msg]), d.trade_factors)
 
 
-def _orbit(specs, payload, target, site, tolerance, limits, dia, delay) -> FlightSizingResult:
+def _orbit(specs, payload, target, site, tolerance, limits, dia, delay, gross, gross_cap) -> FlightSizingResult:
     goal = target.goal
     d = size_for_orbit(specs, payload, goal, site, limits=limits, nodes_per_stage=target.nodes_per_stage,
                        vertical_rise_s=target.vertical_rise_s, kick_duration_s=target.kick_duration_s,
-                       payload_diameter_m=dia, staging_delay_s=delay)
+                       payload_diameter_m=dia, staging_delay_s=delay, gross_mass_kg=gross,
+                       max_gross_mass_kg=gross_cap)
     fr = fly_ascent(d.vehicle, d.site, d.profile, acceleration_limit_m_s2=limits.max_acceleration_m_s2,
                     **FLY_OPTIONS_ASCENT)
     tol = 1000.0 if tolerance is None else float(tolerance)
@@ -288,16 +291,45 @@ def _orbit(specs, payload, target, site, tolerance, limits, dia, delay) -> Fligh
     msg = (f"orbit met within {tol:g} m after {d.n_flights} flights ({d.n_iterations} optimiser iterations)."
            if ok else f"orbit not met within {tol:g} m (apsis error {err:,.0f} m) after {d.n_flights} flights: "
            f"{d.message}. Raise thrust-to-weight or Isp, or lower the target.")
-    for s, m in zip(specs, d.propellant_mass_kg):
-        if m < 0.02 * sum(d.propellant_mass_kg):
-            warnings.append(f"stage {s.name!r} carries {100 * m / sum(d.propellant_mass_kg):.1f} % of the "
-                            "propellant: it does not pay for itself; size the vehicle without it.")
+    warnings += stage_notes(fr, d.vehicle, orbit=True)
     return _result(ok, msg, "integrated", d.vehicle, d.site, d.profile, fr, v_t, achieved, err, tol,
-                   d.n_iterations, d.n_flights, (), warnings + ([] if ok else [msg]))
+                   d.n_iterations, d.n_flights, (), warnings + ([] if ok else [msg]), d.trade_factors)
+
+
+#: Gravity loss above which an orbit review note explains where it comes from [m/s] (typical launchers lose
+#: about 1.0-1.5 km/s to gravity; Griffin & French, Space Vehicle Design, loss table, from memory).
+HIGH_GRAVITY_LOSS_M_S = 1500.0
+
+
+def stage_notes(fr: FlightResult, vehicle: Vehicle, *, orbit: bool) -> list[str]:
+    """Review notes on each stage's share: stages that slow the vehicle, and where a high gravity loss comes from.
+
+    A stage whose interval loses more to drag and gravity than its ideal delta-v
+    (or that gives under 2 % of the ideal delta-v) does not pay for itself.
+    """
+    notes = []
+    total = sum(b.ideal_delta_v_m_s for b in fr.burnouts) or 1.0
+    for b, st in zip(fr.burnouts, vehicle.stages):
+        lost = b.losses_m_s["gravity"] + b.losses_m_s["drag"]
+        if lost >= b.ideal_delta_v_m_s or b.ideal_delta_v_m_s < 0.02 * total:
+            notes.append(f"stage {b.stage!r} gives {b.ideal_delta_v_m_s:,.0f} m/s of ideal delta-v but its interval "
+                         f"loses {lost:,.0f} m/s to gravity and drag: it does not pay for itself; size the stack "
+                         "without it.")
+    grav = fr.losses_m_s["gravity"]
+    if orbit and grav > HIGH_GRAVITY_LOSS_M_S:
+        worst = max(zip(fr.burnouts, vehicle.stages), key=lambda p: p[0].losses_m_s["gravity"])
+        b, st = worst
+        i = vehicle.stages.index(st)
+        tw = st.thrust_vac_n / (vehicle.ignition_mass_kg(i) * st.g0_m_s2)
+        notes.append(f"gravity loss {grav:,.0f} m/s is above the {HIGH_GRAVITY_LOSS_M_S:,.0f} m/s typical of launchers "
+                     f"(about 1.0-1.5 km/s; Griffin & French, Space Vehicle Design, from memory): most of it, "
+                     f"{b.losses_m_s['gravity']:,.0f} m/s, is lost while stage {st.name!r} burns {st.burn_time_s:,.0f} s "
+                     f"at thrust-to-weight {tw:.2f} at ignition; more thrust on that stage shortens its burn.")
+    return notes
 
 
 def _result(ok, msg, method, vehicle, site, profile, fr, v_t, achieved, err, tol, n_it, n_fl, alternatives,
-            warnings) -> FlightSizingResult:
+            warnings, trade_factors=None) -> FlightSizingResult:
     mp, ms, stage, ratios, dvs = _mass_figures(vehicle)
     return FlightSizingResult(
         converged=ok, message=msg, method=method, stage_names=tuple(s.name for s in vehicle.stages),
@@ -306,4 +338,5 @@ def _result(ok, msg, method, vehicle, site, profile, fr, v_t, achieved, err, tol
         ideal_delta_v_m_s=sum(dvs), target_speed_m_s=v_t, losses_m_s=fr.losses_m_s,
         rotation_bonus_m_s=fr.rotation_bonus_m_s, achieved=MappingProxyType(dict(achieved)), target_error=err,
         tolerance=tol, n_iterations=n_it, n_flights=n_fl, vehicle=vehicle, site=site, profile=profile, flight=fr,
-        alternatives=tuple(alternatives), warnings=tuple(dict.fromkeys(list(fr.warnings) + list(warnings))))
+        alternatives=tuple(alternatives), warnings=tuple(dict.fromkeys(list(fr.warnings) + list(warnings))),
+        trade_factors=trade_factors)

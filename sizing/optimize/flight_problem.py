@@ -14,6 +14,7 @@ from typing import Any
 
 from ..errors import FieldError, InfeasibleProblemError, ProblemDefinitionError
 from ..physics.flight import AscentProfile, FlightResult, fly_ascent, fly_vertical
+from ..physics.flight.profiles import InsertionBurn
 from ..physics.vehicle import (
     DragCurve,
     FlightStage,
@@ -35,6 +36,8 @@ __all__ = [
     "solve_flight_problem",
     "check_flight_problem",
     "profile_of",
+    "steering_record",
+    "design_record",
 ]
 
 
@@ -128,14 +131,32 @@ def launch_site(problem: Problem) -> LaunchSite:
 
 
 def ascent_profile(problem: Problem) -> AscentProfile:
-    """Gravity-turn steering programme from [launch]; the kick is solved when a target orbit is set."""
-    L = problem.launch
+    """The steering programme of the file: the [steering] programme of a design file, else the
+    [launch]/[steering] defaults (a gravity turn after the kick, linear tangent upper stages)."""
+    L, st = problem.launch, problem.steering
     kw: dict[str, Any] = {}
-    if L.vertical_rise_time_s is not None:
-        kw["vertical_rise_s"] = L.vertical_rise_time_s
-    if L.pitch_kick_deg is not None:
-        kw["pitch_kick_deg"] = L.pitch_kick_deg
-    return AscentProfile(**kw)
+    rise = st.vertical_rise_time_s if st.vertical_rise_time_s is not None else L.vertical_rise_time_s
+    kick = st.pitch_kick_deg if st.pitch_kick_deg is not None else L.pitch_kick_deg
+    if rise is not None:
+        kw["vertical_rise_s"] = rise
+    if kick is not None:
+        kw["pitch_kick_deg"] = kick
+    if st.kick_duration_s is not None:
+        kw["kick_duration_s"] = st.kick_duration_s
+    if st.is_programme:
+        kw.update(steering="table", pitch_table=st.pitch_table, steer_from_stage=st.steer_from_stage)
+        if st.hold_inclination_deg is not None:
+            kw.update(hold_inclination_deg=st.hold_inclination_deg,
+                      ascending=True if st.ascending is None else st.ascending)
+        if st.yaw_bias_deg is not None:
+            kw["yaw_bias_deg"] = st.yaw_bias_deg
+    if st.insertion_coast_s is not None:
+        kw["insertion"] = InsertionBurn(st.insertion_coast_s, st.insertion_pitch_deg or 0.0,
+                                        st.insertion_propellant_kg)
+    try:
+        return AscentProfile(**kw)
+    except FieldError as exc:
+        raise ProblemDefinitionError(problem.source, [str(exc)]) from None
 
 
 def design_vehicle(problem: Problem) -> Vehicle:
@@ -180,14 +201,15 @@ def design_vehicle(problem: Problem) -> Vehicle:
 
 
 def _fly(vehicle: Vehicle, problem: Problem, *, record_history: bool = True) -> FlightResult:
-    # a step cap keeps the recorded history dense enough to plot (the adaptive
-    # integrator would otherwise take very long steps in coasts)
+    """Fly a design with the options `sizing solve` flies its final design with (so fly reproduces solve)."""
+    from .flight import FLY_OPTIONS_ASCENT, FLY_OPTIONS_VERTICAL
+
     site = launch_site(problem)
     if profile_of(problem) == "vertical":
-        return fly_vertical(vehicle, site, earth="round", record_history=record_history,
-                            acceleration_limit_m_s2=problem.max_acceleration_m_s2, max_step_s=0.5)
+        return fly_vertical(vehicle, site, record_history=record_history,
+                            acceleration_limit_m_s2=problem.max_acceleration_m_s2, **FLY_OPTIONS_VERTICAL)
     return fly_ascent(vehicle, site, ascent_profile(problem), record_history=record_history,
-                      acceleration_limit_m_s2=problem.max_acceleration_m_s2, max_step_s=2.0)
+                      acceleration_limit_m_s2=problem.max_acceleration_m_s2, **FLY_OPTIONS_ASCENT)
 
 
 #: Review note when the flight ends on the ground before every stage has burnt out.
@@ -211,7 +233,14 @@ def fly_problem(problem: Problem) -> tuple[Vehicle, FlightResult]:
 
 
 def flight_summary(fr: FlightResult, site_altitude_m: float = 0.0) -> dict[str, Any]:
-    """JSON-ready flight figures with SI-suffixed keys (apogee above the launch site)."""
+    """JSON-ready flight figures with SI-suffixed keys.
+
+    Datum: every ``..._altitude_m`` and burnout ``altitude_m`` is above sea level
+    (the spherical Earth of radius 6 378 137 m); the apogee of a vertical
+    flight says its datum in its key (``apogee_above_site_m``,
+    ``apogee_above_sea_level_m``; ``apogee_m`` is kept as the name of the
+    above-site value).
+    """
 
     def f(x):
         return None if x is None or (isinstance(x, float) and not math.isfinite(x)) else float(x)
@@ -239,7 +268,8 @@ def flight_summary(fr: FlightResult, site_altitude_m: float = 0.0) -> dict[str, 
         ],
     }
     if fr.profile == "vertical":
-        out["apogee_m"] = f(fr.apogee_m - site_altitude_m)
+        out["apogee_m"] = f(fr.apogee_m - site_altitude_m)  # kept name; same datum as apogee_above_site_m
+        out["apogee_above_site_m"] = f(fr.apogee_m - site_altitude_m)
         out["apogee_above_sea_level_m"] = f(fr.apogee_m)
         out["time_to_apogee_s"] = f(fr.time_to_apogee_s)
     if fr.orbit is not None:
@@ -264,87 +294,157 @@ def flight_summary(fr: FlightResult, site_altitude_m: float = 0.0) -> dict[str, 
     return out
 
 
-def solve_flight_problem(problem: Problem, *, method: str = "auto") -> SizingResult:
-    """Size the vehicle for an apogee or orbit target with simulated losses.
+def _target(problem: Problem, site: LaunchSite):
+    """(target object, goal text) of a flight-target problem."""
+    from .flight import ApogeeTarget, OrbitTarget
 
-    The mass split is the Lagrange optimum (Curtis Sec. 11.6) for the ideal
-    delta-v that, flown through the trajectory simulation, meets the target
-    (`sizing.optimize.flight.size_to_target`). `method` is accepted for a
-    uniform interface; limits are not supported with flight targets.
+    if problem.apogee_m is not None:
+        return (ApogeeTarget(apogee_m=problem.apogee_m + site.altitude_m, earth="round"),
+                f"apogee {problem.apogee_m:,.0f} m above the site")
+    st, L = problem.steering, problem.launch
+    incl = problem.inclination_deg if L.azimuth_deg is None else None
+    kw: dict[str, Any] = {}
+    rise = st.vertical_rise_time_s if st.vertical_rise_time_s is not None else L.vertical_rise_time_s
+    if rise is not None:
+        kw["vertical_rise_s"] = rise
+    if st.kick_duration_s is not None:
+        kw["kick_duration_s"] = st.kick_duration_s
+    if st.nodes_per_stage is not None:
+        kw["nodes_per_stage"] = st.nodes_per_stage
+    target = OrbitTarget(altitude_m=problem.orbit_altitude_m, inclination_deg=incl,
+                         apogee_altitude_m=problem.orbit_apogee_m, insertion=problem.insertion or "coast", **kw)
+    if problem.orbit_apogee_m is None or problem.orbit_apogee_m == problem.orbit_altitude_m:
+        goal = f"{problem.orbit_altitude_m / 1000:,.0f} km circular orbit"
+    else:
+        goal = f"{problem.orbit_altitude_m / 1000:,.0f} x {problem.orbit_apogee_m / 1000:,.0f} km orbit"
+    return target, goal
+
+
+def solve_flight_problem(problem: Problem, *, method: str = "auto") -> SizingResult:
+    """Size the vehicle for an apogee or orbit target with the losses of its simulated flight.
+
+    Stage masses (and for an orbit the steering programme) are optimised together
+    through the compiled flight (`sizing.optimize.flight.size_to_target`): minimum
+    gross mass for the payload, or maximum payload for a given gross mass, with the
+    path limits of the file (max-q, max acceleration, max pitch rate). `method` is
+    accepted for a uniform interface (`sizing.optimize.prepare` refuses the ideal
+    methods for flight targets).
     """
-    from ..physics.staging import optimal_mass_ratios
-    from ._common import analytic_trade_factors
-    from .flight import ApogeeTarget, OrbitTarget, size_to_target
+    from .flight import PathLimits, size_to_target
 
     check_flight_problem(problem)
     specs = flight_specs(problem)
     site = launch_site(problem)
-    if problem.apogee_m is not None:
-        target = ApogeeTarget(apogee_m=problem.apogee_m + site.altitude_m, earth="round")
-        goal = f"apogee {problem.apogee_m:,.0f} m above the site"
-    else:
-        incl = problem.inclination_deg if problem.launch.azimuth_deg is None else None
-        target = OrbitTarget(altitude_m=problem.orbit_altitude_m, inclination_deg=incl,
-                             profile=ascent_profile(problem))
-        goal = f"{problem.orbit_altitude_m / 1000:,.0f} km circular orbit"
-    tolerance = problem.target_tolerance_m
-    if tolerance is not None and problem.orbit_altitude_m is not None:
-        tolerance = orbit_speed_tolerance_m_s(problem.orbit_altitude_m, tolerance)
+    target, goal = _target(problem, site)
+    limits = PathLimits(problem.max_dynamic_pressure_pa, problem.max_acceleration_m_s2, problem.max_pitch_rate_deg_s)
+    payload_free = problem.solve_for.value == "payload_mass"
+    payload0 = problem.payload_mass_kg if not payload_free else 0.01 * problem.gross_mass_kg
     try:
-        fs = size_to_target(
-            specs, problem.payload_mass_kg, target, site,
-            tolerance=tolerance, max_iterations=problem.max_iterations or 12,
-            payload_diameter_m=problem.launch.payload_diameter_m,
-            staging_delay_s=problem.launch.staging_delay_s,
-            acceleration_limit_m_s2=problem.max_acceleration_m_s2,
-        )
+        fs = size_to_target(specs, payload0, target, site, tolerance=problem.target_tolerance_m, limits=limits,
+                            gross_mass_kg=problem.gross_mass_kg if payload_free else None,
+                            max_gross_mass_kg=problem.max_gross_mass_kg,
+                            payload_diameter_m=problem.launch.payload_diameter_m,
+                            staging_delay_s=problem.launch.staging_delay_s)
     except InfeasibleProblemError as exc:
         best = dict(exc.best)
         message = str(exc)
         if problem.apogee_m is not None and "apogee_m" in best:
-            best["apogee_m"] = best["apogee_m"] - site.altitude_m  # report above the site, as stated
+            best["apogee_above_site_m"] = best.pop("apogee_m") - site.altitude_m  # as the target is stated
+            best["apogee_m"] = best["apogee_above_site_m"]
             dv_txt = (f" at ideal delta-v {best['ideal_delta_v_m_s']:,.0f} m/s"
                       if "ideal_delta_v_m_s" in best else "")
             message = (f"mission.apogee: {problem.apogee_m:,.0f} m above the site is beyond what these stages "
                        f"can reach; the best is {best['apogee_m']:,.0f} m{dv_txt}. Raise Isp, lower structural "
                        "coefficients, add a stage or lower the target.")
-        return failed_result(problem, status=Status.INFEASIBLE, method="lagrange+flight",
+        return failed_result(problem, status=Status.INFEASIBLE, method="flight-integrated",
                              message=message, best=best)
     except FieldError as exc:
         raise ProblemDefinitionError(problem.source, [str(exc)]) from None
-    status = Status.OPTIMAL if fs.converged else Status.MAX_ITERATIONS
+    return _flight_result(problem, fs, goal, payload_free)
+
+
+def _flight_result(problem: Problem, fs, goal: str, payload_free: bool) -> SizingResult:
+    status = Status.OPTIMAL if fs.converged else Status.INFEASIBLE
     loss = sum(fs.losses_m_s.values())
-    message = (f"minimum gross mass {fs.gross_mass_kg:,.6g} kg for {fs.payload_mass_kg:,.6g} kg payload to {goal}: "
-               f"ideal delta-v {fs.ideal_delta_v_m_s:,.0f} m/s including {loss:,.0f} m/s of simulated losses"
-               if fs.converged else f"sizing loop did not converge: {fs.message}")
+    what = (f"maximum payload {fs.payload_mass_kg:,.6g} kg for {fs.gross_mass_kg:,.6g} kg gross mass" if payload_free
+            else f"minimum gross mass {fs.gross_mass_kg:,.6g} kg for {fs.payload_mass_kg:,.6g} kg payload")
+    message = (f"{what} to {goal}: ideal delta-v {fs.ideal_delta_v_m_s:,.0f} m/s including {loss:,.0f} m/s of "
+               "simulated losses" if fs.converged else f"sizing did not meet the target: {fs.message}")
     result = _result_from_masses(problem, fs.propellant_mass_kg, fs.structural_mass_kg, fs.payload_mass_kg,
-                                 method="lagrange+flight", iterations=fs.n_iterations, status=status,
+                                 method="flight-integrated", iterations=fs.n_iterations, status=status,
                                  message=message)
-    if fs.converged:
-        c = [s.exhaust_velocity_m_s for s in problem.stages]
-        eps = [s.structural_coefficient for s in problem.stages]
-        sol = optimal_mass_ratios(c, eps, fs.ideal_delta_v_m_s)
-        tf = analytic_trade_factors(problem, result, sol.u_m_s)
-        tf["basis"] = ("change in gross mass at fixed payload and ideal delta-v "
-                       "(Lagrange multiplier, simulated losses held at their converged values)")
-        result = replace(result, trade_factors=tf)
+    if fs.converged and fs.trade_factors:
+        result = replace(result, trade_factors=fs.trade_factors)
+    if problem.apogee_m is not None:
+        target = {"apogee_above_site_m": problem.apogee_m, "apogee_m": problem.apogee_m}
+    else:
+        target = {"orbit_perigee_altitude_m": problem.orbit_altitude_m,
+                  "orbit_apogee_altitude_m": problem.orbit_apogee_m or problem.orbit_altitude_m,
+                  "orbit_altitude_m": problem.orbit_altitude_m, "inclination_deg": problem.inclination_deg,
+                  "insertion": problem.insertion or "coast"}
     extra = {
-        "target": {"apogee_m": problem.apogee_m} if problem.apogee_m is not None
-        else {"orbit_altitude_m": problem.orbit_altitude_m, "inclination_deg": problem.inclination_deg},
-        "achieved": dict(fs.achieved),
-        "target_error": fs.target_error,
-        "target_tolerance": fs.tolerance,
-        "iterations": fs.n_iterations,
-        "sizing_method": fs.method,
-        "ideal_delta_v_m_s": fs.ideal_delta_v_m_s,
+        "target": target, "achieved": dict(fs.achieved), "target_error": fs.target_error,
+        "target_tolerance": fs.tolerance, "iterations": fs.n_iterations, "flights": fs.n_flights,
+        "sizing_method": fs.method, "ideal_delta_v_m_s": fs.ideal_delta_v_m_s,
         "target_speed_m_s": fs.target_speed_m_s,
-        "sizing_history": [
-            {"ideal_delta_v_m_s": h.ideal_delta_v_m_s, "achieved_speed_m_s": h.achieved_speed_m_s,
-             "target_error": h.target_error, "gross_mass_kg": h.gross_mass_kg, "method": h.method}
-            for h in fs.history],
+        "shorter_stacks": [{"stages": names, "gross_mass_kg": g} for names, g in fs.alternatives],
+        "design": design_record(problem, fs.vehicle, fs.site, fs.profile),
     }
+    if fs.profile is not None:
+        extra["steering"] = steering_record(fs.profile, fs.site, fs.vehicle)
     out = _with_flight(result, fs.flight, problem, extra)
     return replace(out, warnings=tuple(dict.fromkeys(tuple(out.warnings) + tuple(fs.warnings))))
+
+
+def steering_record(profile: AscentProfile, site: LaunchSite, vehicle: Vehicle | None = None) -> dict[str, Any]:
+    """The steering programme as JSON-ready data (what the design file carries)."""
+    out: dict[str, Any] = {
+        "launch_azimuth_deg": site.azimuth_deg, "vertical_rise_time_s": profile.vertical_rise_s,
+        "pitch_kick_deg": profile.pitch_kick_deg, "kick_duration_s": profile.kick_duration_s,
+        "law": profile.steering, "steer_from_stage": profile.steer_from_stage,
+        "pitch_table": [{"time_s": t, "pitch_deg": p} for t, p in (profile.pitch_table or ())],
+        "hold_inclination_deg": profile.hold_inclination_deg, "ascending": profile.ascending,
+        "yaw_bias_deg": profile.yaw_bias_deg,
+    }
+    ins = profile.insertion
+    if ins is not None:
+        out["insertion"] = {"coast_s": ins.coast_s, "pitch_deg": ins.pitch_deg,
+                            "propellant_kg": ins.propellant_kg, "kind": "restart" if ins.propellant_kg else "kick_stage"}
+        if vehicle is not None:
+            from ..physics.flight.setup import burn_schedule
+
+            sched = burn_schedule(vehicle, ignore_first_coast=True, insertion=ins)
+            out["insertion"].update(cutoff_time_s=sched.cutoff_s, ignition_time_s=sched.insertion_s,
+                                    burnout_time_s=sched.windows[-1][1])
+    return out
+
+
+def design_record(problem: Problem, vehicle: Vehicle, site: LaunchSite, profile: AscentProfile | None) -> dict:
+    """Everything a design file needs to fly the sized vehicle again (`sizing.report.design`)."""
+    stages = []
+    for sd, st in zip(problem.stages, vehicle.stages):
+        stages.append({
+            "name": st.name, "isp_s": st.isp_vac_s, "isp_sea_level_s": st.isp_sl_s,
+            "structural_coefficient": st.structural_coefficient, "propellant_mass_kg": st.propellant_mass_kg,
+            "structural_mass_kg": st.structural_mass_kg, "thrust_n": st.thrust_vac_n, "diameter_m": st.diameter_m,
+            "nozzle_exit_area_m2": sd.nozzle_exit_area_m2, "drag_mach": list(st.drag.mach), "drag_cd": list(st.drag.cd),
+            "coast_before_ignition_s": st.coast_before_ignition_s,
+        })
+    L = problem.launch
+    rec: dict[str, Any] = {
+        "name": problem.name, "payload_mass_kg": vehicle.payload_mass_kg,
+        "target": {"apogee_above_site_m": problem.apogee_m, "orbit_altitude_m": problem.orbit_altitude_m,
+                   "orbit_apogee_m": problem.orbit_apogee_m, "inclination_deg": problem.inclination_deg},
+        "launch": {"altitude_m": site.altitude_m, "latitude_deg": site.latitude_deg, "azimuth_deg": site.azimuth_deg,
+                   "rail_length_m": site.rail_length_m, "rail_angle_deg": site.rail_angle_deg,
+                   "staging_delay_s": vehicle.staging_delay_s, "payload_diameter_m": vehicle.payload_diameter_m,
+                   "profile": profile_of(problem) if L.profile is None else L.profile},
+        "stages": stages,
+        "max_acceleration_m_s2": problem.max_acceleration_m_s2,
+    }
+    if profile is not None:
+        rec["steering"] = steering_record(profile, site)
+    return rec
 
 
 def check_flight_problem(problem: Problem) -> None:
@@ -356,32 +456,14 @@ def check_flight_problem(problem: Problem) -> None:
         Limits with a flight target; a stage without thrust-to-weight or a first
         stage without diameter; a launch site or inclination the flight layer refuses.
     """
-    if problem.has_constraints:
+    if any(s.has_constraints for s in problem.stages):
         raise ProblemDefinitionError(problem.source, [
-            "mission: design limits (mass-ratio, delta-v share, mass caps) are not supported with "
-            "apogee or orbit targets yet; size for delta_v with limits, or drop the limits."])
+            "stage: per-stage design limits (mass ratio, delta-v share, ignition-mass cap) are not supported with "
+            "apogee or orbit targets; size for delta_v with limits, or drop them (mission.max_gross_mass, "
+            "max_acceleration, max_dynamic_pressure and max_pitch_rate do apply)."])
     flight_specs(problem)
     launch_site(problem)
     ascent_profile(problem)
-
-
-def orbit_speed_tolerance_m_s(orbit_altitude_m: float, altitude_tolerance_m: float) -> float:
-    """Burnout-speed tolerance equivalent to an apsis-altitude tolerance on a circular orbit.
-
-    A speed error dv at insertion (flight-path angle 0, radius r) moves the
-    opposite apsis by about 4 r dv / v_c (vis-viva, first order), so
-    dv = v_c dh / (4 r).
-
-    References
-    ----------
-    .. [1] H. D. Curtis, Orbital Mechanics for Engineering Students, 3rd ed., 2014,
-       eq. 2.71 (vis-viva energy equation); first-order expansion here.
-    """
-    from ..physics.gravity import circular_speed_m_s
-    from ..units import R_EARTH_EQ_M
-
-    r = R_EARTH_EQ_M + orbit_altitude_m
-    return circular_speed_m_s(orbit_altitude_m) * altitude_tolerance_m / (4.0 * r)
 
 
 def _with_flight(result: SizingResult, fr: FlightResult, problem: Problem, extra: dict[str, Any]) -> SizingResult:

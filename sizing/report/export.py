@@ -17,7 +17,7 @@ from .tables import (
 
 __all__ = ["EXPORT_FORMATS", "write_stage_table", "result_json", "write_csv_section"]
 
-EXPORT_FORMATS = (".csv", ".md", ".json", ".xlsx")
+EXPORT_FORMATS = (".csv", ".md", ".json", ".xlsx", ".toml")
 
 
 def result_json(result: SizingResult) -> str:
@@ -32,7 +32,8 @@ def write_stage_table(result: SizingResult, path: str | Path) -> Path:
     ----------
     result : SizingResult
     path : str or Path
-        Extension picks the format: .csv, .md, .json or .xlsx.
+        Extension picks the format: .csv, .md, .json, .xlsx, or .toml (the design
+        file of an apogee or orbit result, which `sizing fly` flies).
 
     Raises
     ------
@@ -43,6 +44,10 @@ def write_stage_table(result: SizingResult, path: str | Path) -> Path:
     ext = p.suffix.lower()
     if ext not in EXPORT_FORMATS:
         raise ValueError(f"--out {p}: the extension must be one of {', '.join(EXPORT_FORMATS)}. Got {ext or 'none'!r}.")
+    if ext == ".toml":
+        from .design import write_design
+
+        return write_design(result, p)
     if ext == ".json":
         p.write_text(result_json(result) + "\n", encoding="utf-8")
     elif ext == ".md":

@@ -8,7 +8,7 @@ from typing import Any, Sequence
 from ..result import CAUTION, SizingResult
 
 __all__ = ["HARDWARE_QUANTITIES", "hardware_records", "hardware_table", "TRADE_FACTOR_HEADER", "limit_text", "limit_value_text", "limit_step", "STAGE_COLUMNS", "FLIGHT_QUANTITIES", "flight_summary_rows", "flight_summary_values", "trade_factor_values", "stage_rows", "stage_columns_table", "total_row", "trade_factor_rows",
-           "stage_table_markdown", "result_markdown"]
+           "stage_table_markdown", "result_markdown", "steering_rows", "STEERING_HEADER"]
 
 #: (field, header with unit, format) for each column of the stage mass table.
 STAGE_COLUMNS: tuple[tuple[str, str, str], ...] = (
@@ -222,12 +222,44 @@ FLIGHT_QUANTITIES: tuple[tuple[str, str, str, str], ...] = (
     ("max_dynamic_pressure_pa", "max dynamic pressure (max-q)", "Pa", ",.0f"),
     ("max_acceleration_m_s2", "max acceleration", "m/s^2", ".1f"),
     ("liftoff_thrust_to_weight", "lift-off thrust-to-weight", "-", ".2f"),
-    ("perigee_altitude_m", "perigee altitude", "m", ",.0f"),
-    ("apogee_altitude_m", "apogee altitude", "m", ",.0f"),
+    ("perigee_altitude_m", "perigee altitude above sea level", "m", ",.0f"),
+    ("apogee_altitude_m", "apogee altitude above sea level", "m", ",.0f"),
+    ("inclination_deg", "inclination", "deg", ".3f"),
     ("orbit_speed_m_s", "speed at insertion", "m/s", ",.1f"),
     ("flight_path_angle_deg", "flight-path angle at insertion", "deg", ".3f"),
     ("iterations", "sizing iterations", "-", "d"),
+    ("flights", "flights flown by the sizing", "-", "d"),
 )
+
+
+#: Header of `steering_rows`.
+STEERING_HEADER = ("event", "time from liftoff [s]", "pitch above horizontal [deg]", "note")
+
+
+def steering_rows(result: SizingResult) -> list[list[str]]:
+    """The optimised steering programme as (event, time [s], pitch [deg], note) text rows; [] without one."""
+    st = (result.flight or {}).get("steering")
+    if not st:
+        return []
+    rows = [["launch azimuth", "0.0", "", f"{st['launch_azimuth_deg']:.3f} deg from north"],
+            ["vertical rise ends", f"{st['vertical_rise_time_s']:.1f}", "90.0", ""],
+            ["pitch kick", f"{st['vertical_rise_time_s']:.1f}", f"{90.0 - st['pitch_kick_deg']:.2f}",
+             f"kick {st['pitch_kick_deg']:.3f} deg for {st['kick_duration_s']:.1f} s, then zero lift"]]
+    plane = (f"plane of inclination {st['hold_inclination_deg']:g} deg" if st.get("hold_inclination_deg") is not None
+             else "plane of the velocity")
+    for k, row in enumerate(st.get("pitch_table") or []):
+        note = f"from {st['steer_from_stage']}, {plane}" if k == 0 else ""
+        rows.append([f"programme node {k + 1}", f"{row['time_s']:.1f}", f"{row['pitch_deg']:.2f}", note])
+    ins = st.get("insertion")
+    if ins:
+        what = (f"restart, {ins['propellant_kg']:,.1f} kg" if ins.get("propellant_kg") else "kick stage ignites")
+        if ins.get("cutoff_time_s") is not None:
+            rows.append(["cut-off, coast begins", f"{ins['cutoff_time_s']:.1f}", "", f"coast {ins['coast_s']:.1f} s"])
+            rows.append(["insertion burn", f"{ins['ignition_time_s']:.1f}", f"{ins['pitch_deg']:.2f}",
+                         f"{what}; ends at {ins['burnout_time_s']:.1f} s"])
+        else:
+            rows.append(["insertion burn", f"after {ins['coast_s']:.1f} s coast", f"{ins['pitch_deg']:.2f}", what])
+    return rows
 
 
 def flight_summary_values(result: SizingResult) -> list[tuple[str, float, str, str]]:

@@ -7,7 +7,7 @@ from pathlib import Path
 
 import pytest
 
-from sizing import Status, load_problem, problem_from_dict, solve
+from sizing import load_problem, problem_from_dict, solve
 from sizing.cli import EXIT_BAD_INPUT, EXIT_FAILED, EXIT_OK, main
 from sizing.optimize.flight_problem import fly_problem
 
@@ -27,9 +27,14 @@ def test_solve_apogee_target_meets_target(apogee_result):
     assert r.success, r.message
     f = r.flight
     assert abs(f["apogee_m"] - 30_000.0) <= f["target_tolerance"] + 1e-9
+    assert f["apogee_above_site_m"] == f["apogee_m"]
+    assert f["apogee_above_sea_level_m"] == pytest.approx(f["apogee_m"] + 1400.0)
+    assert f["target"]["apogee_above_site_m"] == 30_000.0
+    assert f["achieved"]["apogee_above_site_m"] == pytest.approx(f["apogee_m"])
     assert f["losses_m_s"]["gravity"] > 0 and f["losses_m_s"]["drag"] > 0
-    # the split is sized for the ideal delta-v the simulation needed
+    # the stage table is the design that was flown
     assert r.delta_v_m_s == pytest.approx(f["ideal_delta_v_m_s"], rel=1e-6)
+    assert r.trade_factors and r.trade_factors["gross_mass_per_payload_kg"] > 1.0
 
 
 def test_solve_apogee_budget_closes(apogee_result):
@@ -110,35 +115,49 @@ def test_cli_fly_rejects_non_csv_out(tmp_path, capsys):
     assert main(["fly", str(ROOT / "problems" / "heron_as_built.toml"), "--out", str(tmp_path / "t.xlsx")]) == EXIT_BAD_INPUT
 
 
-@pytest.mark.slow
-def test_solve_orbit_target_reaches_circular_orbit():
-    """Circular 500 km orbit: perigee and apogee within the target tolerance, flight-path angle ~0,
-    and total losses within the typical 1.5-3 km/s for a small launcher (1.5-2 km/s typical for
-    large vehicles: EPFL Graph Search page "Gravity loss", Wikipedia-derived, found; higher for
-    small ones: from memory, no specific source; tabulated in the project's shared check values,
-    sec. 3)."""
-    r = solve(load_problem(ROOT / "problems" / "jackdaw_orbit.toml"))
-    assert r.success, r.message
-    f = r.flight
-    assert f["perigee_altitude_m"] == pytest.approx(500_000, abs=5_000)
-    assert f["apogee_altitude_m"] == pytest.approx(500_000, abs=5_000)
-    assert abs(f["flight_path_angle_deg"]) < 0.5
-    assert 1000.0 < sum(f["losses_m_s"].values()) < 3500.0
-    assert r.status == Status.OPTIMAL
+def test_solve_orbit_demo_then_fly_its_design_file(tmp_path, capsys):
+    """The demo launcher: circular 500 km at 97.5 deg within 1 km and 0.05 deg (issue requirement),
+    losses within the typical 1.5-2.5 km/s for a small launcher (1.5-2 km/s typical for large
+    vehicles: EPFL Graph Search page "Gravity loss", Wikipedia-derived, found; higher for small ones:
+    from memory, no specific source), the reason for a high gravity loss shown; then `sizing fly` on
+    the written design file reproduces the orbit to the last digit (one code path)."""
+    design = tmp_path / "design.toml"
+    assert main(["solve", str(ROOT / "problems" / "jackdaw_orbit.toml"), "--json", "--out", str(design)]) == EXIT_OK
+    solved = json.loads(capsys.readouterr().out)
+    assert solved["status"] == "optimal"
+    assert solved["perigee_altitude_m"] == pytest.approx(500_000, abs=1_000)
+    assert solved["apogee_altitude_m"] == pytest.approx(500_000, abs=1_000)
+    assert solved["inclination_deg"] == pytest.approx(97.5, abs=0.05)
+    assert 1500.0 < sum(solved["losses_m_s"].values()) < 2500.0
+    st = solved["steering"]
+    assert st["pitch_table"] and st["insertion"]["kind"] == "restart"
+    assert main(["fly", str(design), "--json"]) == EXIT_OK
+    flown = json.loads(capsys.readouterr().out)
+    for k in ("perigee_altitude_m", "apogee_altitude_m", "inclination_deg", "max_dynamic_pressure_pa",
+              "max_acceleration_m_s2"):
+        assert flown[k] == solved[k], k
 
 
-def test_orbit_speed_tolerance_matches_vis_viva():
-    """A burnout-speed error of v_c dh/(4r) raises the far apsis by dh: checked against the
-    vis-viva equation (Curtis, Orbital Mechanics for Engineering Students, 3rd ed., eq. 2.71,
-    from memory for the number) with WGS 84 GM and radius."""
-    from sizing.optimize.flight_problem import orbit_speed_tolerance_m_s
-    from sizing.physics.gravity import circular_speed_m_s
-    from sizing.units import GM_EARTH_M3_S2, R_EARTH_EQ_M
+def test_solve_orbit_max_payload_for_a_gross_mass(tmp_path):
+    """gross_mass with an orbit target gives the largest payload (issue requirement: the docs
+    promise it); it grows with the gross mass (consistency check, no external source)."""
+    data = json.loads(json.dumps(load_problem(ROOT / "problems" / "jackdaw_orbit.toml").raw))
+    del data["mission"]["payload_mass"]
+    payloads = []
+    for g in (9000.0, 10000.0):
+        data["mission"]["gross_mass"] = g
+        r = solve(problem_from_dict(data, source="<max payload>"))
+        assert r.success, r.message
+        assert r.gross_mass_kg == pytest.approx(g, rel=1e-3)
+        payloads.append(r.payload_mass_kg)
+    assert 150.0 < payloads[0] < payloads[1]
 
-    r = R_EARTH_EQ_M + 500e3
-    v = circular_speed_m_s(500e3) + orbit_speed_tolerance_m_s(500e3, 1000.0)
-    a = 1.0 / (2.0 / r - v * v / GM_EARTH_M3_S2)
-    assert 2 * a - r - r == pytest.approx(1000.0, rel=1e-3)
+
+def test_design_file_needs_a_flight_target(tmp_path, capsys):
+    out = tmp_path / "d.toml"
+    assert main(["solve", str(ROOT / "problems" / "jackdaw_three_stage.toml"), "--out", str(out)]) == EXIT_BAD_INPUT
+    assert "design file" in capsys.readouterr().err
+    assert not out.exists()
 
 
 def test_cli_fly_impact_under_power_is_a_failed_flight(tmp_path, capsys):

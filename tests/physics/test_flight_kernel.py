@@ -162,3 +162,41 @@ def test_public_flight_api_lists_its_names():
 
     for name in flight.__all__:
         assert hasattr(flight, name), name
+
+
+def test_coast_and_insertion_burn_fly_a_hohmann_transfer():
+    """Hohmann transfer from a 300 km to an 800 km circular orbit (Curtis, Orbital Mechanics for
+    Engineering Students, 3rd ed., Sec. 6.2: dv1 = sqrt(GM(2/r1 - 1/a)) - sqrt(GM/r1), dv2 =
+    sqrt(GM/r2) - sqrt(GM(2/r2 - 1/a)), transfer time pi sqrt(a^3/GM); from memory), flown as a
+    first burn, a coast and an insertion restart with the propellant from the rocket equation:
+    the final orbit is circular at 800 km within 0.5 km (short, high-thrust burns)."""
+    import math
+
+    from sizing.physics.flight.profiles import InsertionBurn
+    from sizing.units import GM_EARTH_M3_S2, R_EARTH_EQ_M
+
+    mu = GM_EARTH_M3_S2
+    r1, r2 = R_EARTH_EQ_M + 300e3, R_EARTH_EQ_M + 800e3
+    a = 0.5 * (r1 + r2)
+    dv1 = math.sqrt(mu * (2 / r1 - 1 / a)) - math.sqrt(mu / r1)
+    dv2 = math.sqrt(mu / r2) - math.sqrt(mu * (2 / r2 - 1 / a))
+    isp, dry = 320.0, 500.0
+    c = isp * 9.80665
+    m2 = dry * (math.exp(dv2 / c) - 1.0)
+    m1 = (dry + m2) * (math.exp(dv1 / c) - 1.0)
+    thrust = 20.0 * (dry + m1 + m2) * 9.80665
+    st = FlightStage("tug", m1 + m2, dry, isp, diameter_m=1.0, thrust_vac_n=thrust)
+    veh = Vehicle((st,), 0.0)
+    tb1, tb2 = m1 * c / thrust, m2 * c / thrust
+    coast = math.pi * math.sqrt(a ** 3 / mu) - 0.5 * tb1 - 0.5 * tb2
+    prof = AscentProfile(vertical_rise_s=0.0, pitch_kick_deg=0.0, kick_duration_s=1e-6, steering="table",
+                         steer_from_stage="tug", pitch_table=((0.0, 0.0), (tb1, 0.0)),
+                         insertion=InsertionBurn(coast, 0.0, m2))
+    setup = prepare_flight(veh, LaunchSite(), profile="ascent", ascent=prof, rotating=False, with_drag=False,
+                           stop_at="burnout", record_history=False, rtol=1e-10)
+    setup.y0[0:3] = (r1, 0.0, 0.0)
+    setup.y0[3:6] = (0.0, math.sqrt(mu / r1), 0.0)
+    y = run_flight(*setup.kernel_args(1))[1]
+    orbit = setup.frame.orbit(y)
+    assert orbit.perigee_alt_m == pytest.approx(800e3, abs=500.0)
+    assert orbit.apogee_alt_m == pytest.approx(800e3, abs=500.0)
