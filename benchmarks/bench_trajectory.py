@@ -21,8 +21,9 @@ Printed, all measured in this run (best of interleaved repeats; the machine is s
 3. A vertical sounding-rocket flight to apogee: kernel vs the previous integrator.
 4. A batch of 2000 dispersed vehicles (each with its own C_D table scale and thrust) through
    `fly_many` against one-by-one `fly_ascent` calls.
-5. End-to-end apogee sizing (`sizing.optimize.flight.size_to_target`, the demo sounding rocket):
-   the same outer loop flying the kernel vs the previous integrator.
+5. Sizing with the flight (issue targets: orbit demo under 1 s on one core, apogee under 20 ms),
+   flights per solve, against the previous sequential sizing (Lagrange split + simulated losses,
+   repeated; loaded from git history) on the same problems.
 """
 
 from __future__ import annotations
@@ -300,33 +301,68 @@ def section_batch(vehicle, site, prof):
     print(f"   fly_ascent  {1e3 * t_1:8.3f} ms per flight; identical results: {same}; ratio {t_1 / t_b:.1f}x")
 
 
-def section_sizing(prev):
-    from sizing.optimize import flight as fl
+def load_previous_sizing(prev):
+    """The previous sequential `size_to_target` (from git history) flying the previous integrator, or None."""
+    if prev is None:
+        return None
+    try:
+        src = subprocess.run(["git", "show", f"{PREVIOUS}:sizing/optimize/flight.py"], cwd=ROOT,
+                             capture_output=True, text=True, check=True).stdout
+    except (OSError, subprocess.CalledProcessError):
+        return None
+    src = src.replace("from sizing.physics.trajectory import", "from previous_trajectory import")
+    mod = types.ModuleType("previous_flight_sizing")
+    sys.modules["previous_flight_sizing"] = mod
+    exec(compile(src, "previous_flight_sizing.py", "exec"), mod.__dict__)
+    return mod
+
+
+def section_flight_sizing(prev):
+    from sizing.optimize.flight import ApogeeTarget, OrbitTarget, size_to_target
     from sizing.optimize.flight_problem import flight_specs, launch_site
     from sizing.problem.load import load_problem
 
-    print("\n5. Apogee sizing end to end: problems/heron_apogee.toml through size_to_target")
-    problem = load_problem(ROOT / "problems" / "heron_apogee.toml")
-    specs, site = flight_specs(problem), launch_site(problem)
-    target = fl.ApogeeTarget(apogee_m=problem.apogee_m + site.altitude_m)
-
-    def run():
-        return fl.size_to_target(specs, problem.payload_mass_kg, target, site)
-    cases = {"kernel": run}
-    if prev is not None:
-        def run_prev():
-            saved = fl.fly_vertical
-            fl.fly_vertical = prev.fly_vertical
-            try:
-                return run()
-            finally:
-                fl.fly_vertical = saved
-        cases["previous pure-Python DP"] = run_prev
+    print("\n5. Sizing with the flight (one process, one core; 'shorter stacks' also sizes each one-stage-less "
+          "stack, its flights not counted)")
+    old = load_previous_sizing(prev)
+    orb = load_problem(ROOT / "problems" / "jackdaw_orbit.toml")
+    specs, site = flight_specs(orb), launch_site(orb)
+    rise = orb.launch.vertical_rise_time_s or 10.0
+    cases = {"orbit demo, integrated (coast + restart)": lambda: size_to_target(
+        specs, orb.payload_mass_kg, OrbitTarget(orb.orbit_altitude_m, inclination_deg=orb.inclination_deg,
+                                                vertical_rise_s=rise), site)}
+    if old is not None:
+        def seq():
+            site0 = LaunchSite(altitude_m=site.altitude_m, latitude_deg=site.latitude_deg)
+            prof = prev.AscentProfile(vertical_rise_s=rise)
+            return old.size_to_target(specs, orb.payload_mass_kg,
+                                      old.OrbitTarget(orb.orbit_altitude_m, inclination_deg=orb.inclination_deg,
+                                                      profile=prof), site0)
+        cases["orbit demo, previous sequential sizing"] = seq
+    apo = load_problem(ROOT / "problems" / "heron_apogee.toml")
+    aspecs, asite = flight_specs(apo), launch_site(apo)
+    tgt = apo.apogee_m + asite.altitude_m
+    if old is not None:
+        cases["apogee demo, previous sequential sizing"] = lambda: old.size_to_target(
+            aspecs, apo.payload_mass_kg, old.ApogeeTarget(tgt), asite)
+    cases["apogee demo, integrated"] = lambda: size_to_target(aspecs, apo.payload_mass_kg, ApogeeTarget(tgt), asite,
+                                                              compare_shorter=False)
+    cases["apogee demo, integrated + shorter stacks"] = lambda: size_to_target(
+        aspecs, apo.payload_mass_kg, ApogeeTarget(tgt), asite)
     res = best_times(cases, 3)
     for name, (t_s, r) in res.items():
-        print(f"   {name:26s} gross mass {r.gross_mass_kg:.4f} kg in {r.n_iterations} flights, {1e3 * t_s:8.2f} ms")
-    if prev is not None:
-        print(f"   ratio previous / kernel {res['previous pure-Python DP'][0] / res['kernel'][0]:.1f}x")
+        flights = getattr(r, "n_flights", None)
+        extra = ""
+        if flights is None:
+            flights = r.n_iterations
+            extra = "; counts outer flights only (each targets its ascent with many more)"
+        orbit = r.flight.orbit
+        if orbit is not None:
+            extra = f"; orbit {orbit.perigee_alt_m / 1e3:.1f} x {orbit.apogee_alt_m / 1e3:.1f} km, " \
+                    f"inclination {orbit.inclination_deg:.3f} deg" + extra
+        loss = sum(r.losses_m_s.values())
+        print(f"   {name:44s} {1e3 * t_s:9.1f} ms  gross {r.gross_mass_kg:10.3f} kg  losses {loss:7.0f} m/s  "
+              f"flights {flights}{extra}")
 
 
 def main() -> None:
@@ -339,7 +375,7 @@ def main() -> None:
     vehicle, site, prof = section_ascent(prev)
     section_vertical(prev)
     section_batch(vehicle, site, prof)
-    section_sizing(prev)
+    section_flight_sizing(prev)
 
 
 if __name__ == "__main__":

@@ -213,6 +213,11 @@ def _cmd_solve(args) -> int:
         from .cli_hobby import run_hobby
 
         return run_hobby(args)
+    if getattr(args, "sweep", None):
+        from .cli_sweep import run_sweep
+
+        check_out_path(args.out, (".csv",))
+        return run_sweep(args)
     from .report.export import EXPORT_FORMATS
 
     check_out_path(args.out, EXPORT_FORMATS)
@@ -256,6 +261,9 @@ def build_parser() -> argparse.ArgumentParser:
                                             "(.toml; apogee and orbit targets) that `sizing fly` flies")
     p.add_argument("--method", choices=("auto", "lagrange", "cvxpy", "slsqp"), default=None,
                    help="override [solver].method")
+    p.add_argument("--sweep", metavar="KEY=START:STOP:STEP",
+                   help="solve along a range of one mission value, e.g. orbit_altitude=300km:1200km:100km "
+                        "(table; --out .csv)")
     p.set_defaults(func=_cmd_solve)
 
     p = sub.add_parser("check", help="validate a problem file without solving")

@@ -144,7 +144,7 @@ def _lagrange_start(stack: _Stack, target_m: float, tol_m: float, max_gross_to_p
         hi = min(hi * 1.25, 0.999 * dv_cap)
     if lo is None:
         lo = 0.05 * v_t
-    dv = brentq(err, lo, hi, xtol=0.2, rtol=1e-6, maxiter=40) if err(lo) < 0 else lo
+    dv = brentq(err, lo, hi, xtol=1.0, rtol=1e-5, maxiter=40) if err(lo) < 0 else lo
     return stack.lagrange_masses(dv), dv, flights[0]
 
 
@@ -168,7 +168,7 @@ def _integrated(stack: _Stack, mp0, target_m: float, tol_m: float, limits, *, gr
         mp, pay = unpack(z)
         g = stack.gross(mp, pay)
         try:
-            ap, q, a = stack.fly(mp, pay, rtol=1e-9)
+            ap, q, a = stack.fly(mp, pay, rtol=1e-8)
         except FieldError:
             ap, q, a = stack.site.altitude_m, 0.0, 0.0
         obj = -pay / stack.payload_kg if free_payload else g / m_ref

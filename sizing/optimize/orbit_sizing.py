@@ -291,19 +291,19 @@ def orbit_residuals_m_s(y: np.ndarray, rp_t: float, ra_t: float) -> tuple[list[f
     valid over its steps. Formulas: Curtis, Orbital Mechanics for Engineering
     Students, 3rd ed., Ch. 2 (vis-viva, angular momentum; from memory).
     """
-    r, v = y[0:3], y[3:6]
-    rn = float(np.linalg.norm(r))
-    h = np.cross(r, v)
-    hn = float(np.linalg.norm(h))
-    inc = math.degrees(math.acos(max(-1.0, min(1.0, h[2] / hn)))) if hn > 0 else 90.0
+    x, yy, z, vx, vy, vz = (float(c) for c in y[:6])
+    rn = math.sqrt(x * x + yy * yy + z * z)
+    hx, hy, hz = yy * vz - z * vy, z * vx - x * vz, x * vy - yy * vx
+    hn = math.sqrt(hx * hx + hy * hy + hz * hz)
+    inc = math.degrees(math.acos(max(-1.0, min(1.0, hz / hn)))) if hn > 0 else 90.0
     if abs(ra_t - rp_t) < 1.0:
         v_c = math.sqrt(GM_EARTH_M3_S2 / rp_t)
-        v_r = float(r @ v) / rn
+        v_r = (x * vx + yy * vy + z * vz) / rn
         return [v_r, hn / rn - v_c, (rn - rp_t) * v_c / (4.0 * rp_t)], inc
     a_t = 0.5 * (rp_t + ra_t)
     p_t = 2.0 * rp_t * ra_t / (rp_t + ra_t)
     v_req = math.sqrt(max(0.0, GM_EARTH_M3_S2 * (2.0 / rn - 1.0 / a_t)))
-    return [float(np.linalg.norm(v)) - v_req, (hn - math.sqrt(GM_EARTH_M3_S2 * p_t)) / rn], inc
+    return [math.sqrt(vx * vx + vy * vy + vz * vz) - v_req, (hn - math.sqrt(GM_EARTH_M3_S2 * p_t)) / rn], inc
 
 
 def _flight(lay: _Layout, z: np.ndarray, rtol: float, steps: np.ndarray | None = None):

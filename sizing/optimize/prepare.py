@@ -15,12 +15,16 @@ from dataclasses import dataclass
 from ..errors import MSG_UNKNOWN_METHOD
 from ..problem.model import Problem
 
-__all__ = ["Prepared", "prepare", "METHODS", "MSG_LAGRANGE_LIMITS"]
+__all__ = ["Prepared", "prepare", "METHODS", "MSG_LAGRANGE_LIMITS", "MSG_METHOD_NOT_FOR_FLIGHT"]
 
 #: Methods `solve` accepts. "auto" takes the Lagrange closed form when no limit
 #: is set and the convex program otherwise.
 METHODS = ("auto", "lagrange", "cvxpy", "slsqp")
 
+#: Error text: the ideal-delta-v methods do not size flight targets.
+MSG_METHOD_NOT_FOR_FLIGHT = ("methods 'lagrange', 'cvxpy' and 'slsqp' size ideal delta-v targets; an apogee or orbit "
+                             "target is sized by the integrated flight optimiser: use method 'auto' (or leave "
+                             "[solver] method out).")
 MSG_LAGRANGE_LIMITS = ("method 'lagrange' handles no limits (mass ratio, delta-v share, mass caps); "
                        "use 'cvxpy' or 'auto'.")
 
@@ -68,6 +72,8 @@ def prepare(problem: Problem, *, method: str | None = None) -> Prepared:
     if problem.is_flight_target:
         from .flight_problem import check_flight_problem
 
+        if m != "auto":
+            raise ValueError(f"{MSG_METHOD_NOT_FOR_FLIGHT} Got method {m!r}.")
         check_flight_problem(problem)
         return Prepared(problem, m)
     model = problem.has_stage_models and any(s.has_mass_model for s in problem.stages)

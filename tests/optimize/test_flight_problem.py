@@ -176,3 +176,35 @@ def test_cli_fly_other_file_kinds_get_one_line(name, hint, capsys):
     assert main(["fly", str(ROOT / "problems" / name)]) == EXIT_BAD_INPUT
     err = capsys.readouterr().err.strip().splitlines()
     assert len(err) == 1 and hint in err[0]
+
+
+def test_ideal_methods_are_refused_for_flight_targets(capsys):
+    """`--method slsqp` on an apogee problem is a one-line error (exit 2), not a silent switch."""
+    from sizing.optimize.prepare import MSG_METHOD_NOT_FOR_FLIGHT
+
+    assert main(["solve", str(APOGEE), "--method", "slsqp"]) == EXIT_BAD_INPUT
+    err = capsys.readouterr().err.strip().splitlines()
+    assert len(err) == 1 and MSG_METHOD_NOT_FOR_FLIGHT in err[0]
+
+
+def test_cli_sweep_writes_a_table_with_units(tmp_path, capsys):
+    """`--sweep apogee=20km:30km:10km`: one solve per point, gross mass grows with the target
+    (consistency check, no external source), CSV with units in the header and the caution."""
+    import csv
+
+    out = tmp_path / "sweep.csv"
+    assert main(["solve", str(APOGEE), "--sweep", "apogee=20km:30km:10km", "--out", str(out)]) == EXIT_OK
+    rows = list(csv.DictReader(out.open(encoding="utf-8")))
+    pts = [r for r in rows if r.get("status") == "optimal"]
+    assert [float(r["apogee [m]"]) for r in pts] == [20000.0, 30000.0]
+    assert float(pts[0]["gross mass [kg]"]) < float(pts[1]["gross mass [kg]"])
+    assert "Preliminary estimates only" in out.read_text()
+
+
+@pytest.mark.parametrize("spec, text", [("colour=1:2:1", "KEY one of"), ("apogee=10km:20km", "START:STOP:STEP"),
+                                        ("apogee=20km:10km:1km", "STOP >= START"),
+                                        ("apogee=1m:100km:1m", "at most")])
+def test_cli_sweep_bad_spec_is_one_line(spec, text, capsys):
+    assert main(["solve", str(APOGEE), "--sweep", spec]) == EXIT_BAD_INPUT
+    err = capsys.readouterr().err.strip().splitlines()
+    assert len(err) == 1 and text in err[0]

@@ -188,6 +188,17 @@ def _propulsion(st, tau0: float, tau1: float, dt: float) -> tuple[float, float, 
     return f0, fb, (float(np.interp(tau0, tm, mm)) - float(np.interp(tau1, tm, mm))) / dt, 0.0
 
 
+def _stage_constants(vehicle: Vehicle, drag_offsets) -> list[tuple]:
+    """Per stage: (exit area, reference area, mass after its burnout, drag offset, drag length)."""
+    n_st = len(vehicle.stages)
+    out = []
+    for i, st in enumerate(vehicle.stages):
+        after = vehicle.ignition_mass_kg(i + 1) if i < n_st - 1 else vehicle.payload_mass_kg + st.structural_mass_kg
+        out.append((st.exit_area_m2, vehicle.reference_area_m2(i), after, float(drag_offsets[i]),
+                    float(len(st.drag.mach))))
+    return out
+
+
 def _phase_table(vehicle: Vehicle, sched: BurnSchedule, extra_times, mode_at, drag_offsets, final_coast: bool,
                  insertion=None) -> np.ndarray:
     windows = sched.windows
@@ -195,33 +206,38 @@ def _phase_table(vehicle: Vehicle, sched: BurnSchedule, extra_times, mode_at, dr
     if final_coast:
         times = times + [math.inf]
     n_st = len(vehicle.stages)
-    rows = []
-    for a, b in zip(times, times[1:]):
-        mid = 0.5 * (a + b) if math.isfinite(b) else a + 1.0
-        stage = next((i for i, (_, tb) in enumerate(windows) if mid < tb), n_st - 1)
+    consts = _stage_constants(vehicle, drag_offsets)
+    marks = [(n_st + k, tm) for k, tm in enumerate((sched.cutoff_s, sched.insertion_s)) if tm is not None]
+    fixed_pitch = math.radians(insertion.pitch_deg) if insertion is not None else 0.0
+    rows = np.zeros((len(times) - 1, L.PH_SIZE))
+    stage = 0
+    for j, (a, b) in enumerate(zip(times, times[1:])):
+        finite = math.isfinite(b)
+        mid = 0.5 * (a + b) if finite else a + 1.0
+        while stage < n_st - 1 and mid >= windows[stage][1]:
+            stage += 1
         t_ign, t_bo = windows[stage]
         st = vehicle.stages[stage]
-        row = np.zeros(L.PH_SIZE)
+        row = rows[j]
         row[L.PH_T0], row[L.PH_T1], row[L.PH_STAGE] = a, b, stage
-        row[L.PH_BURNING] = 1.0 if (sched.burning(stage, mid) and math.isfinite(b)) else 0.0
-        if row[L.PH_BURNING]:
+        if finite and sched.burning(stage, mid):
+            row[L.PH_BURNING] = 1.0
             row[L.PH_FA], row[L.PH_FB], row[L.PH_MA], row[L.PH_MB] = _propulsion(st, a - t_ign, b - t_ign, b - a)
         row[L.PH_BURNOUT_OF] = row[L.PH_MARK] = -1.0
-        for k, tm in enumerate((sched.cutoff_s, sched.insertion_s)):
-            if tm is not None and math.isfinite(b) and abs(b - tm) <= 1e-9 * max(1.0, b):
-                row[L.PH_MARK] = n_st + k
-        if math.isfinite(b) and abs(b - t_bo) <= 1e-9 * max(1.0, b):
+        tol = 1e-9 * max(1.0, b) if finite else 0.0
+        for k, tm in marks:
+            if finite and abs(b - tm) <= tol:
+                row[L.PH_MARK] = k
+        ae, aref, after, doff, dlen = consts[stage]
+        if finite and abs(b - t_bo) <= tol:
             row[L.PH_BURNOUT_OF] = stage
-            row[L.PH_MASS_AFTER] = (vehicle.ignition_mass_kg(stage + 1) if stage < n_st - 1
-                                    else vehicle.payload_mass_kg + st.structural_mass_kg)
+            row[L.PH_MASS_AFTER] = after
         row[L.PH_MODE] = mode_at(mid)
         if sched.insertion_s is not None and mid > sched.insertion_s and stage == n_st - 1:
-            row[L.PH_MODE], row[L.PH_PITCH] = L.MODE_FIXED, math.radians(insertion.pitch_deg)
-        row[L.PH_EXIT_AREA] = st.exit_area_m2
-        row[L.PH_REF_AREA] = vehicle.reference_area_m2(stage)
-        row[L.PH_DRAG_OFF], row[L.PH_DRAG_LEN] = drag_offsets[stage], len(st.drag.mach)
-        rows.append(row)
-    return np.array(rows)
+            row[L.PH_MODE], row[L.PH_PITCH] = L.MODE_FIXED, fixed_pitch
+        row[L.PH_EXIT_AREA], row[L.PH_REF_AREA] = ae, aref
+        row[L.PH_DRAG_OFF], row[L.PH_DRAG_LEN] = doff, dlen
+    return rows
 
 
 def _site_frame(site: LaunchSite, round_: bool):
