@@ -33,7 +33,7 @@ from sizing.physics.flight.kernel import run_flight
 from sizing.physics.flight.setup import prepare_flight
 from sizing.physics.rocket import stack_masses
 from sizing.physics.staging import optimal_mass_ratios, optimal_mass_ratios_for_growth
-from sizing.physics.vehicle import FlightStageSpec, LaunchSite, Vehicle, build_vehicle
+from sizing.physics.vehicle import FlightStageSpec, LaunchSite, Vehicle, build_vehicle, structural_masses, with_model_coefficients
 from sizing.units import G0_M_S2
 
 __all__ = ["ApogeeDesign", "size_for_apogee", "MIN_USEFUL_SHARE"]
@@ -69,7 +69,6 @@ class _Stack:
         self.payload_kg = float(payload_kg)
         self.site, self.earth = site, earth
         self.payload_diameter_m, self.staging_delay_s = payload_diameter_m, staging_delay_s
-        self.k = [s.structural_coefficient / (1.0 - s.structural_coefficient) for s in self.specs]
         self.extra = list(extra_inert_kg) if extra_inert_kg is not None else [0.0] * len(self.specs)
 
     def variant(self, **kw) -> "_Stack":
@@ -80,16 +79,17 @@ class _Stack:
         args.update(kw)
         return _Stack(**args)
 
-    def masses(self, mp) -> tuple[list[float], list[float]]:
+    def masses(self, mp, payload=None) -> tuple[list[float], list[float]]:
         mp = [float(m) for m in mp]
-        return mp, [k * m + e for k, m, e in zip(self.k, mp, self.extra)]
+        ms = structural_masses(self.specs, mp, self.payload_kg if payload is None else payload)
+        return mp, [m + e for m, e in zip(ms, self.extra)]
 
     def gross(self, mp, payload=None) -> float:
-        mp, ms = self.masses(mp)
+        mp, ms = self.masses(mp, payload)
         return (self.payload_kg if payload is None else payload) + sum(mp) + sum(ms)
 
     def vehicle(self, mp, payload=None) -> Vehicle:
-        mp, ms = self.masses(mp)
+        mp, ms = self.masses(mp, payload)
         return build_vehicle(self.specs, mp, ms, self.payload_kg if payload is None else payload,
                              payload_diameter_m=self.payload_diameter_m, staging_delay_s=self.staging_delay_s)
 
@@ -213,13 +213,18 @@ def size_for_apogee(specs, payload_mass_kg: float, target_m: float, site: Launch
     tol = max(1.0, 1e-4 * (target_m - site.altitude_m)) if tolerance_m is None else float(tolerance_m)
     stack = _Stack(specs, payload_mass_kg, site, earth, payload_diameter_m, staging_delay_s)
     mp0, dv0, n_start = _lagrange_start(stack, target_m, tol, max_gross_to_payload)
+    if any(s.mass_model is not None for s in specs):  # the Lagrange line with the model's coefficients
+        specs = with_model_coefficients(specs, mp0, payload_mass_kg)
+        stack = stack.variant(specs=specs)
+        mp0, dv0, n_more = _lagrange_start(stack, target_m, tol, max_gross_to_payload)
+        n_start += n_more
     mp, pay, res, outputs_of, scale_kg = _integrated(stack, mp0, target_m, tol, (max_dynamic_pressure_pa, max_acceleration_m_s2),
                                            gross_mass_kg=gross_mass_kg, max_gross_mass_kg=max_gross_mass_kg)
     payload = stack.payload_kg if pay is None else float(pay)
     ok = res.success
-    mp_list, ms_list = stack.masses(mp)
+    mp_list, ms_list = stack.masses(mp, payload)
     if not ok:  # keep the Lagrange start, which meets the target
-        mp_list, ms_list = stack.masses(mp0)
+        mp_list, ms_list = stack.masses(mp0, payload)
     warnings = []
     total = sum(mp_list)
     for s, m in zip(specs, mp_list):
@@ -270,7 +275,9 @@ def _trade_factors(stack: _Stack, res, outputs_of, scale_kg: float, gross: float
         inert = [stack.extra[k] + (1.0 if k == i else 0.0) for k in range(n)]
         stages[s.name] = {"per_structural_kg": change(stack.variant(extra_inert_kg=inert)),
                           "per_isp_s": change(stack.variant(specs=isp)),
-                          "per_0_01_structural_coefficient": change(stack.variant(specs=eps))}
+                          # a mass-model stage has no structural coefficient to vary
+                          "per_0_01_structural_coefficient": math.nan if s.mass_model is not None
+                          else change(stack.variant(specs=eps))}
     return {"basis": ("change in minimum gross mass at fixed payload and apogee, split re-optimised "
                       "(envelope theorem on the flown optimum, first order)"),
             "gross_mass_per_payload_kg": change(stack.variant(payload_kg=stack.payload_kg + 1.0)),

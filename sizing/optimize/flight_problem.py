@@ -71,6 +71,11 @@ def _drag(s: StageDef) -> DragCurve:
     return DragCurve.default_slender_body()
 
 
+#: Starting structural coefficient of a stage-model stage before the model is evaluated [-]
+#: (common practice, no source: a mid-range value for small liquid and solid stages).
+NOMINAL_MODEL_COEFFICIENT = 0.12
+
+
 def flight_specs(problem: Problem) -> list[FlightStageSpec]:
     """Stage specs (no masses) for sizing to a flight target.
 
@@ -92,9 +97,12 @@ def flight_specs(problem: Problem) -> list[FlightStageSpec]:
     try:
         return [
             FlightStageSpec(
-                s.name, s.isp_s, s.structural_coefficient, s.thrust_to_weight,
-                diameter_m=d, isp_sl_s=s.isp_sea_level_s, drag=_drag(s),
+                s.name, s.isp_s,
+                # a mass-model stage starts from a nominal coefficient; the sizers refresh it from the model
+                NOMINAL_MODEL_COEFFICIENT if s.has_mass_model else s.structural_coefficient,
+                s.thrust_to_weight, diameter_m=d, isp_sl_s=s.isp_sea_level_s, drag=_drag(s),
                 coast_before_ignition_s=s.coast_before_ignition_s or 0.0, g0_m_s2=problem.g0_m_s2,
+                mass_model=s.mass_model,
             )
             for s, d in zip(problem.stages, dia)
         ]
@@ -375,6 +383,7 @@ def _flight_result(problem: Problem, fs, goal: str, payload_free: bool) -> Sizin
                                  message=message)
     if fs.converged and fs.trade_factors:
         result = replace(result, trade_factors=fs.trade_factors)
+    result = _with_flown_hardware(problem, result, fs.vehicle)
     if problem.apogee_m is not None:
         target = {"apogee_above_site_m": problem.apogee_m, "apogee_m": problem.apogee_m}
     else:
@@ -470,6 +479,21 @@ def _with_flight(result: SizingResult, fr: FlightResult, problem: Problem, extra
     flight = flight_summary(fr, problem.launch.altitude_m)
     flight.update(extra)
     return replace(result, flight=flight, warnings=tuple(result.warnings) + tuple(fr.warnings))
+
+
+def _with_flown_hardware(problem: Problem, result: SizingResult, vehicle: Vehicle) -> SizingResult:
+    """Propellant split, tanks and engines (`_stage_nlp.stage_hardware_fields`) at the flown vacuum thrust,
+    and the stage models' review notes."""
+    from ._stage_nlp import stage_hardware_fields
+
+    stages, notes = [], []
+    for sd, sr, st in zip(problem.stages, result.stages, vehicle.stages):
+        hw = stage_hardware_fields(sd, sr.propellant_mass_kg, st.thrust_vac_n, sr.ignition_mass_kg, problem.g0_m_s2)
+        stages.append(replace(sr, **hw) if hw else sr)
+        if sd.mass_model is not None:
+            notes += [f"stage {sd.name!r}: {t}" for t in sd.mass_model.review_notes(sr.propellant_mass_kg,
+                                                                                 st.thrust_vac_n)]
+    return replace(result, stages=tuple(stages), warnings=tuple(result.warnings) + tuple(notes))
 
 
 def _result_from_masses(problem: Problem, propellant_kg, structural_kg, payload_kg: float,

@@ -44,7 +44,7 @@ from sizing.physics.flight.setup import burn_schedule, prepare_flight, replay_st
 from sizing.physics.gravity import circular_speed_m_s, launch_azimuth_deg, site_rotation_speed_m_s
 from sizing.physics.rocket import stack_masses
 from sizing.physics.loss_estimate import gravity_loss_split
-from sizing.physics.vehicle import FlightStageSpec, LaunchSite, Vehicle, build_vehicle
+from sizing.physics.vehicle import FlightStageSpec, LaunchSite, Vehicle, build_vehicle, structural_masses
 from sizing.units import GM_EARTH_M3_S2, R_EARTH_EQ_M
 
 __all__ = ["INSERTION_MODES", "OrbitGoal", "PathLimits", "OrbitDesign", "size_for_orbit"]
@@ -195,7 +195,7 @@ class _Layout:
             mp = self.mp_ref * math.exp(z[0])
         else:
             mp = self.mp_ref * np.exp(z[:self.n_mass])
-        ms = [s.structural_coefficient / (1.0 - s.structural_coefficient) * m for s, m in zip(self.specs, mp)]
+        ms = structural_masses(self.specs, mp, self.payload_kg)
         if self.extra_inert_kg is not None:
             ms = [a + b for a, b in zip(ms, self.extra_inert_kg)]
         return [float(m) for m in mp], ms
@@ -463,15 +463,26 @@ def size_for_orbit(specs, payload_mass_kg: float, goal: OrbitGoal, site: LaunchS
         k = gross_mass_kg / lay1.gross_mass(z1)
         common.update(payload_kg=common["payload_kg"] * k, mp_ref=mp0 * k)
         z2 = np.concatenate([z2, [0.0]])
-    lay2 = _Layout(**common, scale_only=False, payload_free=gross_mass_kg is not None)
-    outputs = _Outputs(lay2, limits, rtol=rtol, gross_mass_kg=gross_mass_kg, max_gross_mass_kg=max_gross_mass_kg)
-    lo, hi = lay2.bounds()
-    lin = None
-    if limits.max_pitch_rate_deg_s is not None:
-        lin = lay2.pitch_rate_rows(z2, limits.max_pitch_rate_deg_s)
-    res = solve_shooting(outputs, z2, lo, hi, n_eq=outputs.n_eq, n_ineq=outputs.n_ineq, linear_ineq=lin,
-                         eq_tol=0.05, max_iterations=max_iterations, step=1e-6)
-    design = _design(lay2, outputs, res, n_fl + res.n_flights, res.n_iterations)
+
+    def integrated(z_start, **kw):
+        lay = _Layout(**{**common, **kw}, scale_only=False, payload_free=gross_mass_kg is not None)
+        out = _Outputs(lay, limits, rtol=rtol, gross_mass_kg=gross_mass_kg, max_gross_mass_kg=max_gross_mass_kg)
+        lo, hi = lay.bounds()
+        lin = None
+        if limits.max_pitch_rate_deg_s is not None:
+            lin = lay.pitch_rate_rows(z_start, limits.max_pitch_rate_deg_s)
+        return lay, out, solve_shooting(out, z_start, lo, hi, n_eq=out.n_eq, n_ineq=out.n_ineq, linear_ineq=lin,
+                                        eq_tol=0.05, max_iterations=max_iterations, step=1e-6)
+
+    n_extra = 0
+    if any(s.mass_model is not None for s in specs):
+        # continuation: the optimum with the model's coefficients held fixed, then with the model itself
+        _lay, _out, res0 = integrated(z2, specs=tuple(replace(s, mass_model=None) for s in specs))
+        n_extra = res0.n_flights
+        if res0.success:
+            z2 = res0.z
+    lay2, outputs, res = integrated(z2)
+    design = _design(lay2, outputs, res, n_fl + n_extra + res.n_flights, res.n_iterations)
     if not res.success or gross_mass_kg is not None:
         return design
     out_kw = dict(rtol=rtol, max_gross_mass_kg=max_gross_mass_kg)
@@ -504,7 +515,9 @@ def _trade_factors(common: dict, limits: PathLimits, out_kw: dict, res: Shooting
                                    isp_sl_s=None if s.isp_sl_s is None else s.isp_sl_s + 1.0),) + specs[i + 1:]
         eps = specs[:i] + (replace(s, structural_coefficient=s.structural_coefficient + 0.01),) + specs[i + 1:]
         stages[s.name] = {"per_structural_kg": change(extra_inert_kg=inert), "per_isp_s": change(specs=isp),
-                          "per_0_01_structural_coefficient": change(specs=eps)}
+                          # a mass-model stage has no structural coefficient to vary
+                          "per_0_01_structural_coefficient": math.nan if s.mass_model is not None
+                          else change(specs=eps)}
     return {"basis": ("change in minimum gross mass at fixed payload and target orbit, steering and split "
                       "re-optimised (envelope theorem on the flown optimum, first order)"),
             "gross_mass_per_payload_kg": change(payload_kg=common["payload_kg"] + 1.0),

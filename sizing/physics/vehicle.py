@@ -40,6 +40,8 @@ __all__ = [
     "Vehicle",
     "LaunchSite",
     "build_vehicle",
+    "structural_masses",
+    "with_model_coefficients",
 ]
 
 #: Sea-level standard pressure [Pa] (US Standard Atmosphere 1976).
@@ -507,6 +509,11 @@ class FlightStageSpec:
         Coast before ignition [s], >= 0.
     g0_m_s2 : float
         Standard gravity for Isp and weight [m/s^2].
+    mass_model : object, optional
+        A stage mass model with ``structural_mass_kg(propellant_mass_kg,
+        thrust_vac_n)`` (`sizing.physics.stage_model.StageMassModel`): the
+        structural mass follows from the propellant and the thrust, and
+        `structural_coefficient` is only the starting value of the sizing.
     """
 
     name: str
@@ -519,6 +526,7 @@ class FlightStageSpec:
     drag: DragCurve = field(default_factory=_default_drag)
     coast_before_ignition_s: float = 0.0
     g0_m_s2: float = G0_M_S2
+    mass_model: object | None = None
 
     def __post_init__(self) -> None:
         p = f"stages.{self.name}."
@@ -546,6 +554,58 @@ class FlightStageSpec:
     def exhaust_velocity_vac_m_s(self) -> float:
         """Isp_vac g0 [m/s]."""
         return self.isp_vac_s * self.g0_m_s2
+
+
+def structural_masses(specs: Sequence[FlightStageSpec], propellant_mass_kg: Sequence[float],
+                      payload_mass_kg: float) -> list[float]:
+    """Structural mass of each stage [kg]: eps/(1 - eps) m_p, or the stage's mass model at its thrust.
+
+    A mass model's structure depends on the vacuum thrust, which `build_vehicle`
+    sets from thrust-to-weight at ignition and so from the structure itself;
+    working from the top stage down, each stage is solved by fixed-point
+    iteration (the structure's sensitivity to thrust is small, so it converges
+    in a few steps).
+    """
+    specs = tuple(specs)
+    mp = [float(x) for x in propellant_mass_kg]
+    ms = [0.0] * len(specs)
+    above = float(payload_mass_kg)
+    for i in range(len(specs) - 1, -1, -1):
+        s = specs[i]
+        if s.mass_model is None:
+            ms[i] = s.structural_coefficient / (1.0 - s.structural_coefficient) * mp[i]
+        else:
+            k = s.thrust_to_weight * s.g0_m_s2 * (s.isp_vac_s / s.isp_sl_s if (i == 0 and s.isp_sl_s) else 1.0)
+            m = s.structural_coefficient / (1.0 - s.structural_coefficient) * mp[i]
+            for _ in range(30):
+                new = float(s.mass_model.structural_mass_kg(mp[i], k * (above + mp[i] + m)))
+                if abs(new - m) <= 1e-10 * max(1.0, new):
+                    m = new
+                    break
+                m = new
+            ms[i] = m
+        above += mp[i] + ms[i]
+    return ms
+
+
+def with_model_coefficients(specs: Sequence[FlightStageSpec], propellant_mass_kg: Sequence[float],
+                            payload_mass_kg: float) -> tuple[FlightStageSpec, ...]:
+    """The specs with each mass-model stage's structural coefficient set to its value at these masses.
+
+    eps = m_s / (m_s + m_p) with m_s from `structural_masses`; the sizers use
+    it for their starting split (Lagrange line, gravity-loss estimate), while
+    the flown masses always come from the model.
+    """
+    from dataclasses import replace
+
+    specs = tuple(specs)
+    ms = structural_masses(specs, propellant_mass_kg, payload_mass_kg)
+    out = []
+    for s, mp, m in zip(specs, propellant_mass_kg, ms):
+        if s.mass_model is not None and mp > 0.0:
+            s = replace(s, structural_coefficient=min(max(m / (m + float(mp)), 0.005), 0.95))
+        out.append(s)
+    return tuple(out)
 
 
 def build_vehicle(

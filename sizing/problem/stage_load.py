@@ -29,8 +29,9 @@ MSG_TW_BOUNDS = "min_thrust_to_weight and max_thrust_to_weight replace thrust_to
 MSG_NEEDS_MATERIAL = "needs structure.material (a name in the material table) for pressure-vessel sizing"
 MSG_UNKNOWN_ITEM = "is not a mass item"
 MSG_KIND_MISMATCH = "does not fit the propellant's kind"
-MSG_STRUCTURE_FLIGHT = ("stage mass models are sized on the ideal delta-v path for now; for an apogee or orbit "
-                        "target give structural_coefficient instead of [stage.structure]")
+MSG_STRUCTURE_FLIGHT = ("with an apogee or orbit target a [stage.structure] stage needs a fixed thrust_to_weight "
+                        "(thrust-to-weight as a design variable, min/max_thrust_to_weight, is on the ideal "
+                        "delta-v path only)")
 MSG_ENTRY_MISSING = "required key is missing (or give like = \"NAME\" of a shipped entry)"
 MSG_UNKNOWN_LIKE = "is not a shipped propellant"
 MSG_LOSS_NEEDS_THRUST = "the gravity-loss estimate needs the burn time: give thrust_to_weight, thrust or min_thrust_to_weight"
@@ -155,7 +156,7 @@ def _structure_model(col, where: str, st, prop: Propellant | None, *, index: int
     s = st.structure
     if has_eps:
         col.fault(f"{where}: {MSG_STRUCTURE_AND_COEFFICIENT}.")
-    if flight_target:
+    if flight_target and (st.min_thrust_to_weight is not None or st.thrust_to_weight is None):
         col.fault(f"{where}.structure: {MSG_STRUCTURE_FLIGHT}.")
     if st.propellant is None:
         col.fault(f"{where}.structure: {MSG_STRUCTURE_NEEDS_PROPELLANT}.")

@@ -129,11 +129,15 @@ def test_kind_mismatch():
          "'solid'")
 
 
-def test_structure_with_flight_target():
+def test_structure_with_flight_target_needs_fixed_thrust_to_weight():
+    """The upper stage has thrust-to-weight bounds (a design variable): refused with a flight target;
+    the lower stage, with a fixed thrust-to-weight, is accepted."""
     def edit(d):
         d["mission"].pop("delta_v")
         d["mission"]["apogee"] = 50000.0
-    _one(edit, MSG_STRUCTURE_FLIGHT)
+    faults = _faults(edit)
+    assert any("stage[2] (up).structure" in f and MSG_STRUCTURE_FLIGHT in f for f in faults), faults
+    assert not any("(low).structure" in f and MSG_STRUCTURE_FLIGHT in f for f in faults), faults
 
 
 def test_gravity_loss_needs_thrust():
