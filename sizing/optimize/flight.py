@@ -256,12 +256,18 @@ def _apogee(specs, payload, target, site, tolerance, limits, gross, gross_cap, r
     fr = fly_vertical(d.vehicle, site, acceleration_limit_m_s2=limits.max_acceleration_m_s2,
                       **{**FLY_OPTIONS_VERTICAL, "earth": target.earth})
     err = fr.apogee_m - target.apogee_m
-    ok = abs(err) <= tol
+    over = path_limit_violations(fr, limits, ascent=False)
+    ok = abs(err) <= tol and not over
     achieved = {"apogee_above_site_m": fr.apogee_m - site.altitude_m, "apogee_above_sea_level_m": fr.apogee_m}
     v_t = math.sqrt(2.0 * G0_M_S2 * (target.apogee_m - site.altitude_m))
     method = "integrated" if "kept" not in d.message else "lagrange-line"
-    msg = (f"target met within {tol:g} m after {d.n_flights} flights ({method})." if ok else
-           f"target not met within {tol:g} m after {d.n_flights} flights; error {err:.3g} m.")
+    if ok:
+        msg = f"target met within {tol:g} m after {d.n_flights} flights ({method})."
+    elif abs(err) <= tol:
+        msg = f"apogee reached but {'; '.join(over)} (after {d.n_flights} flights)."
+    else:
+        msg = f"target not met within {tol:g} m after {d.n_flights} flights; error {err:.3g} m."
+        msg += "".join(f" Also {o}." for o in over)
     notes = [w for w in d.warnings if "pays" not in w and "pay for" not in w] + stage_notes(fr, d.vehicle, orbit=False)
     return _result(ok, msg, method, d.vehicle, site, None, fr, v_t, achieved, err, tol, d.n_iterations,
                    d.n_flights, d.alternatives, notes + ([] if ok else [msg]), d.trade_factors)
@@ -282,15 +288,21 @@ def _orbit(specs, payload, target, site, tolerance, limits, dia, delay, gross, g
     if goal.inclination_deg is not None and abs(o.inclination_deg - goal.inclination_deg) > 0.05:
         warnings.append(f"inclination reached {o.inclination_deg:.3f} deg is more than 0.05 deg from the target "
                         f"{goal.inclination_deg:g} deg.")
-    ok = d.success and err <= tol and fr.terminated_by == "burnout" and not warnings
+    over = path_limit_violations(fr, limits, ascent=True)
+    ok = d.success and err <= tol and fr.terminated_by == "burnout" and not warnings and not over
     achieved = {"perigee_altitude_m": o.perigee_alt_m, "apogee_altitude_m": o.apogee_alt_m,
                 "inclination_deg": o.inclination_deg, "speed_m_s": o.speed_m_s,
                 "flight_path_angle_deg": o.flight_path_angle_deg}
     r_p, r_a = R_EARTH_EQ_M + goal.perigee_altitude_m, R_EARTH_EQ_M + goal.apogee_altitude_m
     v_t = circular_speed_m_s(goal.perigee_altitude_m) * math.sqrt(2.0 * r_a / (r_p + r_a))  # vis-viva at perigee
-    msg = (f"orbit met within {tol:g} m after {d.n_flights} flights ({d.n_iterations} optimiser iterations)."
-           if ok else f"orbit not met within {tol:g} m (apsis error {err:,.0f} m) after {d.n_flights} flights: "
-           f"{d.message}. Raise thrust-to-weight or Isp, or lower the target.")
+    if ok:
+        msg = f"orbit met within {tol:g} m after {d.n_flights} flights ({d.n_iterations} optimiser iterations)."
+    elif over and err <= tol:
+        msg = f"orbit reached but {'; '.join(over)} (after {d.n_flights} flights)."
+    else:
+        msg = (f"orbit not met within {tol:g} m (apsis error {err:,.0f} m) after {d.n_flights} flights: "
+               f"{d.message}. Raise thrust-to-weight or Isp, or lower the target.")
+        msg += "".join(f" Also {o}." for o in over)
     warnings += stage_notes(fr, d.vehicle, orbit=True)
     return _result(ok, msg, "integrated", d.vehicle, d.site, d.profile, fr, v_t, achieved, err, tol,
                    d.n_iterations, d.n_flights, (), warnings + ([] if ok else [msg]), d.trade_factors)
@@ -299,6 +311,25 @@ def _orbit(specs, payload, target, site, tolerance, limits, dia, delay, gross, g
 #: Gravity loss above which an orbit review note explains where it comes from [m/s] (typical launchers lose
 #: about 1.0-1.5 km/s to gravity; Griffin & French, Space Vehicle Design, loss table, from memory).
 HIGH_GRAVITY_LOSS_M_S = 1500.0
+
+#: Relative excess over a path limit reported as a violation [-] (the optimiser holds limits to ~1e-6).
+PATH_LIMIT_SLACK = 1e-3
+
+
+def path_limit_violations(fr: FlightResult, limits: PathLimits, *, ascent: bool) -> list[str]:
+    """One phrase per path limit the flown design exceeds, naming the problem key and what to change."""
+    out = []
+    loft = ", loft the ascent (longer vertical_rise_time)" if ascent else ""
+    q, q_lim = fr.max_dynamic_pressure_pa, limits.max_dynamic_pressure_pa
+    if q_lim is not None and q > q_lim * (1.0 + PATH_LIMIT_SLACK):
+        out.append(f"mission.max_dynamic_pressure: max-q {q:,.0f} Pa is above the limit {q_lim:,.0f} Pa and the "
+                   f"optimiser could not {'steer or ' if ascent else ''}size below it; lower the first stage's "
+                   f"thrust-to-weight{loft} or raise the limit")
+    a, a_lim = fr.max_acceleration_m_s2, limits.max_acceleration_m_s2
+    if a_lim is not None and a > a_lim * (1.0 + PATH_LIMIT_SLACK):
+        out.append(f"mission.max_acceleration: {a:,.1f} m/s^2 is above the limit {a_lim:,.1f} m/s^2; lower the "
+                   "upper stages' thrust-to-weight or raise the limit")
+    return out
 
 
 def stage_notes(fr: FlightResult, vehicle: Vehicle, *, orbit: bool) -> list[str]:

@@ -208,3 +208,15 @@ def test_cli_sweep_bad_spec_is_one_line(spec, text, capsys):
     assert main(["solve", str(APOGEE), "--sweep", spec]) == EXIT_BAD_INPUT
     err = capsys.readouterr().err.strip().splitlines()
     assert len(err) == 1 and text in err[0]
+
+
+@pytest.mark.parametrize("name, limit", [("heron_apogee.toml", "1 kPa"), ("jackdaw_orbit.toml", "5 kPa")])
+def test_unreachable_max_q_limit_is_named(name, limit, tmp_path, capsys):
+    """A max-q limit below what the vehicle can fly is a failed sizing whose message names the key,
+    the flown max-q and the limit (issue requirement: bad or unmeetable input is explained)."""
+    text = (ROOT / "problems" / name).read_text().replace("[mission]", f"[mission]\nmax_dynamic_pressure = \"{limit}\"", 1)
+    path = tmp_path / name
+    path.write_text(text)
+    assert main(["solve", str(path)]) == EXIT_FAILED
+    first = capsys.readouterr().out.splitlines()[0]
+    assert "mission.max_dynamic_pressure" in first and f"{limit.split()[0]},000 Pa" in first, first
