@@ -18,7 +18,7 @@ from __future__ import annotations
 
 import math
 from collections.abc import Mapping, Sequence
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from types import MappingProxyType
 
 from sizing.errors import FieldError
@@ -235,14 +235,30 @@ def size_to_target(specs: Sequence[FlightStageSpec], payload_mass_kg: float, tar
     limits = limits or PathLimits()
     if limits.max_acceleration_m_s2 is None and acceleration_limit_m_s2 is not None:
         limits = PathLimits(limits.max_dynamic_pressure_pa, acceleration_limit_m_s2, limits.max_pitch_rate_deg_s)
+    cap = max_gross_mass_kg
+    if gross_mass_kg is None:  # the minimum gross mass meets a cap or nothing does: size, then check
+        max_gross_mass_kg = None
     if isinstance(target, OrbitTarget):
-        return _orbit(specs, float(payload_mass_kg), target, site, tolerance, limits, payload_diameter_m,
-                      staging_delay_s, gross_mass_kg, max_gross_mass_kg)
-    if isinstance(target, ApogeeTarget):
-        return _apogee(specs, float(payload_mass_kg), target, site, tolerance, limits, gross_mass_kg,
-                       max_gross_mass_kg, max_gross_to_payload, payload_diameter_m, staging_delay_s,
-                       compare_shorter)
-    raise FieldError("mission", "target must be an ApogeeTarget or an OrbitTarget.", target)
+        res = _orbit(specs, float(payload_mass_kg), target, site, tolerance, limits, payload_diameter_m,
+                     staging_delay_s, gross_mass_kg, max_gross_mass_kg)
+    elif isinstance(target, ApogeeTarget):
+        res = _apogee(specs, float(payload_mass_kg), target, site, tolerance, limits, gross_mass_kg,
+                      max_gross_mass_kg, max_gross_to_payload, payload_diameter_m, staging_delay_s,
+                      compare_shorter)
+    else:
+        raise FieldError("mission", "target must be an ApogeeTarget or an OrbitTarget.", target)
+    return res if gross_mass_kg is not None or cap is None else _check_gross_cap(res, float(cap))
+
+
+def _check_gross_cap(res: FlightSizingResult, cap_kg: float) -> FlightSizingResult:
+    """A minimum-gross-mass design above `max_gross_mass` fails with the cap named (the design stays as the
+    best reachable)."""
+    if not res.converged or res.gross_mass_kg <= cap_kg * (1.0 + 1e-9):
+        return res
+    msg = (f"mission.max_gross_mass: {cap_kg:,.0f} kg is below the lightest design that reaches the target, "
+           f"{res.gross_mass_kg:,.0f} kg; raise the cap, or lower the payload or the target, or improve Isp, "
+           "structure or thrust-to-weight.")
+    return replace(res, converged=False, message=msg, warnings=res.warnings + (msg,), trade_factors=None)
 
 
 def _apogee(specs, payload, target, site, tolerance, limits, gross, gross_cap, ratio_cap, dia, delay,

@@ -377,7 +377,7 @@ def _flight_result(problem: Problem, fs, goal: str, payload_free: bool) -> Sizin
     what = (f"maximum payload {fs.payload_mass_kg:,.6g} kg for {fs.gross_mass_kg:,.6g} kg gross mass" if payload_free
             else f"minimum gross mass {fs.gross_mass_kg:,.6g} kg for {fs.payload_mass_kg:,.6g} kg payload")
     message = (f"{what} to {goal}: ideal delta-v {fs.ideal_delta_v_m_s:,.0f} m/s including {loss:,.0f} m/s of "
-               "simulated losses" if fs.converged else f"sizing did not meet the target: {fs.message}")
+               "simulated losses" if fs.converged else f"no design meets the problem: {fs.message}")
     result = _result_from_masses(problem, fs.propellant_mass_kg, fs.structural_mass_kg, fs.payload_mass_kg,
                                  method="flight-integrated", iterations=fs.n_iterations, status=status,
                                  message=message)

@@ -21,7 +21,7 @@ import hashlib
 import os
 from pathlib import Path
 
-__all__ = ["njit", "JIT_ENABLED", "cache_dir"]
+__all__ = ["njit", "JIT_ENABLED", "cache_dir", "cache_is_warm"]
 
 JIT_ENABLED = os.environ.get("SIZING_NO_JIT", "") not in ("1", "true", "yes")
 
@@ -40,6 +40,22 @@ def cache_dir() -> Path:
     return Path(base) / f"numba-{digest.hexdigest()[:16]}"
 
 
+def cache_is_warm(path: Path | None = None) -> bool:
+    """True when the flight kernel's compiled code is in the cache (no compile on the first flight)."""
+    d = cache_dir() if path is None else path
+    return d.is_dir() and any(d.rglob("kernel.run_flight*.nbi"))
+
+
+def _announce_compile(path: Path) -> None:
+    """One stderr line before a first-time compile, in the main process only (workers stay quiet)."""
+    import multiprocessing
+    import sys
+
+    if multiprocessing.current_process().name == "MainProcess" and not cache_is_warm(path):
+        print(f"note: compiling the flight kernel for this machine (once; about 30-90 s), cached in {path}",
+              file=sys.stderr, flush=True)
+
+
 if JIT_ENABLED:
     import numba as _numba
 
@@ -47,6 +63,7 @@ if JIT_ENABLED:
         _dir = cache_dir()
         _dir.mkdir(parents=True, exist_ok=True)
         _numba.config.CACHE_DIR = str(_dir)
+        _announce_compile(_dir)
     except OSError:  # pragma: no cover - unwritable home: numba picks its own place
         pass
 

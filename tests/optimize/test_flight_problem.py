@@ -220,3 +220,20 @@ def test_unreachable_max_q_limit_is_named(name, limit, tmp_path, capsys):
     assert main(["solve", str(path)]) == EXIT_FAILED
     first = capsys.readouterr().out.splitlines()[0]
     assert "mission.max_dynamic_pressure" in first and f"{limit.split()[0]},000 Pa" in first, first
+
+
+def test_gross_mass_cap_with_flight_targets(capsys):
+    """A max_gross_mass below the lightest design fails with the cap named, the design kept as the best
+    reachable; a cap above it changes nothing (for a minimum-gross-mass objective the cap binds only by
+    making the problem infeasible: consistency check, no external source)."""
+    free = solve(load_problem(APOGEE))
+    data = json.loads(json.dumps(load_problem(APOGEE).raw))
+    data["mission"]["max_gross_mass"] = 0.9 * free.gross_mass_kg
+    low = solve(problem_from_dict(data, source="<cap>"))
+    assert not low.success and "mission.max_gross_mass" in low.message and f"{free.gross_mass_kg:,.0f} kg" in low.message
+    data["mission"]["max_gross_mass"] = 1.1 * free.gross_mass_kg
+    assert solve(problem_from_dict(data, source="<cap>")).gross_mass_kg == pytest.approx(free.gross_mass_kg, rel=1e-12)
+    orbit = json.loads(json.dumps(load_problem(ROOT / "problems" / "jackdaw_orbit.toml").raw))
+    orbit["mission"]["max_gross_mass"] = 5000.0
+    r = solve(problem_from_dict(orbit, source="<orbit cap>"))
+    assert not r.success and "mission.max_gross_mass: 5,000 kg is below" in r.message
