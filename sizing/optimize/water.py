@@ -137,7 +137,7 @@ def optimise_water_stage(
         site = LaunchSite(rail_length_m=stack[0].launch_tube_length_m)
     space = _DesignSpace.of(stack, vary, fill_lo_hi, nozzle_lo_hi,
                             _pressure_caps(stack, max_gauge_pressure_pa))
-    apogee_of = _ApogeeCache(space, fly=_default_flight if apogee is None else apogee, site=site,
+    apogee_of = _ApogeeCache(space=space, fly=_default_flight if apogee is None else apogee, site=site,
                              payload_mass_kg=payload_mass_kg, ambient_pressure_pa=ambient_pressure_pa)
     x0 = space.start_vector()
     initial = apogee_of(x0)
@@ -276,6 +276,7 @@ class _DesignSpace:
         return np.array(x, dtype=float)
 
 
+@dataclass(slots=True, kw_only=True)
 class _ApogeeCache:
     """Apogee [m] of the design at a parameter vector, flown once per vector.
 
@@ -284,16 +285,15 @@ class _ApogeeCache:
     `n_eval` counts the distinct vectors tried.
     """
 
-    def __init__(self, space: _DesignSpace, *, fly: Callable[[Vehicle, LaunchSite], float], site: LaunchSite,
-                 payload_mass_kg: float, ambient_pressure_pa: float) -> None:
-        self.space = space
-        self.fly = fly
-        self.site = site
-        self.payload_mass_kg = payload_mass_kg
-        self.ambient_pressure_pa = ambient_pressure_pa
-        self.n_eval = 0
-        self.cache: dict[tuple[float, ...], float] = {}
-        self.rejected = {"cannot_lift_off": 0, "flight_time_cap": 0, "invalid": 0}
+    space: _DesignSpace
+    fly: Callable[[Vehicle, LaunchSite], float]
+    site: LaunchSite
+    payload_mass_kg: float
+    ambient_pressure_pa: float
+    n_eval: int = 0
+    cache: dict[tuple[float, ...], float] = field(default_factory=dict)
+    rejected: dict[str, int] = field(
+        default_factory=lambda: {"cannot_lift_off": 0, "flight_time_cap": 0, "invalid": 0})
 
     def __call__(self, x) -> float:
         key = tuple(round(float(v), 12) for v in x)
