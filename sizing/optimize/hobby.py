@@ -256,6 +256,69 @@ class _Flown:
     max_acceleration_m_s2: float
 
 
+@dataclass(frozen=True, slots=True)
+class _Limits:
+    """The limits a flown stack must meet (see `search_hobby_stack` for each).
+
+    Attributes
+    ----------
+    target_apogee_m : float
+        Apogee to reach above the site [m].
+    min_thrust_to_weight : float
+        Liftoff average thrust / weight minimum [-].
+    min_rail_exit_speed_m_s : float
+        Minimum rail-exit speed [m/s].
+    max_acceleration_m_s2 : float or None
+        Limit on the largest acceleration [m/s^2]; None: no limit.
+    match_target : bool
+        Ballast the apogee down to the target.
+    apogee_tolerance_m : float
+        Tolerance of `match_target` and of the ballast bisection [m].
+    """
+
+    target_apogee_m: float
+    min_thrust_to_weight: float
+    min_rail_exit_speed_m_s: float
+    max_acceleration_m_s2: float | None
+    match_target: bool
+    apogee_tolerance_m: float
+
+
+@dataclass(frozen=True, slots=True)
+class _Candidate:
+    """A combination that passed the cheap rejections, with its objective lower bound.
+
+    `key` is (cost, mass [kg]) or (mass [kg], 0) without the ballast beyond
+    `stability_ballast_kg`; `mass_kg` is the liftoff mass without any ballast [kg].
+    """
+
+    key: tuple[float, float]
+    combo: tuple[Motor, ...]
+    mass_kg: float
+    stability_ballast_kg: float
+
+
+@dataclass(frozen=True, slots=True)
+class _Best:
+    """The best feasible stack so far: objective key, motors, ballast [kg], flight, liftoff T/W [-]."""
+
+    key: tuple[float, float]
+    combo: tuple[Motor, ...]
+    ballast_kg: float
+    flown: _Flown
+    thrust_to_weight: float
+
+
+def _thrust_to_weight(motor: Motor, liftoff_mass_kg: float) -> float:
+    """Liftoff thrust-to-weight, average thrust / (m g0) [-], of the bottom motor."""
+    return motor.average_thrust_n / (liftoff_mass_kg * G0_M_S2)
+
+
+def _objective_key(objective: str, cost: float, mass_kg: float) -> tuple[float, float]:
+    """Sort key of a stack: (cost, mass [kg]) for the cost objective, else (mass [kg], 0)."""
+    return (cost, mass_kg) if objective == "cost" else (mass_kg, 0.0)
+
+
 def apogee_energy_bound(delta_v_ideal_m_s: float, *, launch_radius_m: float = R_EARTH_EQ_M) -> float:
     """Upper bound of the apogee height of a vertical flight with this ideal delta-v [m].
 
@@ -424,6 +487,36 @@ def search_hobby_stack(
     """
     motors = tuple(motors)
     stages = tuple(stages)
+    _check_search_options(motors, stages, objective=objective, target_apogee_m=target_apogee_m,
+                          payload_mass_kg=payload_mass_kg, min_thrust_to_weight=min_thrust_to_weight,
+                          min_rail_exit_speed_m_s=min_rail_exit_speed_m_s,
+                          max_acceleration_m_s2=max_acceleration_m_s2)
+    site = LaunchSite(rail_length_m=1.0) if site is None else site
+    limits = _Limits(target_apogee_m, min_thrust_to_weight, min_rail_exit_speed_m_s, max_acceleration_m_s2,
+                     match_target, apogee_tolerance_m)
+    per_stage, n_comb, method = _motor_choices(motors, stages, max_combinations)
+    rejected: Counter[str] = Counter()
+    cands = _ranked_candidates(per_stage, stages, payload_mass_kg=payload_mass_kg, objective=objective,
+                               limits=limits, launch_radius_m=R_EARTH_EQ_M + site.altitude_m,
+                               stability=stability, rejected=rejected)
+    flights = _StackFlights(stages=stages, payload_mass_kg=payload_mass_kg, payload_diameter_m=payload_diameter_m,
+                            fly=_default_flight if flight is None else flight, site=site)
+    best, status = _branch_and_bound(cands, flights, objective=objective, limits=limits,
+                                     max_simulations=max_simulations, rejected=rejected)
+    tally = dict(rejected=MappingProxyType({r: int(rejected.get(r, 0)) for r in REJECT_REASONS}),
+                 n_comb=n_comb, n_sim=flights.n, method=method, objective=objective,
+                 payload_mass_kg=payload_mass_kg)
+    if best is None:
+        return _infeasible_result(status, n_stages=len(stages), n_motors=len(motors),
+                                  target_apogee_m=target_apogee_m, **tally)
+    return _found_result(best, status, stages=stages, site=site, limits=limits, max_simulations=max_simulations,
+                         **tally)
+
+
+def _check_search_options(motors: tuple[Motor, ...], stages: tuple[StackStage, ...], *, objective: str,
+                          target_apogee_m: float, payload_mass_kg: float, min_thrust_to_weight: float,
+                          min_rail_exit_speed_m_s: float, max_acceleration_m_s2: float | None) -> None:
+    """Refuse bad options of `search_hobby_stack` before any flight (one `FieldError` each)."""
     if not motors:
         raise FieldError("motors", "at least one motor is required.", 0)
     if not stages:
@@ -448,11 +541,23 @@ def search_hobby_stack(
     names = [m.name for m in motors]
     if len(set(names)) != len(names):
         raise FieldError("motor.name", "must be unique in the motor list.", names)
-    site = LaunchSite(rail_length_m=1.0) if site is None else site
-    fly = _default_flight if flight is None else flight
-    g0 = G0_M_S2
-    r0 = R_EARTH_EQ_M + site.altitude_m
 
+
+def _motor_choices(motors: tuple[Motor, ...], stages: tuple[StackStage, ...],
+                   max_combinations: int) -> tuple[list[list[Motor]], int, str]:
+    """The motors that fit each stage, pruned by dominance when the combinations exceed the cap.
+
+    Returns
+    -------
+    (list of list of Motor, int, str)
+        Motors per stage (bottom first), number of combinations, and the
+        method text (``"... after dominance pruning (heuristic)"`` when pruned).
+
+    Raises
+    ------
+    FieldError
+        A stage that no motor of the list fits.
+    """
     per_stage = []
     for s in stages:
         fit = [m for m in motors if s.fits(m)]
@@ -467,122 +572,179 @@ def search_hobby_stack(
         per_stage = [_pareto(f) for f in per_stage]
         n_comb = math.prod(len(f) for f in per_stage)
         method += " after dominance pruning (heuristic)"
+    return per_stage, n_comb, method
 
-    rejected: Counter[str] = Counter()
-    # -- 1-2: enumerate, cheap rejections ---------------------------------------
-    cands = []  # (lower bound key, combo, liftoff mass, tw)
+
+def _ranked_candidates(per_stage: list[list[Motor]], stages: tuple[StackStage, ...], *, payload_mass_kg: float,
+                       objective: str, limits: _Limits, launch_radius_m: float,
+                       stability: Callable[[tuple[Motor, ...]], float] | None,
+                       rejected: Counter[str]) -> list[_Candidate]:
+    """Steps 1-2 of the method: every combination, the cheap rejections, sorted by the lower bound.
+
+    Rejected here (counted in `rejected`): ``unstable`` (no finite stability
+    ballast, or its ballast breaks the thrust-to-weight minimum),
+    ``thrust_to_weight`` (liftoff average T/W below the minimum) and
+    ``energy_bound`` (`apogee_energy_bound` of the ideal delta-v below the
+    target). The sort is stable, so ties keep the enumeration order.
+    """
+    cands = []
     for combo in itertools.product(*per_stage):
         b0 = 0.0 if stability is None else float(stability(combo))
         if not math.isfinite(b0):
             rejected["unstable"] += 1
             continue
         m0 = payload_mass_kg + sum(s.airframe_mass_kg + m.loaded_mass_kg for m, s in zip(combo, stages))
-        tw = combo[0].average_thrust_n / ((m0 + b0) * g0)
-        if tw < min_thrust_to_weight:
-            rejected["unstable" if b0 > 0 and combo[0].average_thrust_n / (m0 * g0) >= min_thrust_to_weight
+        if _thrust_to_weight(combo[0], m0 + b0) < limits.min_thrust_to_weight:
+            rejected["unstable" if b0 > 0 and _thrust_to_weight(combo[0], m0) >= limits.min_thrust_to_weight
                      else "thrust_to_weight"] += 1
             continue
         dv = _ideal_delta_v(combo, stages, payload_mass_kg + b0)
-        if apogee_energy_bound(dv, launch_radius_m=r0) < target_apogee_m:
+        if apogee_energy_bound(dv, launch_radius_m=launch_radius_m) < limits.target_apogee_m:
             rejected["energy_bound"] += 1
             continue
         cost = sum(m.cost for m in combo) if objective == "cost" else 0.0
-        key = (cost, m0 + b0) if objective == "cost" else (m0 + b0, 0.0)
-        cands.append((key, combo, m0, tw, b0))
-    cands.sort(key=lambda c: c[0])
+        cands.append(_Candidate(_objective_key(objective, cost, m0 + b0), combo, m0, b0))
+    cands.sort(key=lambda c: c.key)
+    return cands
 
-    n_sim = 0
-    best = None  # (key, combo, ballast, flight result, tw)
 
-    def simulate(combo, ballast):
-        nonlocal n_sim
-        n_sim += 1
-        veh = build_motor_vehicle(combo, stages, payload_mass_kg=payload_mass_kg, ballast_mass_kg=ballast,
-                                  payload_diameter_m=payload_diameter_m)
-        r = fly(veh, site)
-        rail = float(r.rail_exit_speed_m_s) if site.rail_length_m > 0 else math.inf
-        return _Flown(float(r.apogee_m) - site.altitude_m, rail, float(r.max_acceleration_m_s2))
+@dataclass(slots=True, kw_only=True)
+class _StackFlights:
+    """Flies a combination with a nose ballast and counts the flights (`n`).
 
+    The flight function's apogee is taken above the site; with no rail
+    (``site.rail_length_m == 0``) the rail-exit speed is inf, so its check passes.
+    """
+
+    stages: tuple[StackStage, ...]
+    payload_mass_kg: float
+    payload_diameter_m: float | None
+    fly: Callable[[Vehicle, LaunchSite], object]
+    site: LaunchSite
+    n: int = 0
+
+    def __call__(self, combo: tuple[Motor, ...], ballast_kg: float) -> _Flown:
+        self.n += 1
+        veh = build_motor_vehicle(combo, self.stages, payload_mass_kg=self.payload_mass_kg,
+                                  ballast_mass_kg=ballast_kg, payload_diameter_m=self.payload_diameter_m)
+        r = self.fly(veh, self.site)
+        rail = float(r.rail_exit_speed_m_s) if self.site.rail_length_m > 0 else math.inf
+        return _Flown(float(r.apogee_m) - self.site.altitude_m, rail, float(r.max_acceleration_m_s2))
+
+
+def _branch_and_bound(cands: list[_Candidate], flights: _StackFlights, *, objective: str, limits: _Limits,
+                      max_simulations: int, rejected: Counter[str]) -> tuple[_Best | None, str]:
+    """Step 3 of the method: fly the candidates in order of their lower bound until none can win.
+
+    Stops at the first candidate whose lower bound is not better than the
+    best feasible objective (the rest: ``objective_bound``), or when
+    `max_simulations` flights are spent (the rest: ``not_evaluated``, status
+    ``"max_simulations"``). A flight that raises is counted as
+    ``cannot_lift_off``, ``flight_time_cap`` or ``flight_error``.
+
+    Returns
+    -------
+    (_Best or None, str)
+        The best feasible stack (None if none) and the status.
+    """
+    best = None
     status = "optimal"
-    for idx, (key, combo, m0, tw, b0) in enumerate(cands):
-        if best is not None and key >= best[0]:
+    for idx, c in enumerate(cands):
+        if best is not None and c.key >= best.key:
             rejected["objective_bound"] += len(cands) - idx
             break
-        if n_sim >= max_simulations:
+        if flights.n >= max_simulations:
             status = "max_simulations"
             rejected["not_evaluated"] += len(cands) - idx
             break
         try:
-            outcome = _evaluate(combo, m0, simulate, target_apogee_m=target_apogee_m,
-                                min_tw=min_thrust_to_weight, min_rail=min_rail_exit_speed_m_s,
-                                max_acc=max_acceleration_m_s2, match=match_target,
-                                tol=apogee_tolerance_m, b0=b0)
+            reason, ballast, res = _evaluate(c.combo, c.mass_kg, flights, limits, b0=c.stability_ballast_kg)
         except CannotLiftOffError:
-            rejected["cannot_lift_off"] += 1
-            continue
+            reason = "cannot_lift_off"
         except FlightTimeCapError:
-            rejected["flight_time_cap"] += 1
-            continue
+            reason = "flight_time_cap"
         except (FieldError, ValueError, FloatingPointError):
-            rejected["flight_error"] += 1
-            continue
-        reason, ballast, res = outcome
+            reason = "flight_error"
         if reason is not None:
             rejected[reason] += 1
             continue
-        total = m0 + ballast
-        full_key = (key[0], total) if objective == "cost" else (total, 0.0)
-        if best is None or full_key < best[0]:
+        total = c.mass_kg + ballast
+        full_key = _objective_key(objective, c.key[0], total)
+        if best is None or full_key < best.key:
             if best is not None:
                 rejected["worse_than_best"] += 1
-            best = (full_key, combo, ballast, res, combo[0].average_thrust_n / (total * g0))
+            best = _Best(full_key, c.combo, ballast, res, _thrust_to_weight(c.combo[0], total))
         else:
             rejected["worse_than_best"] += 1
+    return best, status
 
-    rej = MappingProxyType({r: int(rejected.get(r, 0)) for r in REJECT_REASONS})
-    if best is None:
-        msg = (f"no stack of {len(stages)} stage(s) from {len(motors)} motors reaches "
-               f"{target_apogee_m:g} m within the limits; rejected: "
-               + ", ".join(f"{k} {v}" for k, v in rej.items() if v))
-        if status == "max_simulations":
-            msg += f"; stopped after {n_sim} simulations (raise max_simulations)"
-        return HobbyStackResult(
-            False, "infeasible" if status == "optimal" else status, msg, objective, (), float(payload_mass_kg),
-            0.0, math.nan, None, float(target_apogee_m), math.nan, math.nan, math.nan, math.nan,
-            MappingProxyType({}), rej, n_comb, n_sim, method,
-        )
-    full_key, combo, ballast, res, tw = best
+
+def _infeasible_result(status: str, *, n_stages: int, n_motors: int, target_apogee_m: float,
+                       rejected: Mapping[str, int], n_comb: int, n_sim: int, method: str, objective: str,
+                       payload_mass_kg: float) -> HobbyStackResult:
+    """The result when no combination met every limit: the rejection counts say why."""
+    msg = (f"no stack of {n_stages} stage(s) from {n_motors} motors reaches "
+           f"{target_apogee_m:g} m within the limits; rejected: "
+           + ", ".join(f"{k} {v}" for k, v in rejected.items() if v))
+    if status == "max_simulations":
+        msg += f"; stopped after {n_sim} simulations (raise max_simulations)"
+    return HobbyStackResult(
+        False, "infeasible" if status == "optimal" else status, msg, objective, (), float(payload_mass_kg),
+        0.0, math.nan, None, float(target_apogee_m), math.nan, math.nan, math.nan, math.nan,
+        MappingProxyType({}), rejected, n_comb, n_sim, method,
+    )
+
+
+def _found_result(best: _Best, status: str, *, stages: tuple[StackStage, ...], site: LaunchSite,
+                  limits: _Limits, max_simulations: int, rejected: Mapping[str, int], n_comb: int, n_sim: int,
+                  method: str, objective: str, payload_mass_kg: float) -> HobbyStackResult:
+    """The result of the best stack: stage choices, masses [kg], flight values and margins.
+
+    Margins are positive when met: apogee - target [m], T/W - minimum [-],
+    rail-exit speed - minimum [m/s] (nan without a rail) and, with a limit,
+    limit - max acceleration [m/s^2].
+    """
+    combo = best.combo
     choices = tuple(
         StageChoice(s.name, m.name, m.impulse_class, m.designation, m.total_impulse_n_s, s.airframe_mass_kg,
                     m.loaded_mass_kg, s.airframe_mass_kg + m.loaded_mass_kg, m.cost)
         for m, s in zip(combo, stages)
     )
     cost = None if any(m.cost is None for m in combo) else float(sum(m.cost for m in combo))
+    res = best.flown
     apogee = res.apogee_m
     rail = res.rail_exit_speed_m_s if site.rail_length_m > 0 else math.nan
     acc = res.max_acceleration_m_s2
     margins = {
-        "apogee_m": apogee - target_apogee_m,
-        "thrust_to_weight": tw - min_thrust_to_weight,
-        "rail_exit_speed_m_s": rail - min_rail_exit_speed_m_s,
+        "apogee_m": apogee - limits.target_apogee_m,
+        "thrust_to_weight": best.thrust_to_weight - limits.min_thrust_to_weight,
+        "rail_exit_speed_m_s": rail - limits.min_rail_exit_speed_m_s,
     }
-    if max_acceleration_m_s2 is not None:
-        margins["max_acceleration_m_s2"] = max_acceleration_m_s2 - acc
+    if limits.max_acceleration_m_s2 is not None:
+        margins["max_acceleration_m_s2"] = limits.max_acceleration_m_s2 - acc
     msg = ("optimum over the motor list" if status == "optimal"
            else f"best found before the cap of {max_simulations} simulations (not proven optimal)")
     return HobbyStackResult(
-        True, status, msg, objective, choices, float(payload_mass_kg), float(ballast),
-        float(payload_mass_kg + ballast + sum(c.stage_mass_kg for c in choices)), cost,
-        float(target_apogee_m), apogee, tw, rail, acc, MappingProxyType(margins), rej, n_comb, n_sim, method,
+        True, status, msg, objective, choices, float(payload_mass_kg), float(best.ballast_kg),
+        float(payload_mass_kg + best.ballast_kg + sum(c.stage_mass_kg for c in choices)), cost,
+        float(limits.target_apogee_m), apogee, best.thrust_to_weight, rail, acc, MappingProxyType(margins),
+        rejected, n_comb, n_sim, method,
     )
 
 
-def _evaluate(combo, m0, simulate, *, target_apogee_m, min_tw, min_rail, max_acc, match, tol, b0=0.0):
+def _evaluate(combo, m0, simulate, limits: _Limits, *, b0=0.0):
     """Fly one combination, adding nose ballast when the limits call for it.
 
-    `b0` is the least ballast (stability); every ballast found is at least b0.
-    Returns (reason or None, ballast_kg, flight result).
+    `simulate(combo, ballast_kg)` flies it (a `_StackFlights`); `limits` are
+    the search's limits. `b0` is the least ballast (stability); every ballast
+    found is at least b0. Returns (reason or None, ballast_kg, flight result).
     """
+    target_apogee_m = limits.target_apogee_m
+    min_tw = limits.min_thrust_to_weight
+    min_rail = limits.min_rail_exit_speed_m_s
+    max_acc = limits.max_acceleration_m_s2
+    match = limits.match_target
+    tol = limits.apogee_tolerance_m
     g0 = G0_M_S2
     # the most ballast the thrust-to-weight minimum allows
     b_max = combo[0].average_thrust_n / (min_tw * g0) - m0

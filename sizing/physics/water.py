@@ -129,6 +129,34 @@ def _pos(value, name: str, *, zero_ok: bool = False) -> float:
     return _check_positive(value, name, allow_zero=zero_ok)
 
 
+def _circle_area_m2(diameter_m: float) -> float:
+    """Area of a circle, pi d^2 / 4 [m^2], of a diameter [m]."""
+    return 0.25 * math.pi * diameter_m**2
+
+
+def _air_mass_kg(pressure_pa, volume_m3, temperature_k):
+    """Mass of air, ideal gas m = p V / (R T) [kg], of pressure [Pa], volume [m^3], temperature [K]."""
+    return pressure_pa * volume_m3 / (R_AIR_J_KG_K * temperature_k)
+
+
+def _polytropic_temperature_k(ref_temperature_k, pressure_pa, ref_pressure_pa, exponent):
+    """Gas temperature after a polytropic change p V^n = const [K].
+
+    T = T_ref (p / p_ref)^((n - 1) / n), the perfect-gas polytropic relation
+    (with n = gamma the isentropic relation of Anderson, Modern Compressible
+    Flow, 3rd ed., 2003, cited in the module notes). Accepts floats or numpy
+    arrays of pressure [Pa].
+    """
+    return ref_temperature_k * (pressure_pa / ref_pressure_pa) ** ((exponent - 1) / exponent)
+
+
+def _with_last(values: np.ndarray, last: float) -> np.ndarray:
+    """A copy of `values` whose last element is `last` (a phase's end point)."""
+    out = values.copy()
+    out[-1] = last
+    return out
+
+
 @dataclass(frozen=True, slots=True)
 class WaterStage:
     """A compressed-air water stage (bottle, water, air, nozzle), SI units.
@@ -266,12 +294,12 @@ class WaterStage:
     @property
     def nozzle_area_m2(self) -> float:
         """pi d^2 / 4 of the nozzle [m^2]."""
-        return 0.25 * math.pi * self.nozzle_throat_diameter_m**2
+        return _circle_area_m2(self.nozzle_throat_diameter_m)
 
     def air_mass_kg(self, ambient_pressure_pa: float = P0_PA) -> float:
         """Air in the bottle at launch, ideal gas p V / (R T) [kg]."""
         p0 = ambient_pressure_pa + self.initial_gauge_pressure_pa
-        return p0 * (self.bottle_volume_m3 - self.water_volume_m3) / (R_AIR_J_KG_K * self.air_temperature_k)
+        return _air_mass_kg(p0, self.bottle_volume_m3 - self.water_volume_m3, self.air_temperature_k)
 
     def launch_mass_kg(self, ambient_pressure_pa: float = P0_PA) -> float:
         """Dry mass + water + air at launch [kg]."""
@@ -397,87 +425,189 @@ def simulate_water_thrust(
     Methods as in the module docstring: quasi-steady Bernoulli water jet with
     polytropic air expansion (Kagan, Buchholz & Klein 1995), then isentropic
     convergent-nozzle blow-down of the air (Anderson, Modern Compressible Flow).
+    The phases are `_launch_tube_phase`, `_water_phase` and `_air_phase`.
     """
     pa = _pos(ambient_pressure_pa, "ambient_pressure")
     m_above = _pos(mass_above_kg, "mass_above", zero_ok=True)
-    n = stage.polytropic_exponent
-    rho = RHO_WATER_KG_M3
-    r = R_AIR_J_KG_K
-    vb = stage.bottle_volume_m3
-    vw0 = stage.water_volume_m3
-    va0 = vb - vw0
     p0 = pa + stage.initial_gauge_pressure_pa
-    t0k = stage.air_temperature_k
-    a_e = stage.nozzle_area_m2
-    mw0 = rho * vw0
-    ma0 = p0 * va0 / (r * t0k)
-
-    seg_t: list[np.ndarray] = []
-    seg_f: list[np.ndarray] = []
-    seg_p: list[np.ndarray] = []
-    seg_mw: list[np.ndarray] = []
-    seg_ma: list[np.ndarray] = []
-    t_now = 0.0
+    phases: list[_Phase] = []
     p_start = p0
     v_exit = 0.0
-
-    # ---- 1. launch tube ----------------------------------------------------
+    tube_end = 0.0
     if stage.launch_tube_length_m > 0:
-        a_t = 0.25 * math.pi * stage.launch_tube_diameter_m**2
-        lt = stage.launch_tube_length_m
-        m_tot = stage.dry_mass_kg + mw0 + ma0 + m_above
-        if (p0 - pa) * a_t <= m_tot * g_m_s2:
-            raise CannotLiftOffError(
-                f"stages.{stage.name}.launch_tube_diameter",
-                f"cannot lift off: the tube force (p - p_a) A_t = {(p0 - pa) * a_t:.3g} N must exceed the "
-                f"weight {m_tot * g_m_s2:.3g} N; widen the tube, raise the pressure or lighten the rocket.",
-            )
-        # Energy along the stroke: 1/2 m v^2 = W_gas(x) - m g x, with the polytropic work
-        # W_gas(x) = integral_0^x (p(x') - p_a) A_t dx'. Time by quadrature dt = dx / v.
-        s = np.linspace(0.0, 1.0, _N_TUBE)
-        x = lt * s**2  # dense near x = 0 where v -> 0 like sqrt(x)
-        vol = va0 + a_t * x
-        p = p0 * (va0 / vol) ** n
-        if abs(n - 1.0) < 1e-12:
-            work = p0 * va0 * np.log(vol / va0) - pa * a_t * x
-        else:
-            work = p0 * va0 / (n - 1) * (1 - (va0 / vol) ** (n - 1)) - pa * a_t * x
-        v2 = 2 * (work - m_tot * g_m_s2 * x) / m_tot
-        if not np.all(v2[1:] > 0.0):
-            stall = float(x[1:][v2[1:] <= 0.0][0])
-            raise CannotLiftOffError(
-                f"stages.{stage.name}.launch_tube_length",
-                f"cannot lift off: the rocket stalls {stall * 1e3:.0f} mm up the "
-                f"{lt * 1e3:.0f} mm launch tube (the gas work falls below the lift); raise the pressure, "
-                "shorten or widen the tube, or lighten the rocket.",
-            )
-        v = np.sqrt(v2)
-        # dt/ds = (dx/ds) / v; near s=0, x = lt s^2 and v ~ sqrt(2 a0 x) so dt/ds -> 2 sqrt(lt / (2 a0))
-        a0 = (p0 - pa) * a_t / m_tot - g_m_s2
-        dtds = np.empty_like(s)
-        dtds[1:] = 2 * lt * s[1:] / v[1:]
-        dtds[0] = 2.0 * math.sqrt(lt / (2.0 * a0))
-        t = cumulative_trapezoid(dtds, s, initial=0.0)
-        tk = t0k * (p / p0) ** ((n - 1) / n)
-        seg_t.append(t)
-        seg_f.append((p - pa) * a_t)
-        seg_p.append(p - pa)
-        seg_mw.append(np.full_like(t, mw0))
-        seg_ma.append(p * va0 / (r * tk))
-        t_now = float(t[-1])
-        p_start = float(p[-1])
-        v_exit = float(v[-1])
-    tube_end = t_now
+        tube, p_start, v_exit = _launch_tube_phase(stage, ambient_pressure_pa=pa, mass_above_kg=m_above,
+                                                   g_m_s2=g_m_s2)
+        phases.append(tube)
+        tube_end = float(tube.times_s[-1])
+    t_start_k = _polytropic_temperature_k(stage.air_temperature_k, p_start, p0, stage.polytropic_exponent)
+    water, p1, ran_out = _water_phase(stage, start_pressure_pa=p_start, start_temperature_k=t_start_k,
+                                      ambient_pressure_pa=pa, start_s=tube_end, after_tube=bool(phases))
+    water_end = float(water.times_s[-1])
+    end = water_end
+    if ran_out and p1 > pa * (1 + 1e-9):
+        phases.append(water)
+        t1k = _polytropic_temperature_k(t_start_k, p1, p_start, stage.polytropic_exponent)
+        air = _air_phase(stage, start_pressure_pa=p1, start_temperature_k=t1k, ambient_pressure_pa=pa,
+                         start_s=water_end)
+        phases.append(air)
+        end = float(air.times_s[-1])
+    else:
+        phases.append(_Phase(water.times_s, _with_last(water.thrust_n, 0.0), water.gauge_pressure_pa,
+                             water.water_mass_kg, water.air_mass_kg))
+    return WaterThrust(
+        times_s=np.concatenate([ph.times_s for ph in phases]),
+        thrust_n=np.concatenate([ph.thrust_n for ph in phases]),
+        gauge_pressure_pa=np.concatenate([ph.gauge_pressure_pa for ph in phases]),
+        water_mass_kg=np.concatenate([ph.water_mass_kg for ph in phases]),
+        air_mass_kg=np.concatenate([ph.air_mass_kg for ph in phases]),
+        tube_end_s=tube_end,
+        water_end_s=water_end,
+        end_s=end,
+        tube_exit_speed_m_s=v_exit,
+        water_ran_out=bool(ran_out),
+    )
 
-    # ---- 2. water ------------------------------------------------------------
-    t_start_k = t0k * (p_start / p0) ** ((n - 1) / n)
-    ma_w = p_start * va0 / (r * t_start_k)  # air in the bottle during the water phase
+
+@dataclass(frozen=True, slots=True)
+class _Phase:
+    """One thrust phase on its own grid; the fields match `WaterThrust` (time since release [s],
+    thrust [N], bottle gauge pressure [Pa], water and air in the bottle [kg])."""
+
+    times_s: np.ndarray
+    thrust_n: np.ndarray
+    gauge_pressure_pa: np.ndarray
+    water_mass_kg: np.ndarray
+    air_mass_kg: np.ndarray
+
+
+def _launch_tube_phase(
+    stage: WaterStage, *, ambient_pressure_pa: float, mass_above_kg: float, g_m_s2: float,
+) -> tuple[_Phase, float, float]:
+    """Phase 1: the rocket rides up its launch tube, driven by the air on the tube section.
+
+    Work-energy along the stroke x: 1/2 m v^2 = W_gas(x) - m g x, with the
+    polytropic work W_gas(x) = integral_0^x (p(x') - p_a) A_t dx' and
+    p (V_a0 + A_t x)^n = const (closed form; logarithmic for n = 1); time by
+    the quadrature dt = dx / v on a grid x = L_t s^2, dense near x = 0 where
+    v grows like sqrt(x). No water leaves; the air that followed into the tube
+    stays behind.
+
+    Parameters
+    ----------
+    stage : WaterStage
+        With ``launch_tube_length_m > 0``.
+    ambient_pressure_pa : float
+        Outside pressure p_a [Pa].
+    mass_above_kg : float
+        Mass carried by the stage [kg].
+    g_m_s2 : float
+        Gravity on the tube [m/s^2].
+
+    Returns
+    -------
+    phase : _Phase
+        Starting at t = 0.
+    end_pressure_pa : float
+        Absolute bottle pressure when the rocket leaves the tube [Pa].
+    exit_speed_m_s : float
+        Speed when leaving the tube [m/s].
+
+    Raises
+    ------
+    CannotLiftOffError
+        The tube force at release is not above the weight, or the rocket
+        stalls part-way up the tube.
+    """
+    pa = ambient_pressure_pa
+    n = stage.polytropic_exponent
+    va0 = stage.bottle_volume_m3 - stage.water_volume_m3
+    p0 = pa + stage.initial_gauge_pressure_pa
+    a_t = _circle_area_m2(stage.launch_tube_diameter_m)
+    lt = stage.launch_tube_length_m
+    m_tot = stage.launch_mass_kg(pa) + mass_above_kg
+    if (p0 - pa) * a_t <= m_tot * g_m_s2:
+        raise CannotLiftOffError(
+            f"stages.{stage.name}.launch_tube_diameter",
+            f"cannot lift off: the tube force (p - p_a) A_t = {(p0 - pa) * a_t:.3g} N must exceed the "
+            f"weight {m_tot * g_m_s2:.3g} N; widen the tube, raise the pressure or lighten the rocket.",
+        )
+    s = np.linspace(0.0, 1.0, _N_TUBE)
+    x = lt * s**2  # dense near x = 0 where v -> 0 like sqrt(x)
+    vol = va0 + a_t * x
+    p = p0 * (va0 / vol) ** n
+    if abs(n - 1.0) < 1e-12:
+        work = p0 * va0 * np.log(vol / va0) - pa * a_t * x
+    else:
+        work = p0 * va0 / (n - 1) * (1 - (va0 / vol) ** (n - 1)) - pa * a_t * x
+    v2 = 2 * (work - m_tot * g_m_s2 * x) / m_tot
+    if not np.all(v2[1:] > 0.0):
+        stall = float(x[1:][v2[1:] <= 0.0][0])
+        raise CannotLiftOffError(
+            f"stages.{stage.name}.launch_tube_length",
+            f"cannot lift off: the rocket stalls {stall * 1e3:.0f} mm up the "
+            f"{lt * 1e3:.0f} mm launch tube (the gas work falls below the lift); raise the pressure, "
+            "shorten or widen the tube, or lighten the rocket.",
+        )
+    v = np.sqrt(v2)
+    # dt/ds = (dx/ds) / v; near s=0, x = lt s^2 and v ~ sqrt(2 a0 x) so dt/ds -> 2 sqrt(lt / (2 a0))
+    a0 = (p0 - pa) * a_t / m_tot - g_m_s2
+    dtds = np.empty_like(s)
+    dtds[1:] = 2 * lt * s[1:] / v[1:]
+    dtds[0] = 2.0 * math.sqrt(lt / (2.0 * a0))
+    t = cumulative_trapezoid(dtds, s, initial=0.0)
+    tk = _polytropic_temperature_k(stage.air_temperature_k, p, p0, n)
+    phase = _Phase(t, (p - pa) * a_t, p - pa, np.full_like(t, stage.water_mass_kg), _air_mass_kg(p, va0, tk))
+    return phase, float(p[-1]), float(v[-1])
+
+
+def _water_phase(
+    stage: WaterStage, *, start_pressure_pa: float, start_temperature_k: float, ambient_pressure_pa: float,
+    start_s: float, after_tube: bool,
+) -> tuple[_Phase, float, bool]:
+    """Phase 2: water expelled through the nozzle by the expanding air.
+
+    Quasi-steady incompressible Bernoulli jet u = sqrt(2 (p - p_a) / rho_w),
+    thrust F = 2 (p - p_a) A_e, air p V^n = const (Kagan, Buchholz & Klein,
+    The Physics Teacher 33, 1995). Time t = integral dV / (A_e u) on an air
+    volume grid stretched towards the end, V = V_end - (V_end - V_a0)(1 - s)^2;
+    when the air reaches ambient pressure first, the finite limit of dt/ds at
+    the end is used (p - p_a ~ (n p_a / V_end)(V_end - V)).
+
+    Parameters
+    ----------
+    stage : WaterStage
+    start_pressure_pa, start_temperature_k : float
+        Absolute air pressure [Pa] and temperature [K] at the start (after the tube).
+    ambient_pressure_pa : float
+        Outside pressure p_a [Pa].
+    start_s : float
+        Time at the start of the phase [s].
+    after_tube : bool
+        The phase follows a launch tube: its times are shifted by `_JUMP_S`
+        to represent the thrust jump.
+
+    Returns
+    -------
+    phase : _Phase
+    end_pressure_pa : float
+        Absolute air pressure at the end [Pa].
+    water_ran_out : bool
+        True when all water left before the air fell to ambient pressure.
+    """
+    pa = ambient_pressure_pa
+    p_start = start_pressure_pa
+    n = stage.polytropic_exponent
+    rho = RHO_WATER_KG_M3
+    vb = stage.bottle_volume_m3
+    va0 = vb - stage.water_volume_m3
+    a_e = stage.nozzle_area_m2
+    ma_w = _air_mass_kg(p_start, va0, start_temperature_k)  # air in the bottle during the water phase
     v_pa = va0 * (p_start / pa) ** (1.0 / n)  # air volume at which p falls to ambient
     ran_out = v_pa > vb
     v_end = vb if ran_out else v_pa
     s = np.linspace(0.0, 1.0, _N_WATER)
     w = 1.0 - s
-    vol = v_end - (v_end - va0) * w * w
+    vol = _stretched_to_end(va0, v_end, w)
     p = p_start * (va0 / vol) ** n
     dp = np.maximum(p - pa, 0.0)
     u = np.sqrt(2.0 * dp / rho)
@@ -490,60 +620,65 @@ def simulate_water_thrust(
         # limit s -> 1: p - p_a ~ (n p_a / v_end)(v_end - vol), so dt/ds -> finite value
         k = n * pa / v_end
         dtds[-1] = 2.0 * (v_end - va0) / (a_e * math.sqrt(2.0 * k * (v_end - va0) / rho))
-    t = t_now + cumulative_trapezoid(dtds, s, initial=0.0)
-    if seg_t:
+    t = start_s + cumulative_trapezoid(dtds, s, initial=0.0)
+    if after_tube:
         t = t + _JUMP_S
-    seg_t.append(t)
-    seg_f.append(2.0 * dp * a_e)
-    seg_p.append(p - pa)
-    seg_mw.append(rho * (vb - vol))
-    seg_ma.append(np.full_like(t, ma_w))
-    t_now = float(t[-1])
-    water_end = t_now
+    phase = _Phase(t, 2.0 * dp * a_e, p - pa, rho * (vb - vol), np.full_like(t, ma_w))
+    return phase, float(p[-1]), ran_out
 
-    # ---- 3. air ------------------------------------------------------------------
-    p1 = float(p[-1])
-    if ran_out and p1 > pa * (1 + 1e-9):
-        t1k = t_start_k * (p1 / p_start) ** ((n - 1) / n)
-        m1 = p1 * vb / (r * t1k)
-        g = GAMMA_AIR
-        m_end = m1 * (pa / p1) ** (1.0 / g)
-        s = np.linspace(0.0, 1.0, _N_AIR)
-        w = 1.0 - s
-        m = m_end + (m1 - m_end) * w * w
-        # evaluate the last node slightly before the end: 0/0 limit there
-        w_eval = np.maximum(w, 1e-3 / _N_AIR)
-        m_eval = m_end + (m1 - m_end) * w_eval * w_eval
-        pp = p1 * (m_eval / m1) ** g
-        tt = t1k * (pp / p1) ** ((g - 1) / g)
-        mdot, thrust = _air_blowdown_state(pp, tt, a_e, pa)
-        dtds = 2.0 * (m1 - m_end) * w_eval / mdot
-        t = t_now + _JUMP_S + cumulative_trapezoid(dtds, s, initial=0.0)
-        thrust = thrust.copy()
-        thrust[-1] = 0.0
-        pp = pp.copy()
-        pp[-1] = pa
-        seg_t.append(t)
-        seg_f.append(thrust)
-        seg_p.append(pp - pa)
-        seg_mw.append(np.zeros_like(t))
-        seg_ma.append(m)
-        t_now = float(t[-1])
-    else:
-        seg_f[-1] = seg_f[-1].copy()
-        seg_f[-1][-1] = 0.0
-    return WaterThrust(
-        times_s=np.concatenate(seg_t),
-        thrust_n=np.concatenate(seg_f),
-        gauge_pressure_pa=np.concatenate(seg_p),
-        water_mass_kg=np.concatenate(seg_mw),
-        air_mass_kg=np.concatenate(seg_ma),
-        tube_end_s=tube_end,
-        water_end_s=water_end,
-        end_s=t_now,
-        tube_exit_speed_m_s=v_exit,
-        water_ran_out=bool(ran_out),
-    )
+
+def _air_phase(
+    stage: WaterStage, *, start_pressure_pa: float, start_temperature_k: float, ambient_pressure_pa: float,
+    start_s: float,
+) -> _Phase:
+    """Phase 3: blow-down of the air left in the full bottle volume through the nozzle.
+
+    The gas in the bottle expands isentropically (gamma = 1.4) from p_1 to
+    p_a: m = p V / (R T) with p ~ m^gamma, so the mass left at ambient is
+    m_end = m_1 (p_a / p_1)^(1/gamma). Flow and thrust from
+    `_air_blowdown_state` (convergent nozzle, Anderson, Modern Compressible
+    Flow, 3rd ed., ch. 5); time t = integral dm / mdot on a mass grid
+    stretched towards the end, the last node evaluated slightly before the
+    end (the 0/0 limit there). The phase starts `_JUMP_S` after `start_s`.
+
+    Parameters
+    ----------
+    stage : WaterStage
+    start_pressure_pa, start_temperature_k : float
+        Absolute air pressure [Pa], above p_a, and temperature [K] when the water is gone.
+    ambient_pressure_pa : float
+        Outside pressure p_a [Pa].
+    start_s : float
+        End of the water phase [s].
+
+    Returns
+    -------
+    _Phase
+        Ending at thrust 0 and ambient pressure, with no water.
+    """
+    pa = ambient_pressure_pa
+    p1 = start_pressure_pa
+    t1k = start_temperature_k
+    g = GAMMA_AIR
+    m1 = _air_mass_kg(p1, stage.bottle_volume_m3, t1k)
+    m_end = m1 * (pa / p1) ** (1.0 / g)
+    s = np.linspace(0.0, 1.0, _N_AIR)
+    w = 1.0 - s
+    m = _stretched_to_end(m1, m_end, w)
+    # evaluate the last node slightly before the end: 0/0 limit there
+    w_eval = np.maximum(w, 1e-3 / _N_AIR)
+    m_eval = _stretched_to_end(m1, m_end, w_eval)
+    pp = p1 * (m_eval / m1) ** g
+    tt = _polytropic_temperature_k(t1k, pp, p1, g)
+    mdot, thrust = _air_blowdown_state(pp, tt, stage.nozzle_area_m2, pa)
+    dtds = 2.0 * (m1 - m_end) * w_eval / mdot
+    t = start_s + _JUMP_S + cumulative_trapezoid(dtds, s, initial=0.0)
+    return _Phase(t, _with_last(thrust, 0.0), _with_last(pp, pa) - pa, np.zeros_like(t), m)
+
+
+def _stretched_to_end(start, end, w):
+    """Grid from `start` (w = 1) to `end` (w = 0), end - (end - start) w^2: dense near the end."""
+    return end - (end - start) * w * w
 
 
 # ---------------------------------------------------------------- flight stages
@@ -578,8 +713,7 @@ def water_flight_stage(
     thr = simulate_water_thrust(stage, mass_above_kg=mass_above_kg, ambient_pressure_pa=ambient_pressure_pa)
     prop = thr.propellant_mass_kg
     mp = float(prop[0])
-    prop = prop.copy()
-    prop[-1] = 0.0
+    prop = _with_last(prop, 0.0)
     impulse = thr.total_impulse_n_s
     return FlightStage(
         stage.name,

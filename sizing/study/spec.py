@@ -457,6 +457,11 @@ def study_from_dict(data: Mapping[str, Any], *, source: str = "<dict>",
                     base_dir: str | Path | None = None) -> Study:
     """Validate a raw study structure (as read from TOML) and build a `Study`.
 
+    The checks run in a fixed order (base problem, propellant choices,
+    propellant table, stage counts, axes, sampling design, objectives,
+    constraints) and every fault is collected, so the error names them all
+    at once, in that order.
+
     Parameters
     ----------
     data : mapping
@@ -475,35 +480,75 @@ def study_from_dict(data: Mapping[str, Any], *, source: str = "<dict>",
     except ValidationError as exc:
         raise StudyDefinitionError(source, _render(exc, data)) from None
     faults: list[str] = []
+    base, base_text = _read_base(spec, source=source, base_dir=base_dir, faults=faults)
+    stages = base.get("stage") if isinstance(base.get("stage"), list) else []
+    stage_names = [s.get("name") if isinstance(s, dict) else None for s in stages]
+    _check_propellant_choices(spec, stage_names, faults)
+    _check_propellant_table(spec, faults)
+    _check_stage_counts(spec, len(stages), faults)
+    _check_axes(spec, stage_names, faults)
+    _check_sampling_design(spec, faults)
+    objectives = _resolve_objectives(spec, stages, faults)
+    bounds = _resolve_bounds(spec.constraints, faults)
+    if faults:
+        raise StudyDefinitionError(source, faults)
+    raw = copy.deepcopy(dict(data))
+    fp = hashlib.sha256(_canonical({"study": raw, "base": base_text}).encode()).hexdigest()
+    return Study(source=source, spec=spec, base=base, objectives=tuple(objectives),
+                 bounds=tuple(bounds), fingerprint=fp, raw=raw)
 
-    # -- base problem
+
+def _read_base(spec: StudyFile, *, source: str, base_dir: str | Path | None,
+               faults: list[str]) -> tuple[dict[str, Any], str | None]:
+    """The base problem's raw structure, from ``[base].problem`` or the inline tables.
+
+    Parameters
+    ----------
+    spec : StudyFile
+        The validated study file.
+    source : str
+        Study file named in error messages.
+    base_dir : str or Path or None
+        Folder against which ``[base].problem`` is resolved (None: cwd).
+    faults : list of str
+        Appended to: giving both a path and inline tables, or neither.
+
+    Returns
+    -------
+    base : dict
+        Raw base problem structure (a copy of the inline tables, or the file read).
+    base_text : str or None
+        Canonical text of the base file for the fingerprint; None for inline tables.
+
+    Raises
+    ------
+    StudyDefinitionError
+        When the base problem file cannot be read: nothing else can be checked
+        without it, so this one line stops the validation.
+    """
     inline = dict(spec.base.model_extra or {})
-    base: dict[str, Any] = {}
-    base_text = None
-    if spec.base.problem is not None:
-        if inline:
-            faults.append(f"base: give problem = \"path\" or inline tables, not both. "
-                          f"Got problem and {', '.join(sorted(inline))}.")
-        ppath = Path(base_dir or ".") / spec.base.problem
-        try:
-            from ..problem.load import read_toml
-
-            base = read_toml(ppath)
-            base_text = _canonical(base)
-        except ProblemDefinitionError as exc:
-            # nothing else can be checked without the base problem: stop at this one line
-            raise StudyDefinitionError(source, [f"base.problem: cannot read {spec.base.problem!r} "
-                                                f"(relative to the study file): " + "; ".join(exc.faults)]
-                                       ) from None
-    else:
+    if spec.base.problem is None:
         if not inline:
             faults.append("base: give problem = \"path/to/problem.toml\" or inline "
                           "[base.mission] and [[base.stage]] tables.")
-        base = copy.deepcopy(inline)
-    stages = base.get("stage") if isinstance(base.get("stage"), list) else []
-    stage_names = [s.get("name") if isinstance(s, dict) else None for s in stages]
+        return copy.deepcopy(inline), None
+    if inline:
+        faults.append(f"base: give problem = \"path\" or inline tables, not both. "
+                      f"Got problem and {', '.join(sorted(inline))}.")
+    ppath = Path(base_dir or ".") / spec.base.problem
+    try:
+        from ..problem.load import read_toml
 
-    # -- propellants and choices
+        base = read_toml(ppath)
+    except ProblemDefinitionError as exc:
+        raise StudyDefinitionError(source, [f"base.problem: cannot read {spec.base.problem!r} "
+                                            f"(relative to the study file): " + "; ".join(exc.faults)]
+                                   ) from None
+    return base, _canonical(base)
+
+
+def _check_propellant_choices(spec: StudyFile, stage_names: list[str | None], faults: list[str]) -> None:
+    """``[choices].propellant``: known stages, at least one option each, options in ``[propellants]``."""
     for sname, options in spec.choices.propellant.items():
         if sname not in stage_names:
             faults.append(f"choices.propellant.{sname}: {MSG_UNKNOWN_STAGE}. Got {sname!r}; "
@@ -514,16 +559,44 @@ def study_from_dict(data: Mapping[str, Any], *, source: str = "<dict>",
             if opt not in spec.propellants:
                 faults.append(f"choices.propellant.{sname}: {opt!r} {MSG_UNKNOWN_PROPELLANT} "
                               f"(defined: {', '.join(sorted(spec.propellants)) or 'none'}).")
+
+
+def _positive_si(value: Any, kind: str, unit_text: str = "") -> float:
+    """`value` converted to SI by `sizing.units.to_si`, required > 0.
+
+    Parameters
+    ----------
+    value : float or str
+        A number in SI or a quantity string such as ``"300 s"``.
+    kind : str
+        Unit kind for `to_si` (``"time"``, ``"velocity"``, ``"mass"``, ...).
+    unit_text : str
+        Shown after ``must be > 0`` in the message, e.g. ``" s"``.
+
+    Returns
+    -------
+    float
+        The value in SI [unit of `kind`], > 0.
+
+    Raises
+    ------
+    ValueError
+        Wrong dimension or not a quantity (from `to_si`), or <= 0.
+    """
+    v = to_si(value, kind)
+    if v <= 0:
+        raise ValueError(f"must be > 0{unit_text}. Got {value!r}.")
+    return v
+
+
+def _check_propellant_table(spec: StudyFile, faults: list[str]) -> None:
+    """``[propellants.NAME]``: Isp [s] or exhaust velocity [m/s] > 0, structural coefficient in (0, 1)."""
     for k, prop in spec.propellants.items():
         try:
             if prop.isp is not None:
-                v = to_si(prop.isp, "time")
-                if v <= 0:
-                    raise ValueError(f"must be > 0 s. Got {prop.isp!r}.")
+                _positive_si(prop.isp, "time", " s")
             else:
-                v = to_si(prop.exhaust_velocity, "velocity")  # type: ignore[arg-type]
-                if v <= 0:
-                    raise ValueError(f"must be > 0 m/s. Got {prop.exhaust_velocity!r}.")
+                _positive_si(prop.exhaust_velocity, "velocity", " m/s")
         except ValueError as exc:
             faults.append(f"propellants.{k}.{'isp' if prop.isp is not None else 'exhaust_velocity'}: {exc}")
         try:
@@ -532,22 +605,34 @@ def study_from_dict(data: Mapping[str, Any], *, source: str = "<dict>",
                 raise ValueError(f"must be in (0, 1). Got {prop.structural_coefficient!r}.")
         except ValueError as exc:
             faults.append(f"propellants.{k}.structural_coefficient: {exc}")
-    if spec.choices.stage_count is not None:
-        for n in spec.choices.stage_count:
-            if not 1 <= n <= len(stages):
-                faults.append(f"choices.stage_count: each count must be in [1, {len(stages)}] "
-                              f"(the base problem defines {len(stages)} stages, bottom first; "
-                              f"a count k uses the first k). Got {n}.")
 
-    # -- axes
+
+def _check_stage_counts(spec: StudyFile, n_stages: int, faults: list[str]) -> None:
+    """``[choices].stage_count``: each count k in [1, stages of the base problem] (the first k are used)."""
+    if spec.choices.stage_count is None:
+        return
+    for n in spec.choices.stage_count:
+        if not 1 <= n <= n_stages:
+            faults.append(f"choices.stage_count: each count must be in [1, {n_stages}] "
+                          f"(the base problem defines {n_stages} stages, bottom first; "
+                          f"a count k uses the first k). Got {n}.")
+
+
+def _is_field_path(parts: list[str]) -> bool:
+    """True for 'TABLE.key', 'stage.NAME.key' or 'stage.NAME.structure.key' with no empty part."""
+    ok = len(parts) == 2 and parts[0] in _ALLOWED_TABLES and parts[0] != "stage"
+    ok = ok or (len(parts) == 3 and parts[0] == "stage")
+    ok = ok or (len(parts) == 4 and parts[0] == "stage" and parts[2] == "structure")  # stage model keys
+    return ok and all(parts)
+
+
+def _check_axes(spec: StudyFile, stage_names: list[str | None], faults: list[str]) -> None:
+    """``[[axis]]``: a valid field path on a known stage, each field once, sampled axes with a design."""
     labels: set[str] = set()
     for i, ax in enumerate(spec.axis):
         where = f"axis[{i + 1}].field"
         parts = ax.field.split(".")
-        ok = len(parts) == 2 and parts[0] in _ALLOWED_TABLES and parts[0] != "stage"
-        ok = ok or (len(parts) == 3 and parts[0] == "stage")
-        ok = ok or (len(parts) == 4 and parts[0] == "stage" and parts[2] == "structure")  # stage model keys
-        if not ok or not all(parts):
+        if not _is_field_path(parts):
             faults.append(f"{where}: {MSG_FIELD_PATH}; TABLE is one of "
                           f"{', '.join(_ALLOWED_TABLES)}. Got {ax.field!r}.")
             continue
@@ -561,16 +646,26 @@ def study_from_dict(data: Mapping[str, Any], *, source: str = "<dict>",
         if ax.is_sampled and spec.study.design == "grid" and ax.levels is None:
             faults.append(f"axis[{i + 1}]: {MSG_SAMPLED_NEEDS_METHOD}. Got low = {ax.low:g}, "
                           f"high = {ax.high:g} with design = 'grid'.")
-    n_sampled = sum(ax.is_sampled for ax in spec.axis)
-    if spec.study.design != "grid":
-        if n_sampled == 0:
-            faults.append(f"study.design: {spec.study.design!r} samples the low/high axes, and there "
-                          f"are none. Give an axis low/high or use design = 'grid'.")
-        if spec.study.samples is None:
-            faults.append(f"study.samples: required with design = {spec.study.design!r} "
-                          f"(number of points drawn over the low/high axes).")
 
-    # -- objectives and constraints
+
+def _check_sampling_design(spec: StudyFile, faults: list[str]) -> None:
+    """``[study].design`` 'lhs' or 'sobol': needs low/high axes and a number of samples."""
+    if spec.study.design == "grid":
+        return
+    if not any(ax.is_sampled for ax in spec.axis):
+        faults.append(f"study.design: {spec.study.design!r} samples the low/high axes, and there "
+                      f"are none. Give an axis low/high or use design = 'grid'.")
+    if spec.study.samples is None:
+        faults.append(f"study.samples: required with design = {spec.study.design!r} "
+                      f"(number of points drawn over the low/high axes).")
+
+
+def _resolve_objectives(spec: StudyFile, stages: list, faults: list[str]) -> list[Objective]:
+    """``[[objective]]`` with their senses: each metric once, a known metric or an explicit sense.
+
+    A metric without a known sense gets 'min' after its fault is recorded, so
+    the remaining checks still run.
+    """
     objectives: list[Objective] = []
     seen: set[str] = set()
     for i, ob in enumerate(spec.objective):
@@ -586,19 +681,23 @@ def study_from_dict(data: Mapping[str, Any], *, source: str = "<dict>",
             faults.append(f"objective[{i + 1}].metric: 'cost' needs a [cost] table (per_dry_kg, "
                           f"per_stage, per_propellant_kg) or cost keys on the stages.")
         objectives.append(Objective(ob.metric, sense, ob.label or ob.metric))
+    return objectives
 
+
+def _resolve_bounds(c: ConstraintsTable, faults: list[str]) -> list[Bound]:
+    """``[constraints]`` as `Bound` records in SI.
+
+    In this order: max_gross_mass [kg] and max_acceleration [m/s^2] (each > 0),
+    min_liftoff_thrust_to_weight [-], then each ``[[constraints.bound]]`` as given.
+    """
     bounds: list[Bound] = []
-    c = spec.constraints
-    for key, metric, kind, is_max in (("max_gross_mass", "gross_mass_kg", "mass", True),
-                                      ("max_acceleration", "max_acceleration_m_s2", "acceleration", True)):
+    for key, metric, kind in (("max_gross_mass", "gross_mass_kg", "mass"),
+                              ("max_acceleration", "max_acceleration_m_s2", "acceleration")):
         value = getattr(c, key)
         if value is None:
             continue
         try:
-            v = to_si(value, kind)
-            if v <= 0:
-                raise ValueError(f"must be > 0. Got {value!r}.")
-            bounds.append(Bound(metric, None, v, key))
+            bounds.append(Bound(metric, None, _positive_si(value, kind), key))
         except ValueError as exc:
             faults.append(f"constraints.{key}: {exc}")
     if c.min_liftoff_thrust_to_weight is not None:
@@ -606,13 +705,7 @@ def study_from_dict(data: Mapping[str, Any], *, source: str = "<dict>",
                             "min_liftoff_thrust_to_weight"))
     for i, b in enumerate(c.bound):
         bounds.append(Bound(b.metric, b.min, b.max, f"bound[{i + 1}] {b.metric}"))
-
-    if faults:
-        raise StudyDefinitionError(source, faults)
-    raw = copy.deepcopy(dict(data))
-    fp = hashlib.sha256(_canonical({"study": raw, "base": base_text}).encode()).hexdigest()
-    return Study(source=source, spec=spec, base=base, objectives=tuple(objectives),
-                 bounds=tuple(bounds), fingerprint=fp, raw=raw)
+    return bounds
 
 
 def unknown_metric_text(metric: str, known: Mapping[str, Any] | None = None) -> str:
