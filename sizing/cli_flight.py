@@ -57,7 +57,19 @@ def write_trajectory_csv(history, path: Path, *, site_altitude_m: float = 0.0) -
         w.writerow(headers)
         for k in range(n):
             w.writerow([_cell(cols[c][k]) for c in names])
+    _write_caution_beside(Path(path))
     return Path(path)
+
+
+def _write_caution_beside(path: Path) -> Path:
+    """The caution beside a data table (kept out of the table so it loads as numbers), as study folders do."""
+    from .result import CAUTION
+    from .study.results import CAUTION_TXT
+
+    note = path.parent / CAUTION_TXT
+    note.write_text(f"Time histories and data tables in this folder (e.g. {path.name}) are simulation output.\n\n"
+                    f"{CAUTION}\n", encoding="utf-8")
+    return note
 
 
 def _cell(v):
@@ -65,6 +77,8 @@ def _cell(v):
         f = float(v)
     except (TypeError, ValueError):
         return v
+    if f != f:  # NaN (e.g. Mach in vacuum): an empty cell
+        return ""
     if f.is_integer() and abs(f) < 1e15:
         return int(f)
     return f"{f:.9g}"
@@ -129,7 +143,7 @@ def run_fly(args) -> int:
         con.print(f"[dim]{escape(CAUTION)}[/]")
     if args.out is not None:
         path = write_trajectory_csv(fr.history, args.out, site_altitude_m=problem.launch.altitude_m)
-        print(f"wrote {path}", file=sys.stderr if args.json else sys.stdout)
+        print(f"wrote {path} (the caution is in {path.parent / 'CAUTION.txt'})", file=sys.stderr if args.json else sys.stdout)
     failed = fr.terminated_by == "impact" and len(fr.burnouts) < len(vehicle.stages)
     return EXIT_FAILED if failed else EXIT_OK
 

@@ -327,6 +327,10 @@ def _orbit(specs, payload, target, site, tolerance, limits, dia, delay, gross, g
 #: Gravity loss above which an orbit review note explains where it comes from [m/s] (typical launchers lose
 #: about 1.0-1.5 km/s to gravity; Griffin & French, Space Vehicle Design, loss table, from memory).
 HIGH_GRAVITY_LOSS_M_S = 1500.0
+#: Drag loss as a share of the flown ideal delta-v above which a review note is written [-].
+HIGH_DRAG_SHARE = 0.25
+#: Max-q above which a review note asks for a loads check [Pa].
+HIGH_MAX_Q_PA = 100_000.0
 
 #: Relative excess over a path limit reported as a violation [-] (the optimiser holds limits to ~1e-6).
 PATH_LIMIT_SLACK = 1e-3
@@ -368,10 +372,24 @@ def stage_notes(fr: FlightResult, vehicle: Vehicle, *, orbit: bool) -> list[str]
         b, st = worst
         i = vehicle.stages.index(st)
         tw = st.thrust_vac_n / (vehicle.ignition_mass_kg(i) * st.g0_m_s2)
-        notes.append(f"gravity loss {grav:,.0f} m/s is above the {HIGH_GRAVITY_LOSS_M_S:,.0f} m/s typical of launchers "
-                     f"(about 1.0-1.5 km/s; Griffin & French, Space Vehicle Design, from memory): most of it, "
-                     f"{b.losses_m_s['gravity']:,.0f} m/s, is lost while stage {st.name!r} burns {st.burn_time_s:,.0f} s "
-                     f"at thrust-to-weight {tw:.2f} at ignition; more thrust on that stage shortens its burn.")
+        when = "at ignition (vacuum thrust)"
+        if i == 0 and st.isp_sl_s:  # the first stage's thrust-to-weight is stated at lift-off, sea-level thrust
+            tw, when = tw * st.isp_sl_s / st.isp_vac_s, "at lift-off (sea-level thrust)"
+        notes.append(f"gravity loss {grav:,.0f} m/s is above {HIGH_GRAVITY_LOSS_M_S:,.0f} m/s, the upper end of "
+                     f"the 1.0-1.5 km/s typical of launchers (Griffin & French, Space Vehicle Design, from memory): "
+                     f"most of it, {b.losses_m_s['gravity']:,.0f} m/s, is lost while stage {st.name!r} burns "
+                     f"{st.burn_time_s:,.0f} s at thrust-to-weight {tw:.2f} {when}; more thrust on that stage "
+                     "shortens its burn.")
+    drag, ideal = fr.losses_m_s["drag"], fr.ideal_delta_v_m_s
+    if ideal > 0 and drag > HIGH_DRAG_SHARE * ideal:
+        notes.append(f"drag loss {drag:,.0f} m/s is {100 * drag / ideal:.0f} % of the ideal delta-v flown (above "
+                     f"{100 * HIGH_DRAG_SHARE:.0f} %, common practice, no source): a slimmer airframe, a lower drag "
+                     "coefficient or less thrust low in the atmosphere would save propellant.")
+    q = fr.max_dynamic_pressure_pa
+    if q > HIGH_MAX_Q_PA:
+        notes.append(f"max-q {q / 1000:,.0f} kPa at {fr.max_q_altitude_m:,.0f} m above sea level (above "
+                     f"{HIGH_MAX_Q_PA / 1000:.0f} kPa, common practice, no source): check fin flutter, airframe "
+                     "and fairing loads at this pressure.")
     return notes
 
 

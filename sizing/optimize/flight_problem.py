@@ -237,7 +237,10 @@ def fly_problem(problem: Problem) -> tuple[Vehicle, FlightResult]:
         stage = vehicle.stages[len(fr.burnouts)].name
         note = IMPACT_UNDER_POWER_NOTE.format(t=fr.impact_time_s, stage=stage)
         fr = replace(fr, warnings=tuple(fr.warnings) + (note,))
-    return vehicle, fr
+    from .flight import stage_notes  # the notes `solve` writes for the same flight
+
+    notes = stage_notes(fr, vehicle, orbit=fr.orbit is not None)
+    return vehicle, replace(fr, warnings=tuple(dict.fromkeys(tuple(fr.warnings) + tuple(notes))))
 
 
 def flight_summary(fr: FlightResult, site_altitude_m: float = 0.0) -> dict[str, Any]:

@@ -97,6 +97,7 @@ def test_cli_fly_writes_trajectory_csv_with_units(tmp_path, capsys):
     assert all("[" in h for h in header)
     text = capsys.readouterr().out
     assert "apogee above launch site" in text and "not flight clearance" in text
+    assert "not flight clearance" in (tmp_path / "CAUTION.txt").read_text()  # the data table stays numeric
 
 
 def test_cli_fly_json(capsys):
@@ -131,11 +132,20 @@ def test_solve_orbit_demo_then_fly_its_design_file(tmp_path, capsys):
     assert 1500.0 < sum(solved["losses_m_s"].values()) < 2500.0
     st = solved["steering"]
     assert st["pitch_table"] and st["insertion"]["kind"] == "restart"
-    assert main(["fly", str(design), "--json"]) == EXIT_OK
+    traj = tmp_path / "traj.csv"
+    assert main(["fly", str(design), "--json", "--out", str(traj)]) == EXIT_OK
     flown = json.loads(capsys.readouterr().out)
+    import csv
+
+    rows = list(csv.DictReader(traj.open()))
+    high = [r for r in rows if float(r["altitude above sea level [m]"]) > 300e3]
+    assert high and all(r["Mach number [-]"] == "" for r in high)  # no air above the model's top: no Mach
     for k in ("perigee_altitude_m", "apogee_altitude_m", "inclination_deg", "max_dynamic_pressure_pa",
               "max_acceleration_m_s2"):
         assert flown[k] == solved[k], k
+    # one note generator: the gravity-loss note of solve comes back from fly, quoting the stated T/W
+    note = [w for w in solved["warnings"] if w.startswith("gravity loss")]
+    assert note and note[0] in flown["warnings"] and "1.45 at lift-off" in note[0]
 
 
 def test_solve_orbit_max_payload_for_a_gross_mass(tmp_path):
@@ -237,3 +247,12 @@ def test_gross_mass_cap_with_flight_targets(capsys):
     orbit["mission"]["max_gross_mass"] = 5000.0
     r = solve(problem_from_dict(orbit, source="<orbit cap>"))
     assert not r.success and "mission.max_gross_mass: 5,000 kg is below" in r.message
+
+
+def test_fly_notes_high_drag_and_max_q(capsys):
+    """The as-built demo loses 45 % of its ideal delta-v to drag at 175 kPa max-q: both get a review note
+    (thresholds: common practice, no source)."""
+    assert main(["fly", str(ROOT / "problems" / "heron_as_built.toml"), "--json"]) == EXIT_OK
+    w = json.loads(capsys.readouterr().out)["warnings"]
+    assert any(x.startswith("drag loss") and "45 %" in x for x in w), w
+    assert any(x.startswith("max-q 175 kPa") for x in w), w

@@ -284,7 +284,9 @@ def _history(frame: FlightFrame, hist: np.ndarray) -> FlightHistory:
     return FlightHistory(
         t_s=t, altitude_m=hist[:, H_ALT], downrange_m=frame.downrange_m(t, r), speed_m_s=hist[:, H_VREL],
         inertial_speed_m_s=np.linalg.norm(v, axis=1), flight_path_angle_deg=frame.flight_path_angle_deg(r, v),
-        mach=hist[:, H_MACH], dynamic_pressure_pa=hist[:, H_Q], acceleration_m_s2=hist[:, H_ACC],
+        # no air, no Mach number: NaN in vacuum (moving with zero dynamic pressure)
+        mach=np.where((hist[:, H_Q] == 0.0) & (hist[:, H_VREL] > 0.0), np.nan, hist[:, H_MACH]),
+        dynamic_pressure_pa=hist[:, H_Q], acceleration_m_s2=hist[:, H_ACC],
         mass_kg=hist[:, H_M], thrust_n=hist[:, H_THRUST], drag_n=hist[:, H_DRAG],
         stage_index=hist[:, H_STAGE].astype(np.int64),
     )
