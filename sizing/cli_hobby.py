@@ -12,7 +12,7 @@ import math
 from pathlib import Path
 from typing import Any
 
-from .report.flight_safety import has_safety, safety_tables, transposed, write_sketch
+from .report.flight_safety import has_safety, safety_sheet_names, safety_tables, transposed, write_sketch
 
 #: Extra --out formats of `sizing hobby`: the side-view sketch (needs stage geometry).
 SKETCH_FORMATS = (".html", ".svg")
@@ -336,9 +336,8 @@ def _add_xlsx_sheets(result, path: Path) -> None:
         if fmt is not None:  # one quantity per row: each value its own format
             cell.number_format = fmt
     tables = safety_tables(result, numeric=True)
-    for k, (stitle, sheader, srows) in enumerate(tables):
-        ws2 = wb.create_sheet(("stability", "ejection timing", "recovery")[k] if len(tables) == 3
-                              else f"flight safety {k + 1}")
+    for name, (stitle, sheader, srows) in zip(safety_sheet_names(result), tables):
+        ws2 = wb.create_sheet(name)
         ws2.append(sheader)
         for r in srows:
             ws2.append(r)
