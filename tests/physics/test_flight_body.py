@@ -6,18 +6,18 @@ import math
 
 import numpy as np
 import pytest
-from scipy.integrate import solve_ivp
 from scipy.linalg import expm
 
 from sizing.errors import FieldError
 from sizing.physics.airframe import Configuration, PointMass
 from sizing.physics.flight import AscentProfile, Wind, fly_many, fly_vertical
 from sizing.physics.flight import layout as L
-from sizing.physics.flight.equations import derivatives, wind_velocity
+from sizing.physics.flight.equations import wind_velocity
 from sizing.physics.flight.kernel import run_flight
 from sizing.physics.flight.setup import prepare_flight
 from sizing.physics.vehicle import DragCurve, FlightStage, LaunchSite, Vehicle
 from sizing.physics.wind import WindProfile
+from tests.physics.test_flight_kernel import _reference_burnouts
 
 RHO = 1.0  # exponential atmosphere with a huge scale height: constant density [kg/m^3]
 CONST_AIR = ("exponential", RHO, 1e12)
@@ -197,16 +197,7 @@ def test_kernel_agrees_with_solve_ivp_on_the_body_axis_equations():
     setup.opt[L.OPT_VERTICAL] = 0.0
     setup.y0[2] = 20.0
     setup.y0[3:6] = (3.0, 1.0, 30.0)
-    y = setup.y0.copy()
-
-    def rhs(t, yy, ph):
-        dy, dg = np.zeros(L.N_STATE), np.zeros(L.N_DIAG)
-        derivatives.py_func(t, yy, dy, dg, setup.par, ph, False)
-        return dy
-
-    for ph in setup.phases:
-        y = solve_ivp(rhs, (ph[L.PH_T0], ph[L.PH_T1]), y, method="DOP853", rtol=1e-13, atol=1e-10,
-                      args=(ph,)).y[:, -1]
+    y = _reference_burnouts(setup)[0]
     burn = run_flight(*setup.kernel_args(1))[3][0, L.B_Y:]
     np.testing.assert_allclose(burn[:3], y[:3], rtol=0, atol=1e-5)
     np.testing.assert_allclose(burn[3:6], y[3:6], rtol=0, atol=1e-6)
