@@ -147,3 +147,16 @@ def test_stack_configurations_match_the_vehicle_masses():
         mass = 0.5 * (c.full_mass_kg + c.burnout_mass_kg)
         mp = mass - m
         assert j + mp * jp - (m1 + mp * xp) ** 2 / mass == pytest.approx(c.pitch_inertia_kg_m2(mass), rel=1e-9)
+
+
+def test_wind_without_geometry_is_named_in_a_review_note():
+    from sizing.optimize.hobby_problem import MSG_WIND_NEEDS_GEOMETRY
+
+    d = tomllib.loads(DEMO.read_text(encoding="utf-8"))
+    for st in d["stage"]:
+        st.pop("geometry"), st.pop("recovery")
+    d["mission"].pop("payload_position")
+    res = solve_hobby(hobby_problem_from_dict(d, source="tern.toml", base_dir=DEMO.parent))
+    assert res.success
+    assert any(w.startswith(MSG_WIND_NEEDS_GEOMETRY) for w in res.warnings)
+    assert "wind" not in res.flight["hobby"]
