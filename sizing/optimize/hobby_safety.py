@@ -441,7 +441,8 @@ def _wind_notes(part: dict[str, Any], target_m: float | None) -> list[str]:
            f"{part['rail_exit_angle_of_attack_deg']:.1f} deg."]
     if target_m is not None and wind_row["apogee_m"] < target_m:
         out.append(f"in the stated wind the apogee ({wind_row['apogee_m']:,.0f} m) falls short of the target "
-                   f"{target_m:,.0f} m: the motor search flies calm air; raise the target apogee to allow for this wind.")
+                   f"{target_m:,.0f} m: the motor search flies calm air; raise the target apogee to allow for "
+                   "this wind.")
     return out
 
 

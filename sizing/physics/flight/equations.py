@@ -62,7 +62,8 @@ memory). The pitch inertia I and x_cg follow the mass (the burning
 propellant's centroid is fixed). The small-angle, constant-speed form is the
 damped oscillator I alpha'' + (1/2 rho V S C2 + mdot l_e^2) alpha' + q S C1 alpha = 0.
 N enters the translation (its part along the velocity is booked as drag loss);
-the zero-lift drag stays along -v_air. On the rail the axis is the rail's. The
+the zero-lift drag stays along -v_air (``with_drag=False`` removes that drag
+only; the normal force and the moments stay). On the rail the axis is the rail's. The
 zero-lift flight (``MODE_PROGRADE``, thrust along v_air) is the limit of a
 body that aligns at once.
 

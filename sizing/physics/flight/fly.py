@@ -12,6 +12,7 @@ from __future__ import annotations
 
 import math
 from collections.abc import Sequence
+from typing import TYPE_CHECKING
 
 import numpy as np
 
@@ -24,6 +25,9 @@ from sizing.physics.flight.setup import FlightSetup, Wind, prepare_flight
 from sizing.physics.vehicle import LaunchSite, Vehicle
 from sizing.physics.wind import WindProfile
 from sizing.units import G0_M_S2
+
+if TYPE_CHECKING:
+    from sizing.physics.airframe import Configuration
 
 __all__ = [
     "HOBBY_MIN_LIFTOFF_TW", "DTEG_MIN_RAIL_EXIT_SPEED_M_S", "HOBBY_MIN_RAIL_EXIT_SPEED_M_S",
@@ -87,7 +91,7 @@ def simulate(vehicle: Vehicle, site: LaunchSite, *, profile: str, ascent: Ascent
              stop_at: str = "apogee", max_step_s: float | None = None, record_history: bool = True,
              acceleration_limit_m_s2: float | None = None, detect_impact: bool = True, rtol: float = 1e-8,
              wind: Wind | WindProfile | None = None, atmosphere: tuple | None = None,
-             stability=None) -> FlightResult:
+             stability: Sequence[Configuration] | None = None) -> FlightResult:
     """Integrate one flight; `fly_vertical` and `fly_ascent` are the usual entry points.
 
     Parameters are those of `fly_vertical` / `fly_ascent`; `profile` is
@@ -117,7 +121,8 @@ def simulate(vehicle: Vehicle, site: LaunchSite, *, profile: str, ascent: Ascent
 def fly_vertical(vehicle: Vehicle, site: LaunchSite, *, earth: str = "flat", with_drag: bool = True,
                  with_gravity: bool = True, stop_at: str = "apogee", max_step_s: float | None = None,
                  record_history: bool = True, acceleration_limit_m_s2: float | None = None,
-                 wind: Wind | WindProfile | None = None, rtol: float = 1e-8, stability=None) -> FlightResult:
+                 wind: Wind | WindProfile | None = None, rtol: float = 1e-8,
+                 stability: Sequence[Configuration] | None = None) -> FlightResult:
     """Near-vertical flight from a launch rail (sounding and hobby rockets).
 
     The vehicle slides along the rail (length `site.rail_length_m`, tilted
@@ -212,7 +217,8 @@ def fly_ascent(vehicle: Vehicle, site: LaunchSite, profile: AscentProfile | None
 def fly_many(vehicles: Sequence[Vehicle], site: LaunchSite | Sequence[LaunchSite], profiles=None, *,
              profile: str = "ascent", rotating: bool = True, earth: str = "round", with_drag: bool = True,
              stop_at: str = "apogee", rtol: float = 1e-8, winds=None,
-             acceleration_limit_m_s2: float | None = None, stabilities=None) -> tuple[FlightResult, ...]:
+             acceleration_limit_m_s2: float | None = None,
+             stabilities: Sequence | None = None) -> tuple[FlightResult, ...]:
     """Fly many vehicles (each with its own stages, drag tables, thrusts, site, profile, wind) in one compiled call.
 
     The vehicles must have the same number of stages. No time history is kept.

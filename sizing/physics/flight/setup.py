@@ -10,7 +10,9 @@ linear in time, so the mass integrates exactly.
 from __future__ import annotations
 
 import math
+from collections.abc import Sequence
 from dataclasses import dataclass
+from typing import TYPE_CHECKING
 
 import numpy as np
 
@@ -22,6 +24,9 @@ from sizing.physics.flight.results import FlightFrame
 from sizing.physics.vehicle import LaunchSite, Vehicle
 from sizing.physics.wind import WindProfile
 from sizing.units import G0_M_S2, GM_EARTH_M3_S2, OMEGA_EARTH_RAD_S, R_EARTH_EQ_M
+
+if TYPE_CHECKING:
+    from sizing.physics.airframe import Configuration
 
 __all__ = ["ATMOSPHERE_TOP_M", "MAX_FLIGHT_TIME_S", "Wind", "FlightSetup", "BurnSchedule", "burn_schedule", "prepare_flight",
            "replay_steps", "altitude_kinks_m"]
@@ -401,7 +406,8 @@ def prepare_flight(vehicle: Vehicle, site: LaunchSite, *, profile: str, ascent: 
                    earth: str = "round", rotating: bool = False, with_drag: bool = True, with_gravity: bool = True,
                    stop_at: str = "apogee", max_step_s: float | None = None, record_history: bool = True,
                    detect_impact: bool = True, rtol: float = 1e-8, wind: Wind | WindProfile | None = None,
-                   atmosphere: tuple | None = None, stability=None) -> FlightSetup:
+                   atmosphere: tuple | None = None,
+                   stability: Sequence[Configuration] | None = None) -> FlightSetup:
     """Check the options and build the kernel's arrays for one flight (see `fly.simulate`).
 
     `wind` is a `Wind` or a `sizing.physics.wind.WindProfile`. `stability` (vertical
