@@ -33,6 +33,9 @@ TRAJECTORY_HEADERS = {
     "thrust_n": "thrust [N]",
     "drag_n": "drag [N]",
     "stage_index": "burning stage (0 = bottom) [-]",
+    "east_m": "east of the launch site [m]",
+    "north_m": "north of the launch site [m]",
+    "angle_of_attack_deg": "angle of attack (body-axis flights) [deg]",
 }
 
 

@@ -12,7 +12,7 @@ import math
 from pathlib import Path
 from typing import Any
 
-from .report.flight_safety import has_safety, safety_tables, transposed, write_sketch
+from .report.flight_safety import has_safety, safety_sheet_names, safety_tables, transposed, write_sketch
 
 #: Extra --out formats of `sizing hobby`: the side-view sketch (needs stage geometry).
 SKETCH_FORMATS = (".html", ".svg")
@@ -107,6 +107,10 @@ def limit_rows(result) -> list[list[str]]:
     rows = []
     if f.get("target_apogee_m") is not None:
         rows.append(["apogee above site", f"{_f(f['apogee_m'], ',.1f')} m", f">= {f['target_apogee_m']:,.1f} m"])
+        windy = _wind_apogee_m(result)
+        if windy is not None:
+            rows.append(["apogee above site, stated wind", f"{_f(windy, ',.1f')} m",
+                         "shown, not enforced (the search flies calm air)"])
     rows.append(["liftoff thrust-to-weight", _f(f.get("liftoff_thrust_to_weight"), ".1f"),
                  f">= {lim['min_thrust_to_weight']:g}"
                  + (" (DTEG 5.18.2)" if lim["min_thrust_to_weight"] == 5 else "")])
@@ -117,6 +121,12 @@ def limit_rows(result) -> list[list[str]]:
     rows.append(["max acceleration", f"{_f(f.get('max_acceleration_m_s2'), ',.1f')} m/s^2",
                  "no limit" if amax is None else f"<= {amax:g} m/s^2"])
     return rows
+
+
+def _wind_apogee_m(result) -> float | None:
+    """Apogee above the site flown in the stated wind (body axis), or None without a wind."""
+    flights = (((result.flight or {}).get("hobby") or {}).get("wind") or {}).get("flights")
+    return flights[1]["apogee_m"] if flights else None
 
 
 def _search_line(result) -> str | None:
@@ -280,6 +290,9 @@ def _export_extras(result) -> list[list[Any]]:
     if f.get("apogee_m") is not None and lim:
         if f.get("target_apogee_m") is not None:
             out.append(["apogee above site", num(f["apogee_m"]), "m", f">= {f['target_apogee_m']:g}"])
+            if _wind_apogee_m(result) is not None:
+                out.append(["apogee above site, stated wind", num(_wind_apogee_m(result)), "m",
+                            "shown, not enforced"])
         else:
             out.append(["apogee above site", num(f["apogee_m"]), "m", "maximised"])
         tw = lim["min_thrust_to_weight"]
@@ -336,9 +349,8 @@ def _add_xlsx_sheets(result, path: Path) -> None:
         if fmt is not None:  # one quantity per row: each value its own format
             cell.number_format = fmt
     tables = safety_tables(result, numeric=True)
-    for k, (stitle, sheader, srows) in enumerate(tables):
-        ws2 = wb.create_sheet(("stability", "ejection timing", "recovery")[k] if len(tables) == 3
-                              else f"flight safety {k + 1}")
+    for name, (stitle, sheader, srows) in zip(safety_sheet_names(result), tables):
+        ws2 = wb.create_sheet(name)
         ws2.append(sheader)
         for r in srows:
             ws2.append(r)

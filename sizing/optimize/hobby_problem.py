@@ -56,7 +56,7 @@ from .hobby import (
 )
 
 __all__ = ["solve_hobby", "stage_results_from_vehicle", "rail_exit_minimum_m_s", "RAIL_RULES_M_S",
-           "MSG_NO_STACK", "MSG_NO_STACK_YET", "MSG_WATER_SHORT", "MSG_CANNOT_FLY"]
+           "MSG_NO_STACK", "MSG_NO_STACK_YET", "MSG_WATER_SHORT", "MSG_CANNOT_FLY", "MSG_WIND_NEEDS_GEOMETRY"]
 
 #: Minimum rail-exit speed of each rail rule [m/s]: "hobby" 15 m/s (~50 ft/s, common practice,
 #: from memory); "dteg" 30.48 m/s (100 ft/s, Spaceport America Cup DTEG 10.2.1).
@@ -66,6 +66,7 @@ MSG_NO_STACK = "no stack reaches the target apogee within the limits"
 MSG_NO_STACK_YET = "no stack found within the simulation cap"
 MSG_WATER_SHORT = "the best water design found falls short of the target apogee"
 MSG_CANNOT_FLY = "the design as given cannot fly"
+MSG_WIND_NEEDS_GEOMETRY = "the wind keys of [launch] need [stage.geometry]"
 
 FlightFn = Callable[[Vehicle, LaunchSite], Any]
 
@@ -273,6 +274,9 @@ def _solve_motors(problem: HobbyProblem, fly: FlightFn) -> SizingResult:
         parts, safety_notes = safety_report(problem, vehicle, chosen, res.ballast_mass_kg, fr)
         hobby.update(parts)
         notes += safety_notes
+    elif problem.wind is not None and not problem.wind.is_calm:
+        notes.append(f"{MSG_WIND_NEEDS_GEOMETRY}: the stated wind is not flown; give [stage.geometry] on every "
+                     "stage for the ascent in wind (weathercocking), the recovery drift and the landing points.")
     hobby.update({
         "ballast_mass_kg": res.ballast_mass_kg,
         "cost": res.cost,

@@ -15,11 +15,16 @@ of motors into a `sizing.physics.airframe.Stack`, and from it:
   ignitions; each motor's ejection delay against the coast to apogee; canopy
   or streamer sizes, descent times, wind drift and landing points; and the
   side-view outline for the sketch.
+* with a wind: the ascent flown three times (`ascent_in_wind`): in calm air
+  and in the stated wind with the body axis turning under the aerodynamic
+  moments of the airframe (weathercocking of the finite static margin;
+  `sizing.physics.flight.equations`, ``MODE_BODY``), and in the wind as the
+  zero-lift limit (a rocket that aligns with the relative wind at once). The
+  apogee loss, the shift of the apogee and the landing points come from the
+  flight in the stated wind; the ejection timing too.
 
-The ascent is flown in calm air (`fly_vertical`); wind enters the descent
-only. Weathercocking, ascent drift and the apogee lost to wind need the wind
-in the flight equations (`Configuration` gives the C_N_alpha, x_cp, x_cg and
-pitch inertia they need).
+The motor-stack search itself flies calm air (zero lift): the stated wind is
+one launch condition, not the design point.
 
 Preliminary estimates only, not clearance to fly.
 """
@@ -68,11 +73,16 @@ __all__ = [
     "stack_configurations",
     "geometry_drag_curves",
     "stability_ballast",
+    "ASCENT_FLIGHTS",
+    "ascent_in_wind",
+    "rail_exit_angle_of_attack_deg",
     "safety_report",
 ]
 
 #: Above this margin a rocket turns noticeably into a crosswind [calibers] (common practice, no source).
 OVERSTABLE_MARGIN_CAL = 2.0
+#: Flights of the ascent-in-wind comparison (`ascent_in_wind`), in table order.
+ASCENT_FLIGHTS: tuple[str, ...] = ("calm air", "stated wind", "stated wind, zero-lift limit")
 #: Drag coefficient of a flat face on its area, for a separated stage's open fore end [-]
 #: (Hoerner, Fluid-Dynamic Drag, 1965, ch. 3, flat-faced cylinder about 0.8; from memory).
 BLUNT_FACE_CD = 0.8
@@ -280,6 +290,11 @@ def safety_report(problem: HobbyProblem, vehicle: Vehicle, motors: Sequence[Moto
     configs = tuple(configuration(stack, i) for i in range(len(stack.stages)))
     hist = _history(fr)
     phases = _phases(configs, fr, hist, site)
+    wind_part: dict[str, Any] = {"description": wind.describe(), "calm": wind.is_calm}
+    fr_after = fr  # the flight the ejection, recovery and landing points follow
+    if not wind.is_calm:
+        wind_part, flights = ascent_in_wind(problem, vehicle, configs, wind)
+        fr_after = flights["stated wind"]
     notes: list[str] = []
     m_min = problem.min_static_margin_cal
     for row in phases:
@@ -294,11 +309,11 @@ def safety_report(problem: HobbyProblem, vehicle: Vehicle, motors: Sequence[Moto
         if first["static_margin_cal"] > OVERSTABLE_MARGIN_CAL and not wind.is_calm:
             notes.append(f"static margin {first['static_margin_cal']:.1f} cal of {first['configuration']} at "
                          f"{first['event']} is above {OVERSTABLE_MARGIN_CAL:g} cal: expect it to turn into the "
-                         "wind (weathercocking; common practice, no source); not yet in the flight model.")
-    ejection, recovery = _recovery_and_ejection(problem, vehicle, motors, stack, configs, fr, hist, wind, notes)
+                         "wind (weathercocking; common practice, no source).")
     if not wind.is_calm:
-        notes.append("the ascent is flown in calm air: landing points count the descent drift only; "
-                     "weathercocking, ascent drift and apogee loss in wind are not modelled yet.")
+        notes += _wind_notes(wind_part, problem.target_apogee_m)
+    ejection, recovery = _recovery_and_ejection(problem, vehicle, motors, stack, configs, fr_after,
+                                                _history(fr_after), wind, notes)
     stability = {
         "min_static_margin_cal": m_min,
         "rule": "static margin >= min_static_margin at rail exit and at each upper-stage ignition "
@@ -309,8 +324,126 @@ def safety_report(problem: HobbyProblem, vehicle: Vehicle, motors: Sequence[Moto
         "configurations": [_config_dict(c) for c in configs],
         "sketch": _sketch(stack, configs, phases),
     }
-    return {"stability": stability, "ejection": ejection, "recovery": recovery,
-            "wind": {"description": wind.describe(), "calm": wind.is_calm}}, notes
+    return {"stability": stability, "ejection": ejection, "recovery": recovery, "wind": wind_part}, notes
+
+
+# ---------------------------------------------------------------- ascent in wind
+def rail_exit_angle_of_attack_deg(site: LaunchSite, rail_exit_speed_m_s: float, wind: WindProfile) -> float:
+    """Angle between the rail and the air-relative velocity at rail exit [deg].
+
+    The rocket leaves the rail at speed V along the rail direction r (tilted
+    `site.rail_angle_deg` from the vertical towards `site.azimuth_deg`) with
+    the wind w at the rail's top height L cos(tilt) blowing across it; its
+    air-relative velocity is V r - w and the angle of attack
+    alpha = acos(r . (V r - w) / |V r - w|) (vector addition of velocities; for
+    a vertical rail and a horizontal wind, alpha = atan(w / V)).
+
+    Examples
+    --------
+    >>> from sizing.physics.vehicle import LaunchSite
+    >>> w = WindProfile("constant", speed_m_s=5.0, direction_from_deg=270.0)
+    >>> round(rail_exit_angle_of_attack_deg(LaunchSite(rail_length_m=1.0), 20.0, w), 3)  # atan(5/20)
+    14.036
+    """
+    a, az = math.radians(site.rail_angle_deg), math.radians(site.azimuth_deg)
+    rail = (math.sin(a) * math.sin(az), math.sin(a) * math.cos(az), math.cos(a))
+    we, wn = wind.velocity_m_s(site.rail_length_m * math.cos(a))
+    v = (rail_exit_speed_m_s * rail[0] - we, rail_exit_speed_m_s * rail[1] - wn, rail_exit_speed_m_s * rail[2])
+    vn = math.sqrt(sum(c * c for c in v))
+    if not vn > 0:
+        return math.nan
+    return math.degrees(math.acos(max(-1.0, min(1.0, sum(r * c for r, c in zip(rail, v)) / vn))))
+
+
+def _flight_row(label: str, fr, site: LaunchSite, body: bool) -> dict[str, Any]:
+    """Apogee, its ground point, the tilt at first burnout and the angle of attack of one ascent."""
+    h = fr.history
+    powered = (h.t_s > fr.rail_exit_time_s) & (h.thrust_n > 0) if math.isfinite(fr.rail_exit_time_s) else \
+        (h.thrust_n > 0)
+    e, n = fr.end_east_m, fr.end_north_m
+    b0 = fr.burnouts[0] if fr.burnouts else None
+    return {
+        "flight": label, "body_axis": body, "apogee_m": fr.apogee_m - site.altitude_m,
+        "time_to_apogee_s": fr.time_to_apogee_s, "apogee_east_m": e, "apogee_north_m": n,
+        "apogee_distance_m": math.hypot(e, n), "apogee_bearing_deg": math.degrees(math.atan2(e, n)) % 360.0,
+        "burnout_tilt_deg": 90.0 - b0.flight_path_angle_deg if b0 is not None else math.nan,
+        "burnout_heading_deg": (math.degrees(math.atan2(b0.east_speed_m_s, b0.north_speed_m_s)) % 360.0
+                                if b0 is not None else math.nan),
+        "max_angle_of_attack_deg": (float(np.max(h.angle_of_attack_deg[powered]))
+                                    if body and np.any(powered) else math.nan),
+    }
+
+
+def ascent_in_wind(problem: HobbyProblem, vehicle: Vehicle, configs: Sequence[Configuration],
+                   wind: WindProfile) -> tuple[dict[str, Any], dict[str, Any]]:
+    """Fly the chosen stack in calm air and in the stated wind; compare apogee and its ground point.
+
+    The body-axis flights (`sizing.physics.flight.fly_vertical` with
+    ``stability=configs``) turn the rocket under the restoring and damping
+    moments of its Barrowman components (weathercocking that grows with the
+    static margin); the zero-lift flight is the limit of a rocket that aligns
+    with the relative wind at once. All three on the flat Earth, to apogee.
+
+    Returns
+    -------
+    (dict, dict)
+        The ``hobby.wind`` part of the result (description, the three flights
+        of `ASCENT_FLIGHTS`, the rail-exit angle of attack, the apogee loss
+        [m] = calm - wind, and the shift of the apogee's ground point [m], in
+        total and towards the wind's source) and the flights by label.
+    """
+    from ..physics.flight import fly_vertical  # compiled; loaded when flying
+
+    site = problem.site
+    flights = {
+        ASCENT_FLIGHTS[0]: fly_vertical(vehicle, site, stability=configs),
+        ASCENT_FLIGHTS[1]: fly_vertical(vehicle, site, wind=wind, stability=configs),
+        ASCENT_FLIGHTS[2]: fly_vertical(vehicle, site, wind=wind),
+    }
+    rows = [_flight_row(k, f, site, body=k != ASCENT_FLIGHTS[2]) for k, f in flights.items()]
+    calm_row, wind_row, limit_row = rows
+    a = math.radians(site.rail_angle_deg)
+    we, wn = wind.velocity_m_s(site.rail_length_m * math.cos(a))
+    ws = math.hypot(we, wn)
+    to_source = (-we / ws, -wn / ws) if ws > 0 else (0.0, 0.0)
+
+    for row in rows:
+        de, dn = row["apogee_east_m"] - calm_row["apogee_east_m"], row["apogee_north_m"] - calm_row["apogee_north_m"]
+        row["apogee_change_m"] = row["apogee_m"] - calm_row["apogee_m"] + 0.0
+        row["apogee_shift_m"] = math.hypot(de, dn)
+        row["apogee_shift_upwind_m"] = de * to_source[0] + dn * to_source[1] + 0.0  # no -0
+    d_w, up_w = wind_row["apogee_shift_m"], wind_row["apogee_shift_upwind_m"]
+    d_l, up_l = limit_row["apogee_shift_m"], limit_row["apogee_shift_upwind_m"]
+    part = {
+        "description": wind.describe(), "calm": False,
+        "ascent_model": "body axis turned by the Barrowman components' restoring and damping moments, normal "
+                        "force on the flight, thrust along the axis (sizing.physics.flight.equations, MODE_BODY)",
+        "flights": rows,
+        "surface_from_deg": math.degrees(math.atan2(-we, -wn)) % 360.0 if ws > 0 else None,
+        "rail_exit_angle_of_attack_deg": rail_exit_angle_of_attack_deg(
+            site, flights[ASCENT_FLIGHTS[1]].rail_exit_speed_m_s, wind),
+        "apogee_loss_m": calm_row["apogee_m"] - wind_row["apogee_m"],
+        "apogee_shift_m": d_w, "apogee_shift_upwind_m": up_w,
+        "zero_lift_apogee_shift_m": d_l, "zero_lift_apogee_shift_upwind_m": up_l,
+    }
+    return part, flights
+
+
+def _wind_notes(part: dict[str, Any], target_m: float | None) -> list[str]:
+    calm_row, wind_row, _ = part["flights"]
+    up = part["apogee_shift_upwind_m"]
+    up_l = part["zero_lift_apogee_shift_upwind_m"]
+    out = [f"in the stated wind the rocket turns into the wind (weathercocking, flown with its static margin): "
+           f"the apogee lies {abs(up):,.0f} m {'upwind' if up >= 0 else 'downwind'} of the calm-air apogee "
+           f"({part['apogee_shift_m']:,.0f} m away; {abs(up_l):,.0f} m {'upwind' if up_l >= 0 else 'downwind'} "
+           f"in the zero-lift limit) and is {abs(part['apogee_loss_m']):,.0f} m "
+           f"{'lower' if part['apogee_loss_m'] >= 0 else 'higher'}; rail-exit angle of attack "
+           f"{part['rail_exit_angle_of_attack_deg']:.1f} deg."]
+    if target_m is not None and wind_row["apogee_m"] < target_m:
+        out.append(f"in the stated wind the apogee ({wind_row['apogee_m']:,.0f} m) falls short of the target "
+                   f"{target_m:,.0f} m: the motor search flies calm air; raise the target apogee to allow for "
+                   "this wind.")
+    return out
 
 
 def _config_dict(c: Configuration) -> dict[str, Any]:
@@ -338,7 +471,7 @@ def _recovery_and_ejection(problem, vehicle, motors, stack, configs, fr, hist, w
         bo = burnouts[i] if i < len(burnouts) else None
         if top:
             apex_t, apex_h = t_apo, apo_h
-            downrange = _at(hist, "downrange_m", t_apo) if hist is not None and math.isfinite(t_apo) else 0.0
+            ground = _apex_ground_point(fr, hist, t_apo, az)
             cda = configs[i].reference_area_m2 * drag_curve_from_geometry(
                 stack, i, site_altitude_m=site.altitude_m, mach_grid=(0.0,)).cd[0]
             speed_before = (lambda t: _at(hist, "speed_m_s", t)) if hist is not None else (lambda t: math.nan)
@@ -347,7 +480,7 @@ def _recovery_and_ejection(problem, vehicle, motors, stack, configs, fr, hist, w
             rho = pressure_density_sound_speed(bo.altitude_m)[1]
             coast = coast_to_apogee(bo.speed_m_s, mass, cda, rho)
             apex_t, apex_h = bo.time_s + coast.time_to_apogee_s, bo.altitude_m - site.altitude_m + coast.height_gain_m
-            downrange = bo.downrange_m
+            ground = _separated_apex_ground_point(bo, coast.height_gain_m, az)
             speed_before = (lambda t, c=coast, b=bo: c.speed_m_s(t - b.time_s, b.speed_m_s))
         else:
             continue
@@ -378,14 +511,15 @@ def _recovery_and_ejection(problem, vehicle, motors, stack, configs, fr, hist, w
                          f"apogee ({apex_h:,.0f} m): the main opens at apogee.")
             legs = legs[1:]
         d = descend(mass, legs, site_altitude_m=site.altitude_m, wind=wind)
-        x_e = downrange * math.sin(az) + d.drift_east_m
-        x_n = downrange * math.cos(az) + d.drift_north_m
+        x_e = ground[0] + d.drift_east_m
+        x_n = ground[1] + d.drift_north_m
         recovery.append({
             "stage": st.name, "device": st.recovery.device, "described": st.recovery.given, "mass_kg": mass,
             "deploy_height_m": apex_h, "canopies": [_canopy_dict(c) for c in canopies],
             "legs": [{"role": l.role, "top_height_m": l.top_height_m, "bottom_height_m": l.bottom_height_m,
                       "time_s": l.time_s, "rate_top_m_s": l.rate_top_m_s, "rate_bottom_m_s": l.rate_bottom_m_s,
                       "drift_east_m": l.drift_east_m, "drift_north_m": l.drift_north_m} for l in d.legs],
+            "apex_east_m": ground[0], "apex_north_m": ground[1],
             "descent_time_s": d.time_s, "drift_m": d.drift_m, "landing_rate_m_s": d.landing_rate_m_s,
             "landing_east_m": x_e, "landing_north_m": x_n, "landing_distance_m": math.hypot(x_e, x_n),
             "landing_bearing_deg": math.degrees(math.atan2(x_e, x_n)) % 360.0,
@@ -394,6 +528,32 @@ def _recovery_and_ejection(problem, vehicle, motors, stack, configs, fr, hist, w
             notes.append(f"{st.name}: no [stage.recovery] given; a single parachute for "
                          f"{st.recovery.descent_rate_m_s:g} m/s (C_D {canopies[0].cd:g}) is assumed.")
     return ejection, recovery
+
+
+def _apex_ground_point(fr, hist, t_apo: float, az: float) -> tuple[float, float]:
+    """(east, north) [m] of the flown apogee: the flight's end point, or its downrange along the azimuth."""
+    e, n = float(getattr(fr, "end_east_m", math.nan)), float(getattr(fr, "end_north_m", math.nan))
+    if math.isfinite(e) and math.isfinite(n) and getattr(fr, "terminated_by", "") == "apogee":
+        return e, n
+    down = _at(hist, "downrange_m", t_apo) if hist is not None and math.isfinite(t_apo) else 0.0
+    return down * math.sin(az), down * math.cos(az)
+
+
+def _separated_apex_ground_point(bo, height_gain_m: float, az: float) -> tuple[float, float]:
+    """(east, north) [m] of a separated stage's apex: its burnout point, then straight on along its velocity.
+
+    The coast from burnout to the apex height is taken along the burnout
+    direction (horizontal travel = height gain x v_horizontal / v_vertical): the
+    gravity turn and the wind on the coast are not counted.
+    """
+    e, n = float(getattr(bo, "east_m", math.nan)), float(getattr(bo, "north_m", math.nan))
+    ve, vn = float(getattr(bo, "east_speed_m_s", math.nan)), float(getattr(bo, "north_speed_m_s", math.nan))
+    if not (math.isfinite(e) and math.isfinite(n)):
+        return bo.downrange_m * math.sin(az), bo.downrange_m * math.cos(az)
+    vz = bo.speed_m_s * math.sin(math.radians(bo.flight_path_angle_deg))
+    if math.isfinite(ve) and math.isfinite(vn) and vz > 0:
+        e, n = e + height_gain_m * ve / vz, n + height_gain_m * vn / vz
+    return e, n
 
 
 def _sketch(stack: Stack, configs, phases) -> dict[str, Any]:

@@ -592,6 +592,12 @@ class Configuration:
         Mass at ignition and at burnout of the lowest stage [kg].
     components : tuple of ComponentAero
         At Mach 0.
+    cn_alpha_x2_table_m2 : tuple of float
+        sum over the components of C_N_alpha,i x_i^2 on `mach_grid` [m^2/rad] (x from
+        the nose tip): with the first two sums it gives the pitch-damping sum
+        sum C_N_alpha,i (x_i - x_cg)^2 about any centre of gravity
+        (`pitch_damping_sum_m2`). Empty: taken as C_N_alpha x_cp^2 (all the normal
+        force at the centre of pressure, the least damping).
     """
 
     stages: tuple[str, ...]
@@ -606,10 +612,47 @@ class Configuration:
     _dry: tuple[PointMass, ...] = field(repr=False, default=())
     _propellant_x_m: float = field(repr=False, default=0.0)
     _propellant_length_m: float = field(repr=False, default=0.0)
+    cn_alpha_x2_table_m2: tuple[float, ...] = ()
+
+    def __post_init__(self) -> None:
+        if not self.cn_alpha_x2_table_m2:
+            object.__setattr__(self, "cn_alpha_x2_table_m2", tuple(
+                c * x * x for c, x in zip(self.cn_alpha_table, self.x_cp_table_m)))
 
     @property
     def reference_area_m2(self) -> float:
         return 0.25 * math.pi * self.reference_diameter_m**2
+
+    def pitch_damping_sum_m2(self, mach, mass_kg):
+        """sum over the components of C_N_alpha,i (x_i - x_cg)^2 [m^2/rad] at a Mach number and mass.
+
+        Expanded as S2 - 2 x_cg S1 + x_cg^2 S0 with S_k = sum C_N_alpha,i x_i^k
+        (tabulated against Mach). Times 1/2 rho V A_ref it is the aerodynamic
+        pitch-damping moment coefficient C2A of Mandell, Caporaso & Bengen,
+        Topics in Advanced Model Rocketry, MIT Press, 1973 (from memory).
+        """
+        s0 = np.interp(mach, self.mach_grid, self.cn_alpha_table)
+        s1 = np.interp(mach, self.mach_grid, np.asarray(self.cn_alpha_table) * np.asarray(self.x_cp_table_m))
+        s2 = np.interp(mach, self.mach_grid, self.cn_alpha_x2_table_m2)
+        xg = np.asarray(self.x_cg_m(mass_kg))
+        v = s2 - 2.0 * xg * s1 + xg * xg * s0
+        return float(v) if np.ndim(v) == 0 else v
+
+    def mass_moments(self) -> tuple[float, float, float, float, float]:
+        """(m_dry [kg], sum m x [kg m], sum m (x^2 + L^2/12) [kg m^2], x_prop [m], x_prop^2 + L_prop^2/12 [m^2]).
+
+        Moments about the nose tip of the masses without the burning propellant,
+        and the burning propellant's centroid and second moment per kg; with
+        m_p = m - m_dry, x_cg = (M1 + m_p x_prop) / m and the pitch inertia
+        I = J + m_p j_prop - m x_cg^2 (parallel-axis theorem), as
+        `x_cg_m` and `pitch_inertia_kg_m2` give. The flight's body-axis mode
+        reads these.
+        """
+        m = sum(p.mass_kg for p in self._dry)
+        m1 = sum(p.mass_kg * p.x_m for p in self._dry)
+        j = sum(p.mass_kg * (p.x_m**2 + p.length_m**2 / 12.0) for p in self._dry)
+        xp = self._propellant_x_m
+        return m, m1, j, xp, xp * xp + self._propellant_length_m**2 / 12.0
 
     def cn_alpha_per_rad(self, mach):
         """Total normal-force coefficient slope C_N_alpha [1/rad] at a Mach number (float or array)."""
@@ -689,11 +732,13 @@ def configuration(stack: Stack, lowest: int = 0, *, mach_grid: Sequence[float] =
     grid = tuple(float(m) for m in mach_grid)
     stages = stack.stages[lowest:]
     d_ref = reference_diameter_m or max(s.max_diameter_m for s in stages)
-    cn, xcp = [], []
+    cn, xcp, cnx2 = [], [], []
     for m in grid:
-        c, x = _total(component_aero(stack, lowest, m, reference_diameter_m=d_ref))
+        parts = component_aero(stack, lowest, m, reference_diameter_m=d_ref)
+        c, x = _total(parts)
         cn.append(c)
         xcp.append(x)
+        cnx2.append(sum(p.cn_alpha_per_rad * p.x_cp_m**2 for p in parts))
     dry, mp, xp, lp = _config_masses(stack, lowest)
     m_dry = sum(p.mass_kg for p in dry)
     return Configuration(
@@ -701,7 +746,7 @@ def configuration(stack: Stack, lowest: int = 0, *, mach_grid: Sequence[float] =
         length_m=sum(s.length_m for s in stages), mach_grid=grid, cn_alpha_table=tuple(cn),
         x_cp_table_m=tuple(xcp), components=component_aero(stack, lowest, 0.0, reference_diameter_m=d_ref),
         full_mass_kg=m_dry + mp, burnout_mass_kg=m_dry, _dry=tuple(dry), _propellant_x_m=xp,
-        _propellant_length_m=lp,
+        _propellant_length_m=lp, cn_alpha_x2_table_m2=tuple(cnx2),
     )
 
 

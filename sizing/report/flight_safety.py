@@ -2,15 +2,18 @@
 
 From ``result.flight["hobby"]`` (written by `sizing.optimize.hobby_safety`):
 
-* `stability_rows`, `ejection_rows`, `recovery_rows`: (title, header, rows)
-  tables with the unit of every column in brackets, for the terminal,
-  Markdown, CSV and XLSX outputs;
+* `stability_rows`, `ascent_rows` (with a wind: calm air, the stated wind and
+  its zero-lift limit), `ejection_rows`, `recovery_rows`: (title, header,
+  rows) tables with the unit of every column in brackets, for the terminal,
+  Markdown, CSV and XLSX outputs (`SAFETY_SHEETS` names their XLSX sheets);
 * `sketch_svg`: a plain side view of the stack to scale, stages outlined
   and named, fins drawn on both sides, each configuration's centre of
   gravity (filled circle) and centre of pressure (open circle with a cross)
   marked with its static margin; plain SVG, no script;
-* `hobby_html`: a self-contained page with the sketch, the tables, the
-  review notes and the caution.
+* `ground_plan_svg`: a plan view of the pad, the apogee points of the
+  ascents and the landing points, with the wind arrow (with a wind);
+* `hobby_html`: a self-contained page with the sketch, the plan, the
+  tables, the review notes and the caution.
 
 User text (stage and motor names) is escaped before it enters SVG or HTML.
 """
@@ -22,8 +25,13 @@ import math
 from pathlib import Path
 from typing import Any
 
-__all__ = ["has_safety", "transposed", "stability_rows", "ejection_rows", "recovery_rows", "safety_tables", "sketch_svg",
-           "hobby_html", "write_sketch"]
+__all__ = ["has_safety", "transposed", "stability_rows", "ascent_rows", "ejection_rows", "recovery_rows",
+           "SAFETY_SHEETS", "safety_tables", "safety_sheet_names", "sketch_svg", "ground_plan_svg", "hobby_html",
+           "write_sketch"]
+
+#: XLSX sheet name of each safety table, by the table function.
+SAFETY_SHEETS = {"stability": "stability", "ascent": "ascent in wind", "ejection": "ejection timing",
+                 "recovery": "recovery"}
 
 
 def _h(result) -> dict[str, Any]:
@@ -63,6 +71,29 @@ def stability_rows(result, numeric: bool = False) -> tuple[str, list[str], list[
     return title, header, rows
 
 
+def ascent_rows(result, numeric: bool = False) -> tuple[str, list[str], list[list[Any]]]:
+    """The ascent in calm air, in the stated wind and in its zero-lift limit (empty without a wind)."""
+    w = _h(result).get("wind") or {}
+    flights = w.get("flights")
+    if not flights:
+        return "", [], []
+    header = ["flight", "apogee above site [m]", "change vs calm air [m]", "time to apogee [s]",
+              "apogee east of pad [m]", "apogee north of pad [m]", "apogee from pad [m]", "bearing [deg]",
+              "apogee moved towards the wind's source [m]", "tilt at first burnout [deg]",
+              "heading at first burnout [deg]", "max angle of attack, powered [deg]"]
+    n = numeric
+    rows = [[f["flight"], _f(f["apogee_m"], ",.0f", n), _f(f["apogee_change_m"], "+,.0f", n),
+             _f(f["time_to_apogee_s"], ".1f", n), _f(f["apogee_east_m"], ",.0f", n),
+             _f(f["apogee_north_m"], ",.0f", n), _f(f["apogee_distance_m"], ",.0f", n),
+             _f(f["apogee_bearing_deg"], ".0f", n), _f(f["apogee_shift_upwind_m"], "+,.0f", n),
+             _f(f["burnout_tilt_deg"], ".1f", n), _f(f["burnout_heading_deg"], ".0f", n),
+             _f(f["max_angle_of_attack_deg"], ".1f", n)] for f in flights]
+    title = (f"Ascent in wind ({w['description']}; rail-exit angle of attack "
+             f"{w['rail_exit_angle_of_attack_deg']:.1f} deg; body axis turned by the airframe's restoring and "
+             "damping moments; zero-lift limit: aligns with the relative wind at once)")
+    return title, header, rows
+
+
 def ejection_rows(result, numeric: bool = False) -> tuple[str, list[str], list[list[Any]]]:
     """Each motor's ejection delay against the coast to apogee (`numeric`: numbers, not text)."""
     ej = _h(result).get("ejection")
@@ -74,7 +105,8 @@ def ejection_rows(result, numeric: bool = False) -> tuple[str, list[str], list[l
     rows = [[e["stage"] + (" (separated)" if e["separated"] else ""), e["motor"], _f(e["delay_s"], "g", n),
              _f(e["coast_to_apogee_s"], ".1f", n), _f(e["deploy_offset_s"], "+.1f", n),
              _f(e["speed_at_deploy_m_s"], ".0f", n), e["verdict"], _f(e["recommended_delay_s"], "g", n)] for e in ej]
-    return "Ejection timing (within 2 s of apogee counts as ok; common practice, no source)", header, rows
+    where = "flight in the stated wind; " if (_h(result).get("wind") or {}).get("flights") else ""
+    return f"Ejection timing ({where}within 2 s of apogee counts as ok; common practice, no source)", header, rows
 
 
 def recovery_rows(result, numeric: bool = False) -> tuple[str, list[str], list[list[Any]]]:
@@ -102,8 +134,10 @@ def recovery_rows(result, numeric: bool = False) -> tuple[str, list[str], list[l
                      _f(r["descent_time_s"], ".0f", n), _f(r["landing_rate_m_s"], ".1f", n),
                      _f(r["drift_m"], ",.0f", n), _f(r["landing_distance_m"], ",.0f", n),
                      _f(r["landing_bearing_deg"], ".0f", n)])
-    wind = (_h(result).get("wind") or {}).get("description", "calm")
-    return (f"Recovery (drag equation, quasi-steady descent; wind {wind}; ascent in calm air)", header, rows)
+    w = _h(result).get("wind") or {}
+    ascent = "from the apogee flown in the stated wind" if w.get("flights") else "ascent in calm air"
+    return (f"Recovery (drag equation, quasi-steady descent; wind {w.get('description', 'calm')}; {ascent})",
+            header, rows)
 
 
 def transposed(table: tuple[str, list[str], list[list[str]]], *, key_columns: int = 1):
@@ -113,10 +147,19 @@ def transposed(table: tuple[str, list[str], list[list[str]]], *, key_columns: in
     return title, head, [[header[j]] + [r[j] for r in rows] for j in range(key_columns, len(header))]
 
 
+_TABLES = (("stability", stability_rows), ("ascent", ascent_rows), ("ejection", ejection_rows),
+           ("recovery", recovery_rows))
+
+
 def safety_tables(result, numeric: bool = False) -> list[tuple[str, list[str], list[list[Any]]]]:
     """The non-empty safety tables, in print order (`numeric`: numbers for CSV and XLSX)."""
-    tables = (stability_rows(result, numeric), ejection_rows(result, numeric), recovery_rows(result, numeric))
+    tables = (fn(result, numeric) for _k, fn in _TABLES)
     return [t for t in tables if t[2]]
+
+
+def safety_sheet_names(result) -> list[str]:
+    """XLSX sheet names of `safety_tables(result)`, in the same order."""
+    return [SAFETY_SHEETS[k] for k, fn in _TABLES if fn(result)[2]]
 
 
 # ---------------------------------------------------------------- sketch
@@ -184,6 +227,107 @@ def sketch_svg(result, *, width_px: int = 900, caution: str | None = None) -> st
     return "\n".join(out)
 
 
+def _nice_step(span: float) -> float:
+    """A round scale-bar length (1, 2 or 5 times a power of ten) near a fifth of `span`."""
+    raw = max(span, 1e-9) / 5.0
+    p = 10.0 ** math.floor(math.log10(raw))
+    return next(k * p for k in (1.0, 2.0, 5.0, 10.0) if k * p >= raw)
+
+
+def ground_plan_svg(result, *, size_px: int = 600) -> str:
+    """Plan view (north up, east right, to scale) of the pad, the apogee points and the landing points.
+
+    Apogee of each ascent of the wind comparison (open circle: calm air;
+    filled: the stated wind; cross: its zero-lift limit), each stage's landing
+    point (square), a thin line from the apex of each descent to its landing
+    point, the surface wind as an arrow and a scale bar. Empty without a wind
+    or a recovery table.
+    """
+    h = _h(result)
+    w = h.get("wind") or {}
+    flights = w.get("flights") or []
+    rec = h.get("recovery") or []
+    if not flights or not rec:
+        return ""
+    pts = [(0.0, 0.0)] + [(f["apogee_east_m"], f["apogee_north_m"]) for f in flights]
+    pts += [(r["landing_east_m"], r["landing_north_m"]) for r in rec] + [(r["apex_east_m"], r["apex_north_m"])
+                                                                        for r in rec if "apex_east_m" in r]
+    pts = [(e, n) for e, n in pts if math.isfinite(e) and math.isfinite(n)]
+    e0, e1 = min(p[0] for p in pts), max(p[0] for p in pts)
+    n0, n1 = min(p[1] for p in pts), max(p[1] for p in pts)
+    span = max(e1 - e0, n1 - n0, 50.0)
+    pad = 70.0
+    scale = (size_px - 2 * pad) / span
+    ec, nc = 0.5 * (e0 + e1), 0.5 * (n0 + n1)
+
+    def X(e):
+        return size_px / 2 + (e - ec) * scale
+
+    def Y(n):
+        return size_px / 2 - (n - nc) * scale
+
+    def label(x, y, text):  # beside a marker, on the side facing the middle
+        right = x <= size_px / 2
+        return (f'<text x="{x + (8 if right else -8):.1f}" y="{y + 4:.1f}" '
+                f'text-anchor="{"start" if right else "end"}">{html.escape(text)}</text>')
+
+    out = [f'<svg xmlns="http://www.w3.org/2000/svg" width="{size_px}" height="{size_px + 44}" '
+           f'viewBox="0 0 {size_px} {size_px + 44}" font-family="sans-serif" font-size="11">',
+           f'<rect width="{size_px}" height="{size_px + 44}" fill="white" stroke="#bbb"/>',
+           f'<text x="{size_px - 22}" y="20">N</text>',
+           f'<line x1="{size_px - 18}" y1="48" x2="{size_px - 18}" y2="26" stroke="black" marker-end="url(#tip)"/>',
+           '<defs><marker id="tip" markerWidth="8" markerHeight="8" refX="4" refY="4" orient="auto">'
+           '<path d="M0,0 L8,4 L0,8 z" fill="black"/></marker></defs>']
+    x, y = X(0.0), Y(0.0)
+    out.append(f'<polygon points="{x:.1f},{y - 7:.1f} {x - 6:.1f},{y + 5:.1f} {x + 6:.1f},{y + 5:.1f}" '
+               'fill="black"/>')
+    out.append(label(x, y, "pad"))
+    for r in rec:
+        if "apex_east_m" in r:
+            out.append(f'<line x1="{X(r["apex_east_m"]):.1f}" y1="{Y(r["apex_north_m"]):.1f}" '
+                       f'x2="{X(r["landing_east_m"]):.1f}" y2="{Y(r["landing_north_m"]):.1f}" stroke="#777" '
+                       'stroke-dasharray="3 2"/>')
+        xl, yl = X(r["landing_east_m"]), Y(r["landing_north_m"])
+        out.append(f'<rect x="{xl - 4:.1f}" y="{yl - 4:.1f}" width="8" height="8" fill="#999" stroke="black"/>')
+        out.append(label(xl, yl, f'{r["stage"]} lands {r["landing_distance_m"]:,.0f} m from the pad'))
+    for k, f in enumerate(flights):
+        xa, ya = X(f["apogee_east_m"]), Y(f["apogee_north_m"])
+        if k == 0:
+            out.append(f'<circle cx="{xa:.1f}" cy="{ya:.1f}" r="5" fill="white" stroke="black"/>')
+        elif k == 1:
+            out.append(f'<circle cx="{xa:.1f}" cy="{ya:.1f}" r="5" fill="black"/>')
+        else:
+            out += [f'<line x1="{xa - 5:.1f}" y1="{ya - 5:.1f}" x2="{xa + 5:.1f}" y2="{ya + 5:.1f}" stroke="black"/>',
+                    f'<line x1="{xa - 5:.1f}" y1="{ya + 5:.1f}" x2="{xa + 5:.1f}" y2="{ya - 5:.1f}" stroke="black"/>']
+        out.append(label(xa, ya, ("calm", "wind", "zero-lift")[min(k, 2)]))
+    # wind arrow: where the air goes, from the first flight's upwind direction
+    up_e, up_n = _upwind_unit(result)
+    if up_e or up_n:
+        x0, y0 = 30.0, size_px - 30.0
+        out.append(f'<line x1="{x0 + 22 * up_e:.1f}" y1="{y0 - 22 * up_n:.1f}" x2="{x0 - 22 * up_e:.1f}" '
+                   f'y2="{y0 + 22 * up_n:.1f}" stroke="black" stroke-width="2" marker-end="url(#tip)"/>')
+        out.append(f'<text x="{x0 + 30:.1f}" y="{y0 + 4:.1f}">wind near the ground</text>')
+    step = _nice_step(span)
+    out += [f'<line x1="{pad:.1f}" y1="{size_px - 8:.1f}" x2="{pad + step * scale:.1f}" y2="{size_px - 8:.1f}" '
+            'stroke="black" stroke-width="2"/>',
+            f'<text x="{pad + step * scale + 6:.1f}" y="{size_px - 4:.1f}">{step:,.0f} m</text>',
+            f'<text x="8" y="{size_px + 18}">plan view, north up, to scale. Triangle: pad. Apogee: open circle in '
+            'calm air, filled circle in the stated wind,</text>',
+            f'<text x="8" y="{size_px + 34}">cross in its zero-lift limit. Squares: landing points, dashed from '
+            'the apex of each descent.</text>', "</svg>"]
+    return "\n".join(out)
+
+
+def _upwind_unit(result) -> tuple[float, float]:
+    """Unit (east, north) towards where the wind comes from near the ground (from the description's data)."""
+    w = _h(result).get("wind") or {}
+    d = w.get("surface_from_deg")
+    if d is None:
+        return 0.0, 0.0
+    a = math.radians(d)
+    return math.sin(a), math.cos(a)
+
+
 def _table_html(title: str, header: list[str], rows: list[list[str]]) -> str:
     th = "".join(f"<th>{html.escape(h)}</th>" for h in header)
     body = "".join("<tr>" + "".join(f"<td>{html.escape(str(c))}</td>" for c in r) + "</tr>" for r in rows)
@@ -197,6 +341,9 @@ def hobby_html(result, *, tables: list[tuple[str, list[str], list[list[str]]]] |
     svg = sketch_svg(result)
     if svg:
         parts.append("<h2>Side view</h2>\n" + svg)
+    plan = ground_plan_svg(result)
+    if plan:
+        parts.append("<h2>Plan view: apogee and landing points</h2>\n" + plan)
     for t in (tables if tables is not None else safety_tables(result)):
         parts.append(_table_html(*t))
     notes = [w for w in result.warnings if w != caution]

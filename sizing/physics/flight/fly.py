@@ -12,16 +12,22 @@ from __future__ import annotations
 
 import math
 from collections.abc import Sequence
+from typing import TYPE_CHECKING
 
 import numpy as np
 
 from sizing.errors import FieldError
+from sizing.physics.flight import layout as L
 from sizing.physics.flight.kernel import run_flight, run_many
 from sizing.physics.flight.profiles import AscentProfile
 from sizing.physics.flight.results import FlightResult, assemble
 from sizing.physics.flight.setup import FlightSetup, Wind, prepare_flight
 from sizing.physics.vehicle import LaunchSite, Vehicle
+from sizing.physics.wind import WindProfile
 from sizing.units import G0_M_S2
+
+if TYPE_CHECKING:
+    from sizing.physics.airframe import Configuration
 
 __all__ = [
     "HOBBY_MIN_LIFTOFF_TW", "DTEG_MIN_RAIL_EXIT_SPEED_M_S", "HOBBY_MIN_RAIL_EXIT_SPEED_M_S",
@@ -84,7 +90,8 @@ def simulate(vehicle: Vehicle, site: LaunchSite, *, profile: str, ascent: Ascent
              earth: str = "round", rotating: bool = False, with_drag: bool = True, with_gravity: bool = True,
              stop_at: str = "apogee", max_step_s: float | None = None, record_history: bool = True,
              acceleration_limit_m_s2: float | None = None, detect_impact: bool = True, rtol: float = 1e-8,
-             wind: Wind | None = None, atmosphere: tuple | None = None) -> FlightResult:
+             wind: Wind | WindProfile | None = None, atmosphere: tuple | None = None,
+             stability: Sequence[Configuration] | None = None) -> FlightResult:
     """Integrate one flight; `fly_vertical` and `fly_ascent` are the usual entry points.
 
     Parameters are those of `fly_vertical` / `fly_ascent`; `profile` is
@@ -93,7 +100,9 @@ def simulate(vehicle: Vehicle, site: LaunchSite, *, profile: str, ascent: Ascent
     ascent that falls below the ground flies on to final burnout (through a
     vacuum below ground), which keeps the end state continuous in the steering
     parameters for the steering optimiser; the result then carries a warning.
-    `wind` adds a horizontal wind (`Wind`). `atmosphere` replaces the US
+    `wind` adds a horizontal wind (`Wind` or `sizing.physics.wind.WindProfile`);
+    `stability` (vertical profile) flies the body axis under the aerodynamic
+    moments (see `fly_vertical`). `atmosphere` replaces the US
     Standard Atmosphere 1976 by ``("exponential", rho0 [kg/m^3], scale height
     [m])``, optionally with ``mu [m^3/s^2], radius [m]`` of the central body
     (benchmark problems).
@@ -101,7 +110,7 @@ def simulate(vehicle: Vehicle, site: LaunchSite, *, profile: str, ascent: Ascent
     setup = prepare_flight(vehicle, site, profile=profile, ascent=ascent, earth=earth, rotating=rotating,
                            with_drag=with_drag, with_gravity=with_gravity, stop_at=stop_at, max_step_s=max_step_s,
                            record_history=record_history, detect_impact=detect_impact, rtol=rtol, wind=wind,
-                           atmosphere=atmosphere)
+                           atmosphere=atmosphere, stability=stability)
     kernel_out = run_flight(*setup.kernel_args(512 if record_history else 1))
     if profile == "ascent":
         ascent = ascent or AscentProfile()
@@ -112,7 +121,8 @@ def simulate(vehicle: Vehicle, site: LaunchSite, *, profile: str, ascent: Ascent
 def fly_vertical(vehicle: Vehicle, site: LaunchSite, *, earth: str = "flat", with_drag: bool = True,
                  with_gravity: bool = True, stop_at: str = "apogee", max_step_s: float | None = None,
                  record_history: bool = True, acceleration_limit_m_s2: float | None = None,
-                 wind: Wind | None = None, rtol: float = 1e-8) -> FlightResult:
+                 wind: Wind | WindProfile | None = None, rtol: float = 1e-8,
+                 stability: Sequence[Configuration] | None = None) -> FlightResult:
     """Near-vertical flight from a launch rail (sounding and hobby rockets).
 
     The vehicle slides along the rail (length `site.rail_length_m`, tilted
@@ -138,11 +148,18 @@ def fly_vertical(vehicle: Vehicle, site: LaunchSite, *, earth: str = "flat", wit
         Keep the time history (off saves time in optimisation loops).
     acceleration_limit_m_s2 : float, optional
         Add a warning when the sensed acceleration exceeds it.
-    wind : Wind, optional
-        Horizontal wind (the zero-lift vehicle turns into it: weathercocking of
-        a very stable vehicle).
+    wind : Wind or WindProfile, optional
+        Horizontal wind (the zero-lift vehicle turns into it at once: the
+        weathercocking of a body that aligns instantly).
     rtol : float
         Relative tolerance of the integrator [-].
+    stability : sequence of sizing.physics.airframe.Configuration, optional
+        One per stage (item i: stage i the lowest attached, e.g.
+        `sizing.optimize.hobby_safety.stack_configurations`). After rail exit
+        the thrust acts along the body axis, which turns under the restoring
+        and damping moments of the Barrowman components, and the normal force
+        acts on the flight (`sizing.physics.flight.equations`, ``MODE_BODY``).
+        The masses of the configurations should match the vehicle's.
 
     Returns
     -------
@@ -165,7 +182,7 @@ def fly_vertical(vehicle: Vehicle, site: LaunchSite, *, earth: str = "flat", wit
     return simulate(vehicle, site, profile="vertical", earth=earth, rotating=False, with_drag=with_drag,
                     with_gravity=with_gravity, stop_at=stop_at, max_step_s=max_step_s,
                     record_history=record_history, acceleration_limit_m_s2=acceleration_limit_m_s2, wind=wind,
-                    rtol=rtol)
+                    rtol=rtol, stability=stability)
 
 
 def fly_ascent(vehicle: Vehicle, site: LaunchSite, profile: AscentProfile | None = None, *, rotating: bool = True,
@@ -200,12 +217,14 @@ def fly_ascent(vehicle: Vehicle, site: LaunchSite, profile: AscentProfile | None
 def fly_many(vehicles: Sequence[Vehicle], site: LaunchSite | Sequence[LaunchSite], profiles=None, *,
              profile: str = "ascent", rotating: bool = True, earth: str = "round", with_drag: bool = True,
              stop_at: str = "apogee", rtol: float = 1e-8, winds=None,
-             acceleration_limit_m_s2: float | None = None) -> tuple[FlightResult, ...]:
+             acceleration_limit_m_s2: float | None = None,
+             stabilities: Sequence | None = None) -> tuple[FlightResult, ...]:
     """Fly many vehicles (each with its own stages, drag tables, thrusts, site, profile, wind) in one compiled call.
 
     The vehicles must have the same number of stages. No time history is kept.
     Studies and dispersion runs use this path; each result equals the one of
-    `simulate` for the same inputs.
+    `simulate` for the same inputs. `stabilities` (vertical profile): one
+    `stability` sequence per vehicle, or one for all (see `fly_vertical`).
     """
     vehicles = list(vehicles)
     if not vehicles:
@@ -218,12 +237,14 @@ def fly_many(vehicles: Sequence[Vehicle], site: LaunchSite | Sequence[LaunchSite
     sites = list(site) if isinstance(site, Sequence) else [site] * n
     profs = list(profiles) if isinstance(profiles, Sequence) else [profiles] * n
     wind_list = list(winds) if isinstance(winds, Sequence) else [winds] * n
+    one_set = stabilities is None or (len(stabilities) > 0 and not isinstance(stabilities[0], Sequence))
+    stab_list = [stabilities] * n if one_set else list(stabilities)
     setups = []
-    for v, s, p, w in zip(vehicles, sites, profs, wind_list):
+    for v, s, p, w, c in zip(vehicles, sites, profs, wind_list, stab_list):
         setups.append(prepare_flight(
             v, s, profile=profile, ascent=(p or AscentProfile()) if profile == "ascent" else None, earth=earth,
             rotating=rotating and profile == "ascent", with_drag=with_drag, stop_at=stop_at, record_history=False,
-            rtol=rtol, wind=w))
+            rtol=rtol, wind=w, stability=c))
     kernel_outs = _run_packed(setups)
     return tuple(
         _finish(s, k, v, st, profile=profile, ascent=(p or AscentProfile()) if profile == "ascent" else None,
@@ -237,5 +258,5 @@ def _run_packed(setups: list[FlightSetup]):
     outs, yf, yb, burns = run_many(
         np.concatenate([s.phases for s in setups]), phase_off, np.concatenate([s.par for s in setups]), par_off,
         np.stack([s.opt for s in setups]), np.stack([s.y0 for s in setups]))
-    empty = np.zeros((0, 16))
+    empty = np.zeros((0, L.H_SIZE))
     return [(outs[j], yf[j], yb[j], burns[j], empty) for j in range(len(setups))]

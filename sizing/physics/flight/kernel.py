@@ -28,7 +28,7 @@ from sizing.physics.flight.events import (
 )
 from sizing.physics.flight.integrator import dense, dp_step, step_factor
 from sizing.physics.flight.layout import (
-    B_SIZE, B_STAGE, B_T, B_Y, D_ACC, D_ALT, D_DRAG, D_MACH, D_Q, D_THRUST, D_VREL, END_APOGEE, END_BURNOUT,
+    B_SIZE, B_STAGE, B_T, B_Y, D_ACC, D_ALPHA, D_ALT, D_DRAG, D_MACH, D_Q, D_THRUST, D_VREL, END_APOGEE, END_BURNOUT,
     END_IMPACT, END_TIME_LIMIT, ENV_DRAG, ENV_RAIL_LEN, ENV_SITE_ALT, H_SIZE, MODE_LINEAR_TANGENT,
     MODE_PITCH_RATE, N_DIAG, N_MOTION, N_STATE, OPT_DETECT_IMPACT, OPT_H_FIRST, OPT_MAX_STEP, OPT_MAX_TIME,
     OPT_N_MARKS, OPT_N_STAGES, OPT_POS_SCALE, OPT_RECORD, OPT_REPLAY, OPT_RTOL, OPT_STOP, OPT_VEL_SCALE, OPT_VERTICAL, OUT_APOGEE,
@@ -51,11 +51,11 @@ W_SIZE = 13
 class _Buffers:
     """Documentation only: the work arrays passed between the kernel's functions.
 
-    K, Kc (7 x 13): stages of the step and of a cut trial; y1, yc, ye, ytmp (13):
-    step end, cut-step end, event state, scratch; diag (7): at the last recorded
-    state; diag1, diagc (7): at the step end, at the cut-step end; track (3 x 3):
+    K, Kc (7 x N_STATE): stages of the step and of a cut trial; y1, yc, ye, ytmp (N_STATE):
+    step end, cut-step end, event state, scratch; diag (N_DIAG): at the last recorded
+    state; diag1, diagc (N_DIAG): at the step end, at the cut-step end; track (3 x 3):
     last (t, altitude, Mach) samples; qs (3 x 3): last (t, q, step slot) samples;
-    stp_t0, stp_h, stp_ph (2), stp_y0 (2 x 13), stp_K (2 x 7 x 13): the last two
+    stp_t0, stp_h, stp_ph (2), stp_y0 (2 x N_STATE), stp_K (2 x 7 x N_STATE): the last two
     accepted steps for the max-q search.
     """
 
@@ -159,6 +159,7 @@ def _history_row(hist, n, t, y, diag, stage):
     row[13] = diag[D_THRUST]
     row[14] = diag[D_DRAG]
     row[15] = stage
+    row[16] = diag[D_ALPHA]
 
 
 @njit
@@ -476,7 +477,7 @@ def run_flight(phases, par, opt, y_init, hist_cap):
 
     phases: PH_* rows; par: the flight's parameter array (copied: the kernel
     writes the steering start into it); opt: OPT_* options; y_init: the
-    13-component state at t = 0. out: OUT_* scalars; y_budget: state at final
+    N_STATE-component state at t = 0. out: OUT_* scalars; y_budget: state at final
     burnout (or the last state); burnouts: one row per stage (B_* layout, nan
     for stages that did not burn out); history: H_* columns, OUT_N_HIST rows
     (unsorted where max-q was refined); steps: (phase index, step-end fraction
@@ -543,7 +544,7 @@ def run_many(phase_rows, phase_off, pars, par_off, opts, y_inits):
     """Fly a batch without history: flight j uses phase rows phase_off[j]:phase_off[j+1], the parameter
     array pars[par_off[j]:par_off[j+1]] and row j of opts and y_inits.
 
-    Returns (out [n x OUT_SIZE], y_final [n x 13], y_budget [n x 13], burnouts [n x n_st x B_SIZE]).
+    Returns (out [n x OUT_SIZE], y_final [n x N_STATE], y_budget [n x N_STATE], burnouts [n x n_st x B_SIZE]).
     """
     n = phase_off.shape[0] - 1
     n_rows = int(opts[0, OPT_N_STAGES]) + int(opts[0, OPT_N_MARKS])

@@ -4,22 +4,30 @@ The compiled functions take plain float64 arrays (numba compiles them once and
 for all vehicles). Each array's slots are named here, once; the Python side
 (`sizing.physics.flight.setup`) fills them, the compiled side reads them.
 
-State vector ``y`` (13 components)
+State vector ``y`` (19 components)
     0-2 position [m] and 3-5 velocity [m/s] in the inertial frame (Earth-centred
     for a round Earth, local for the flat Earth), 6 mass [kg], then the loss
-    integrals [m/s]: 7 gravity, 8 drag, 9 steering, 10 pressure, 11 ideal
-    delta-v (int F_vac/m dt), 12 centrifugal (int a_cf . v_hat dt).
-Diagnostics ``diag`` (7 components)
+    integrals [m/s]: 7 gravity, 8 drag (with the normal force of a body-axis
+    flight), 9 steering, 10 pressure, 11 ideal delta-v (int F_vac/m dt),
+    12 centrifugal (int a_cf . v_hat dt); then the attitude of a body-axis
+    flight (`MODE_BODY`): 13-15 the unit body axis (nose direction) and 16-18 the
+    angular velocity [rad/s], inertial axes. Outside body-axis phases the
+    attitude components stand still.
+Diagnostics ``diag`` (8 components)
     altitude [m], Earth-relative speed [m/s], Mach [-], dynamic pressure [Pa],
-    sensed acceleration [m/s^2], delivered thrust [N], drag [N].
+    sensed acceleration [m/s^2], delivered thrust [N], drag [N], angle of attack
+    [rad] (between the body axis and the air-relative velocity; 0 outside
+    body-axis phases).
 """
 
 from __future__ import annotations
 
-N_STATE = 13
-N_MOTION = 7  # position, velocity, mass: what the right-hand side reads
-N_DIAG = 7
-D_ALT, D_VREL, D_MACH, D_Q, D_ACC, D_THRUST, D_DRAG = range(N_DIAG)
+N_STATE = 19
+N_MOTION = 7  # position, velocity, mass: what the right-hand side reads (plus the attitude in MODE_BODY)
+Y_AXIS = 13  # 13-15 body axis (unit), MODE_BODY
+Y_OMEGA = 16  # 16-18 angular velocity [rad/s], MODE_BODY
+N_DIAG = 8
+D_ALT, D_VREL, D_MACH, D_Q, D_ACC, D_THRUST, D_DRAG, D_ALPHA = range(N_DIAG)
 
 # --- flight parameters ``par`` ----------------------------------------------
 # One array per flight: the environment (ENV_*), the steering constants (ST_*),
@@ -45,7 +53,7 @@ ENV_UP0 = 16  # 16-18 local vertical at the site
 ENV_AZ0 = 19  # 19-21 horizontal unit vector towards the launch azimuth at the site
 ENV_RAIL = 22  # 22-24 rail direction (unit)
 ENV_RAIL_LEN = 25  # rail length [m]
-ENV_WIND_MODEL = 26  # 0 none, 1 power law, 2 table (speed vs height above site)
+ENV_WIND_MODEL = 26  # 0 none, 1 power law, 2 table (speed vs height above site), 3 table of components
 ENV_WIND_REF_SPEED = 27  # power law: speed at the reference height [m/s]
 ENV_WIND_REF_HEIGHT = 28  # power law: reference height above the site [m]
 ENV_WIND_EXPONENT = 29  # power law exponent [-] (0: constant wind)
@@ -70,14 +78,32 @@ ST_TANF = 47  # tan(ST_THF)
 
 TB_PITCH_OFF = 48  # pitch table: times [s] at [off, off + n), pitch [rad] at [off + n, off + 2 n)
 TB_PITCH_N = 49
-TB_WIND_OFF = 50  # wind table: heights above the site [m], then speeds [m/s]
+TB_WIND_OFF = 50  # wind table: heights above the site [m], then speeds [m/s] (model 3: east, then north [m/s])
 TB_WIND_N = 51
 TB_KINK_OFF = 52  # altitudes where the atmosphere is not smooth [m], increasing
 TB_KINK_N = 53
+ENV_WIND_TOP = 54  # power law: the speed is held above this height above the site [m] (inf: no cap)
 PAR_HEADER = 56  # tables start here; each stage's drag table: Mach numbers, then C_D
 
-#: Steering modes of a phase.
-MODE_RAIL, MODE_UP, MODE_KICK, MODE_PROGRADE, MODE_LINEAR_TANGENT, MODE_PITCH_RATE, MODE_TABLE, MODE_FIXED = range(8)
+#: Steering modes of a phase. MODE_BODY: thrust along the body axis, a state that turns under the
+#: aerodynamic moments (`equations.body_aero`; weathercocking of a finite static margin).
+(MODE_RAIL, MODE_UP, MODE_KICK, MODE_PROGRADE, MODE_LINEAR_TANGENT, MODE_PITCH_RATE, MODE_TABLE, MODE_FIXED,
+ MODE_BODY) = range(9)
+
+# --- body aerodynamics and mass properties of one configuration (MODE_BODY) ----
+# A block in ``par`` per configuration (the stack from one stage up), at PH_AERO_OFF:
+# AB_SIZE scalars, then AB_N_MACH Mach numbers and, on them, the sums over the
+# Barrowman components of C_N_alpha_i, C_N_alpha_i x_i [m] and C_N_alpha_i x_i^2 [m^2]
+# (x from the nose tip, per radian, on the reference area).
+AB_AREA = 0  # reference area [m^2]
+AB_NOZZLE_X = 1  # nozzle exit from the nose tip [m] (jet damping)
+AB_M_DRY = 2  # mass without the burning stage's propellant [kg]
+AB_M1_DRY = 3  # its first moment about the nose tip [kg m]
+AB_J_DRY = 4  # its second moment about the nose tip, own rod terms included [kg m^2]
+AB_X_PROP = 5  # centroid of the burning propellant from the nose tip [m]
+AB_J_PROP = 6  # second moment of the propellant per kg about the nose tip [m^2]
+AB_N_MACH = 7
+AB_SIZE = 8
 
 # --- phase table ``phases`` (one row per smooth phase) ---------------------
 PH_T0 = 0
@@ -99,7 +125,8 @@ PH_PITCH = 15  # MODE_FIXED: pitch above the local horizontal [rad]
 PH_MARK = 16  # row of the burnout table to record the state in at T1 (cut-offs that are not burnouts), or -1
 PH_STEP_OFF = 17  # replay: offset in ``par`` of this phase's step-end fractions of the phase duration
 PH_STEP_N = 18  # replay: number of steps (0: adaptive steps)
-PH_SIZE = 19
+PH_AERO_OFF = 19  # MODE_BODY: offset in ``par`` of the configuration's AB_* block
+PH_SIZE = 20
 
 # --- options ``opt`` -----------------------------------------------------------
 OPT_RTOL = 0
@@ -145,12 +172,13 @@ OUT_N_STEPREC = 18  # rows of the step record (phase index, step-end fraction); 
 OUT_SIZE = 19
 
 #: History columns recorded by the kernel (the Python side derives the rest).
-H_T, H_X, H_Y, H_Z, H_VX, H_VY, H_VZ, H_M, H_ALT, H_VREL, H_MACH, H_Q, H_ACC, H_THRUST, H_DRAG, H_STAGE = range(16)
-H_SIZE = 16
+(H_T, H_X, H_Y, H_Z, H_VX, H_VY, H_VZ, H_M, H_ALT, H_VREL, H_MACH, H_Q, H_ACC, H_THRUST, H_DRAG, H_STAGE,
+ H_ALPHA) = range(17)
+H_SIZE = 17
 
 #: Capacity of the step record (steps of one flight, for replay).
 STEP_RECORD_CAP = 8192
 
-#: Burnout record (one row per stage, then one per marked cut-off): time, stage index, 13-component state.
+#: Burnout record (one row per stage, then one per marked cut-off): time, stage index, N_STATE-component state.
 B_T, B_STAGE, B_Y = 0, 1, 2
 B_SIZE = 2 + N_STATE

@@ -15,7 +15,8 @@ from types import MappingProxyType
 import numpy as np
 
 from sizing.physics.flight.layout import (
-    B_T, B_Y, END_APOGEE, END_BURNOUT, END_IMPACT, END_TIME_LIMIT, H_ACC, H_ALT, H_DRAG, H_M, H_MACH, H_Q, H_STAGE,
+    B_T, B_Y, END_APOGEE, END_BURNOUT, END_IMPACT, END_TIME_LIMIT, H_ACC, H_ALPHA, H_ALT, H_DRAG, H_M, H_MACH, H_Q,
+    H_STAGE, N_STATE,
     H_T, H_THRUST, H_VREL, H_X, OUT_APOGEE, OUT_APOGEE_T, OUT_IMPACT_T, OUT_MAX_ACC, OUT_MAXQ,
     OUT_MAXQ_ALT, OUT_MAXQ_T, OUT_N_HIST, OUT_N_REJECTED, OUT_N_RHS, OUT_N_STEPS, OUT_RAIL_T, OUT_RAIL_V,
 )
@@ -87,6 +88,41 @@ class FlightFrame:
         dot = np.einsum("...i,...i->...", r, site)
         return self.radius_m * np.arctan2(cross, dot)
 
+    def east_north_m(self, t, r: np.ndarray, *, vector: bool = False) -> tuple[np.ndarray, np.ndarray]:
+        """Ground offset (east, north) from the launch site [m] of positions (rows) at times t [s].
+
+        Flat Earth: the frame's x (east) and y (north) less the site's. Round
+        Earth: the position turned back into Earth-fixed axes, less the site,
+        projected on the site's east and north (a local tangent plane: close for
+        distances small against the Earth radius). With `vector`, `r` is a
+        vector (e.g. an Earth-relative velocity) and only its components are taken.
+        """
+        r = np.asarray(r, dtype=float)
+        return self.ground_offset(t, r[..., 0], r[..., 1], r[..., 2], vector=vector)
+
+    def ground_offset(self, t, x, y, z, *, vector: bool = False):
+        """`east_north_m` on components (floats, or arrays of one shape): (east, north) [m]."""
+        sx, sy, sz = (0.0, 0.0, 0.0) if vector else self.site_position_m
+        if not self.round_earth:
+            return x - sx, y - sy
+        w = self.omega_rad_s
+        if w == 0.0:
+            c, s = 1.0, 0.0
+        elif isinstance(t, float):
+            c, s = math.cos(w * t), math.sin(w * t)
+        else:
+            c, s = np.cos(w * t), np.sin(w * t)
+        dx = c * x + s * y - sx
+        dy = -s * x + c * y - sy
+        dz = z - sz
+        # east (z component 0) and north unit vectors at the site, Earth-fixed axes
+        ux, uy, uz = self.site_position_m
+        h = math.hypot(ux, uy)
+        ex, ey = -uy / h, ux / h
+        ru = math.sqrt(h * h + uz * uz)
+        nx, ny, nz = -uz * ey / ru, uz * ex / ru, h / ru
+        return dx * ex + dy * ey, dx * nx + dy * ny + dz * nz
+
     def orbit(self, y: np.ndarray) -> OrbitElements:
         """Osculating orbit of a state (Curtis, Orbital Mechanics for Engineering Students, 3rd ed., Ch. 2 and 4)."""
         x, yy, z, vx, vy, vz = (float(c) for c in y[:6])
@@ -131,6 +167,10 @@ class StageBurnout:
         gravity, drag, steering, pressure [m/s].
     centrifugal_m_s : float
         int a_cf . v_hat dt over the interval [m/s] (0 without rotation).
+    east_m, north_m : float
+        Ground offset from the launch site, east and north [m] (`FlightFrame.east_north_m`).
+    east_speed_m_s, north_speed_m_s : float
+        East and north components of the Earth-relative velocity [m/s].
     """
 
     stage: str
@@ -145,6 +185,10 @@ class StageBurnout:
     speed_gain_m_s: float
     losses_m_s: Mapping[str, float]
     centrifugal_m_s: float
+    east_m: float = math.nan
+    north_m: float = math.nan
+    east_speed_m_s: float = math.nan
+    north_speed_m_s: float = math.nan
 
 
 @dataclass(frozen=True, slots=True)
@@ -155,7 +199,9 @@ class FlightHistory:
     (Earth-relative) [m/s], inertial_speed_m_s [m/s], flight_path_angle_deg
     [deg], mach [-], dynamic_pressure_pa [Pa], acceleration_m_s2 (thrust plus
     drag over mass, i.e. sensed) [m/s^2], mass_kg [kg], thrust_n [N], drag_n
-    [N], stage_index (lowest attached stage, 0 = bottom) [-].
+    [N], stage_index (lowest attached stage, 0 = bottom) [-], east_m and north_m
+    (ground offset from the site) [m], angle_of_attack_deg (body axis to the
+    air-relative velocity; 0 unless the body axis is flown) [deg].
     """
 
     t_s: np.ndarray
@@ -171,11 +217,30 @@ class FlightHistory:
     thrust_n: np.ndarray
     drag_n: np.ndarray
     stage_index: np.ndarray
+    angle_of_attack_deg: np.ndarray = field(default_factory=lambda: np.zeros(0))
+    _frame: "FlightFrame | None" = field(default=None, repr=False, compare=False)
+    _positions: np.ndarray = field(default_factory=lambda: np.zeros((0, 3)), repr=False, compare=False)
+
+    @property
+    def east_m(self) -> np.ndarray:
+        """Ground offset east of the launch site [m] (derived when asked for)."""
+        return self._ground()[0]
+
+    @property
+    def north_m(self) -> np.ndarray:
+        """Ground offset north of the launch site [m] (derived when asked for)."""
+        return self._ground()[1]
+
+    def _ground(self) -> tuple[np.ndarray, np.ndarray]:
+        if self._frame is None or self._positions.shape[0] == 0:
+            z = np.zeros(self.t_s.shape)
+            return z, z
+        return self._frame.east_north_m(self.t_s, self._positions)
 
     COLUMNS = (
         "t_s", "altitude_m", "downrange_m", "speed_m_s", "inertial_speed_m_s",
         "flight_path_angle_deg", "mach", "dynamic_pressure_pa", "acceleration_m_s2",
-        "mass_kg", "thrust_n", "drag_n", "stage_index",
+        "mass_kg", "thrust_n", "drag_n", "stage_index", "east_m", "north_m", "angle_of_attack_deg",
     )
 
     def as_columns(self) -> dict[str, np.ndarray]:
@@ -185,7 +250,7 @@ class FlightHistory:
     @classmethod
     def empty(cls) -> "FlightHistory":
         z = np.zeros(0)
-        return cls(*(z for _ in range(12)), np.zeros(0, dtype=np.int64))
+        return cls(*(z for _ in range(12)), np.zeros(0, dtype=np.int64), z)
 
 
 @dataclass(frozen=True, slots=True)
@@ -237,7 +302,10 @@ class FlightResult:
         Accepted and rejected integration steps, right-hand-side evaluations.
     history : FlightHistory
     final_state : numpy.ndarray
-        The 13-component state at the end of the flight (see `layout`).
+        The N_STATE-component state at the end of the flight (see `layout`).
+    end_east_m, end_north_m : float
+        Ground offset from the launch site at the end of the flight (apogee of a
+        vertical flight stopped there), east and north [m].
     """
 
     profile: str
@@ -267,7 +335,9 @@ class FlightResult:
     n_rejected: int = 0
     n_rhs: int = 0
     history: FlightHistory = field(repr=False, default_factory=FlightHistory.empty)
-    final_state: np.ndarray = field(repr=False, default_factory=lambda: np.zeros(13))
+    final_state: np.ndarray = field(repr=False, default_factory=lambda: np.zeros(N_STATE))
+    end_east_m: float = math.nan
+    end_north_m: float = math.nan
 
     @property
     def total_loss_m_s(self) -> float:
@@ -288,7 +358,8 @@ def _history(frame: FlightFrame, hist: np.ndarray) -> FlightHistory:
         mach=np.where((hist[:, H_Q] == 0.0) & (hist[:, H_VREL] > 0.0), np.nan, hist[:, H_MACH]),
         dynamic_pressure_pa=hist[:, H_Q], acceleration_m_s2=hist[:, H_ACC],
         mass_kg=hist[:, H_M], thrust_n=hist[:, H_THRUST], drag_n=hist[:, H_DRAG],
-        stage_index=hist[:, H_STAGE].astype(np.int64),
+        stage_index=hist[:, H_STAGE].astype(np.int64), angle_of_attack_deg=np.degrees(hist[:, H_ALPHA]),
+        _frame=frame, _positions=r,
     )
 
 
@@ -328,13 +399,17 @@ def _burnouts(frame: FlightFrame, names, burn: np.ndarray) -> tuple[StageBurnout
             break
         y = row[B_Y:]
         alt, down, vrel, v_in, fpa = _state_figures(frame, row[B_T], y)
+        east, north = (float(c) for c in frame.ground_offset(float(row[B_T]), y[0], y[1], y[2]))
+        w = frame.omega_rad_s
+        ve, vn = (float(c) for c in frame.ground_offset(float(row[B_T]), y[3] + w * y[1], y[4] - w * y[0], y[5],
+                                                        vector=True))
         acc = y[7:13]
         d = [a - b for a, b in zip(acc, prev)]
         out.append(StageBurnout(
             stage=name, time_s=row[B_T], altitude_m=alt, downrange_m=down, speed_m_s=vrel,
             inertial_speed_m_s=v_in, flight_path_angle_deg=fpa, mass_kg=y[6], ideal_delta_v_m_s=d[4],
             speed_gain_m_s=vrel - speed_prev, losses_m_s=MappingProxyType(dict(zip(LOSS_KEYS, d[:4]))),
-            centrifugal_m_s=d[5],
+            centrifugal_m_s=d[5], east_m=east, north_m=north, east_speed_m_s=ve, north_speed_m_s=vn,
         ))
         prev, speed_prev = acc, vrel
     return tuple(out)
@@ -369,6 +444,7 @@ def assemble(*, frame: FlightFrame, profile: str, stage_names, kernel_out, site_
     orbit = frame.orbit(y) if is_ascent else None
     impact_t = o[OUT_IMPACT_T]
     impact_x = _state_figures(frame, impact_t, y.tolist())[1] if math.isfinite(impact_t) else math.nan
+    end_e, end_n = (float(c) for c in frame.ground_offset(float(o[1]), float(y[0]), float(y[1]), float(y[2])))
     return FlightResult(
         profile=profile, terminated_by=terminated,
         apogee_m=apogee if not is_ascent else math.nan, time_to_apogee_s=t_apogee if not is_ascent else math.nan,
@@ -381,4 +457,5 @@ def assemble(*, frame: FlightFrame, profile: str, stage_names, kernel_out, site_
         budget_residual_m_s=ideal - (v_in - bonus + sum(losses.values())), ascent_profile=ascent,
         targeting_residual=(), warnings=tuple(warnings), n_steps=int(o[OUT_N_STEPS]),
         n_rejected=int(o[OUT_N_REJECTED]), n_rhs=int(o[OUT_N_RHS]), history=history, final_state=y,
+        end_east_m=end_e, end_north_m=end_n,
     )

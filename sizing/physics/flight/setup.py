@@ -10,7 +10,9 @@ linear in time, so the mass integrates exactly.
 from __future__ import annotations
 
 import math
+from collections.abc import Sequence
 from dataclasses import dataclass
+from typing import TYPE_CHECKING
 
 import numpy as np
 
@@ -20,7 +22,11 @@ from sizing.physics.flight import layout as L
 from sizing.physics.flight.profiles import AscentProfile
 from sizing.physics.flight.results import FlightFrame
 from sizing.physics.vehicle import LaunchSite, Vehicle
+from sizing.physics.wind import WindProfile
 from sizing.units import G0_M_S2, GM_EARTH_M3_S2, OMEGA_EARTH_RAD_S, R_EARTH_EQ_M
+
+if TYPE_CHECKING:
+    from sizing.physics.airframe import Configuration
 
 __all__ = ["ATMOSPHERE_TOP_M", "MAX_FLIGHT_TIME_S", "Wind", "FlightSetup", "BurnSchedule", "burn_schedule", "prepare_flight",
            "replay_steps", "altitude_kinks_m"]
@@ -200,7 +206,7 @@ def _stage_constants(vehicle: Vehicle, drag_offsets) -> list[tuple]:
 
 
 def _phase_table(vehicle: Vehicle, sched: BurnSchedule, extra_times, mode_at, drag_offsets, final_coast: bool,
-                 insertion=None) -> np.ndarray:
+                 insertion=None, aero_offsets=None) -> np.ndarray:
     windows = sched.windows
     times = _phase_times(vehicle, sched, extra_times)
     if final_coast:
@@ -237,6 +243,8 @@ def _phase_table(vehicle: Vehicle, sched: BurnSchedule, extra_times, mode_at, dr
             row[L.PH_MODE], row[L.PH_PITCH] = L.MODE_FIXED, fixed_pitch
         row[L.PH_EXIT_AREA], row[L.PH_REF_AREA] = ae, aref
         row[L.PH_DRAG_OFF], row[L.PH_DRAG_LEN] = doff, dlen
+        if aero_offsets is not None:
+            row[L.PH_AERO_OFF] = aero_offsets[stage]
     return rows
 
 
@@ -277,17 +285,52 @@ def _environment(site: LaunchSite, *, round_: bool, omega: float, with_drag: boo
     env[L.ENV_AZ0:L.ENV_AZ0 + 3] = azd
     env[L.ENV_RAIL:L.ENV_RAIL + 3] = rail_u
     env[L.ENV_RAIL_LEN] = site.rail_length_m if vertical else 0.0
-    wind_table = np.zeros(0)
-    if wind is not None and (wind.speed_m_s > 0 or wind.heights_m):
-        env[L.ENV_WIND_TO_EAST], env[L.ENV_WIND_TO_NORTH] = wind.to_unit_east_north()
-        if wind.heights_m:
-            env[L.ENV_WIND_MODEL] = 2.0
-            wind_table = np.concatenate([np.array(wind.heights_m, float), np.array(wind.speeds_m_s, float)])
-        else:
-            env[L.ENV_WIND_MODEL] = 1.0
-            env[L.ENV_WIND_REF_SPEED], env[L.ENV_WIND_REF_HEIGHT] = wind.speed_m_s, wind.reference_height_m
-            env[L.ENV_WIND_EXPONENT] = wind.exponent
-    return env, (r0, up0, east0, north0), wind_table
+    return env, (r0, up0, east0, north0), _wind_slots(env, wind)
+
+
+def _wind_slots(env: np.ndarray, wind: Wind | WindProfile | None) -> np.ndarray:
+    """Fill the ENV_WIND_* slots from a `Wind` or a `sizing.physics.wind.WindProfile`; return the wind table."""
+    env[L.ENV_WIND_TOP] = math.inf
+    if isinstance(wind, WindProfile):
+        if wind.is_calm:
+            return np.zeros(0)
+        if wind.kind == "table":  # components: the direction may turn with height
+            env[L.ENV_WIND_MODEL] = 3.0
+            h = np.array(wind.heights_m, float)
+            east, north = wind.velocity_m_s(h)
+            return np.concatenate([h, east, north])
+        rad = math.radians(wind.direction_from_deg)
+        env[L.ENV_WIND_TO_EAST], env[L.ENV_WIND_TO_NORTH] = -math.sin(rad), -math.cos(rad)
+        env[L.ENV_WIND_MODEL] = 1.0
+        env[L.ENV_WIND_REF_SPEED], env[L.ENV_WIND_REF_HEIGHT] = wind.speed_m_s, wind.reference_height_m
+        env[L.ENV_WIND_EXPONENT] = wind.exponent if wind.kind == "power_law" else 0.0
+        if wind.top_height_m is not None:
+            env[L.ENV_WIND_TOP] = wind.top_height_m
+        return np.zeros(0)
+    if wind is None or not (wind.speed_m_s > 0 or wind.heights_m):
+        return np.zeros(0)
+    env[L.ENV_WIND_TO_EAST], env[L.ENV_WIND_TO_NORTH] = wind.to_unit_east_north()
+    if wind.heights_m:
+        env[L.ENV_WIND_MODEL] = 2.0
+        return np.concatenate([np.array(wind.heights_m, float), np.array(wind.speeds_m_s, float)])
+    env[L.ENV_WIND_MODEL] = 1.0
+    env[L.ENV_WIND_REF_SPEED], env[L.ENV_WIND_REF_HEIGHT] = wind.speed_m_s, wind.reference_height_m
+    env[L.ENV_WIND_EXPONENT] = wind.exponent
+    return np.zeros(0)
+
+
+def _aero_block(config) -> np.ndarray:
+    """The AB_* block (`layout`) of one configuration (a `sizing.physics.airframe.Configuration`)."""
+    m_dry, m1, j_dry, x_p, j_p = config.mass_moments()
+    mach = np.asarray(config.mach_grid, float)
+    cn = np.asarray(config.cn_alpha_table, float)
+    cnx = cn * np.asarray(config.x_cp_table_m, float)
+    cnx2 = np.asarray(config.cn_alpha_x2_table_m2, float)
+    head = np.zeros(L.AB_SIZE)
+    head[L.AB_AREA], head[L.AB_NOZZLE_X] = config.reference_area_m2, config.length_m
+    head[L.AB_M_DRY], head[L.AB_M1_DRY], head[L.AB_J_DRY] = m_dry, m1, j_dry
+    head[L.AB_X_PROP], head[L.AB_J_PROP], head[L.AB_N_MACH] = x_p, j_p, len(mach)
+    return np.concatenate([head, mach, cn, cnx, cnx2])
 
 
 def _liftoff(vehicle: Vehicle, site: LaunchSite, with_gravity: bool, vertical: bool) -> tuple[float, list[str]]:
@@ -354,9 +397,10 @@ def _steering(steer: np.ndarray, vehicle: Vehicle, ascent: AscentProfile, sched:
     return table, extra, t_start
 
 
-def _mode_function(vertical: bool, ascent: AscentProfile | None, t_start: float | None):
+def _mode_function(vertical: bool, ascent: AscentProfile | None, t_start: float | None, body: bool = False):
     if vertical:
-        return lambda mid: L.MODE_PROGRADE
+        mode = L.MODE_BODY if body else L.MODE_PROGRADE
+        return lambda mid: mode
     law = {"linear_tangent": L.MODE_LINEAR_TANGENT, "pitch_rate": L.MODE_PITCH_RATE,
            "table": L.MODE_TABLE}.get(ascent.steering, L.MODE_PROGRADE)
     t_vert = ascent.vertical_rise_s
@@ -377,9 +421,16 @@ def _mode_function(vertical: bool, ascent: AscentProfile | None, t_start: float 
 def prepare_flight(vehicle: Vehicle, site: LaunchSite, *, profile: str, ascent: AscentProfile | None = None,
                    earth: str = "round", rotating: bool = False, with_drag: bool = True, with_gravity: bool = True,
                    stop_at: str = "apogee", max_step_s: float | None = None, record_history: bool = True,
-                   detect_impact: bool = True, rtol: float = 1e-8, wind: Wind | None = None,
-                   atmosphere: tuple | None = None) -> FlightSetup:
-    """Check the options and build the kernel's arrays for one flight (see `fly.simulate`)."""
+                   detect_impact: bool = True, rtol: float = 1e-8, wind: Wind | WindProfile | None = None,
+                   atmosphere: tuple | None = None,
+                   stability: Sequence[Configuration] | None = None) -> FlightSetup:
+    """Check the options and build the kernel's arrays for one flight (see `fly.simulate`).
+
+    `wind` is a `Wind` or a `sizing.physics.wind.WindProfile`. `stability` (vertical
+    profile only) is a sequence of `sizing.physics.airframe.Configuration`, one per
+    stage (item i: stage i the lowest attached): the flight then turns its body
+    axis under the aerodynamic moments (``MODE_BODY``, see `equations`).
+    """
     if earth not in ("round", "flat"):
         raise FieldError("earth", "must be 'round' or 'flat'.", earth)
     if stop_at not in ("apogee", "impact", "burnout"):
@@ -389,6 +440,13 @@ def prepare_flight(vehicle: Vehicle, site: LaunchSite, *, profile: str, ascent: 
     if profile not in ("vertical", "ascent"):
         raise FieldError("profile", "must be 'vertical' or 'ascent'.", profile)
     vertical = profile == "vertical"
+    if stability is not None:
+        stability = tuple(stability)
+        if not vertical:
+            raise FieldError("stability", "applies to the vertical (rail) profile only.", profile)
+        if len(stability) != len(vehicle.stages):
+            raise FieldError("stability", f"needs one configuration per stage ({len(vehicle.stages)}).",
+                             len(stability))
     round_ = earth == "round"
     omega = OMEGA_EARTH_RAD_S if (rotating and round_) else 0.0
     tw_lift, warnings = _liftoff(vehicle, site, with_gravity, vertical)
@@ -411,16 +469,20 @@ def prepare_flight(vehicle: Vehicle, site: LaunchSite, *, profile: str, ascent: 
         pitch_table, extra, t_start = _steering(par, vehicle, ascent, sched, east0, north0, up0, round_)
     kinks = _ALT_KINKS if atmosphere is None else np.array([math.inf])
     tables = [kinks, pitch_table, wind_table]
+    n_st = len(vehicle.stages)
     tables += [np.concatenate([np.array(s.drag.mach, float), np.array(s.drag.cd, float)]) for s in vehicle.stages]
+    if stability is not None:
+        tables += [_aero_block(c) for c in stability]
     starts = L.PAR_HEADER + np.cumsum([0] + [len(t) for t in tables])
     par[L.TB_KINK_OFF], par[L.TB_KINK_N] = starts[0], len(kinks)
     par[L.TB_PITCH_OFF], par[L.TB_PITCH_N] = starts[1], len(pitch_table) // 2
-    par[L.TB_WIND_OFF], par[L.TB_WIND_N] = starts[2], len(wind_table) // 2
-    offsets = starts[3:]
+    par[L.TB_WIND_OFF], par[L.TB_WIND_N] = starts[2], len(wind_table) // (3 if par[L.ENV_WIND_MODEL] == 3.0 else 2)
+    offsets = starts[3:3 + n_st]
+    aero_offsets = starts[3 + n_st:3 + 2 * n_st] if stability is not None else None
     par = np.concatenate([par] + tables)
     final_coast = vertical and stop_at != "burnout"
-    phases = _phase_table(vehicle, sched, extra, _mode_function(vertical, ascent, t_start), offsets, final_coast,
-                          insertion)
+    phases = _phase_table(vehicle, sched, extra, _mode_function(vertical, ascent, t_start, stability is not None),
+                          offsets, final_coast, insertion, aero_offsets)
     total_burn = sum(s.burn_time_s for s in vehicle.stages)
     opt = np.zeros(L.OPT_SIZE)
     opt[L.OPT_RTOL] = rtol
@@ -440,6 +502,7 @@ def prepare_flight(vehicle: Vehicle, site: LaunchSite, *, profile: str, ascent: 
     y0[0:3] = r0
     y0[3], y0[4] = -omega * r0[1], omega * r0[0]
     y0[6] = vehicle.gross_mass_kg
+    y0[L.Y_AXIS:L.Y_AXIS + 3] = par[L.ENV_RAIL:L.ENV_RAIL + 3] if vertical else par[L.ENV_UP0:L.ENV_UP0 + 3]
     frame = FlightFrame(round_, float(par[L.ENV_RADIUS]), omega, r0, float(par[L.ENV_MU]))
     return FlightSetup(phases, par, opt, y0, frame, tw_lift, tuple(warnings), float(np.linalg.norm(y0[3:6])))
 

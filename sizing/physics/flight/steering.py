@@ -1,4 +1,4 @@
-"""Thrust direction laws (compiled): rail, vertical rise, pitch kick, zero-lift turn, pitch programmes.
+"""Thrust direction laws (compiled): rail, vertical rise, pitch kick, zero-lift turn, pitch programmes, body axis.
 
 Pitch programmes give the pitch angle theta of the thrust above the local
 horizontal; the thrust then lies in a vertical plane chosen by the plane mode:
@@ -25,7 +25,7 @@ import math
 
 from sizing.physics._jit import njit
 from sizing.physics.flight.layout import (
-    ENV_AZ0, ENV_RAIL, ENV_ROUND, MODE_FIXED, MODE_KICK, MODE_LINEAR_TANGENT, MODE_PROGRADE,
+    ENV_AZ0, ENV_RAIL, ENV_ROUND, MODE_BODY, MODE_FIXED, MODE_KICK, MODE_LINEAR_TANGENT, MODE_PROGRADE, Y_AXIS,
     MODE_TABLE, MODE_UP, ST_ASCENDING, ST_COS_INC, ST_KICK_COS, ST_KICK_SIN, ST_PLANE_MODE, ST_PLANE_N,
     ST_SPAN, ST_T_START, ST_TAN0, ST_TANF, ST_TH0, ST_THF, ST_YAW_BIAS, TB_PITCH_N, TB_PITCH_OFF,
 )
@@ -110,11 +110,15 @@ def thrust_direction(mode, t, y, up, vhat, has_vel, on_rail, par, fixed_pitch):
     """Unit thrust direction in the inertial frame.
 
     `vhat` is the unit air-relative velocity (valid when `has_vel`); on the
-    rail the thrust is along the rail. `par` is the flight's parameter array
-    (`layout`).
+    rail the thrust is along the rail; in MODE_BODY along the body axis (a
+    state, `equations`). `par` is the flight's parameter array (`layout`).
     """
     if on_rail:
         return par[ENV_RAIL], par[ENV_RAIL + 1], par[ENV_RAIL + 2]
+    if mode == MODE_BODY:
+        bx, by, bz = y[Y_AXIS], y[Y_AXIS + 1], y[Y_AXIS + 2]
+        ib = 1.0 / math.sqrt(bx * bx + by * by + bz * bz)
+        return bx * ib, by * ib, bz * ib
     if mode == MODE_PROGRADE:
         if has_vel:
             return vhat
