@@ -10,7 +10,7 @@ from __future__ import annotations
 import dataclasses
 import math
 from pathlib import Path
-from typing import Any
+from typing import Any, Mapping
 
 from .report.flight_safety import has_safety, safety_sheet_names, safety_tables, transposed, write_sketch
 
@@ -97,13 +97,24 @@ def hobby_rows(result) -> tuple[str, list[str], list[list[str]]]:
     return title, header, rows
 
 
+#: Where the hobby limits come from, as the limits tables print it (second-hand: edition not checked).
+_DTEG = "Spaceport America Cup Design, Test & Evaluation Guide"
+
+
+def _limit_sources(lim: Mapping[str, Any]) -> tuple[str, str]:
+    """(thrust-to-weight, rail-exit speed) source labels of the hobby limits."""
+    tw = f" ({_DTEG} 5.18.2)" if lim["min_thrust_to_weight"] == 5 else ""
+    rail = {"hobby": " (hobby practice)", "dteg": f" ({_DTEG} 10.2.1)"}.get(lim.get("rail_rule"), "")
+    return tw, rail
+
+
 def limit_rows(result) -> list[list[str]]:
     """(check, value with unit, limit with unit) rows of the hobby limits; empty when nothing flew."""
     f = result.flight or {}
     lim = (f.get("hobby") or {}).get("limits") or {}
     if f.get("apogee_m") is None or not lim:
         return []
-    rule = {"hobby": " (hobby practice)", "dteg": " (DTEG 10.2.1)"}.get(lim.get("rail_rule"), "")
+    tw_src, rule = _limit_sources(lim)
     rows = []
     if f.get("target_apogee_m") is not None:
         rows.append(["apogee above site", f"{_f(f['apogee_m'], ',.1f')} m", f">= {f['target_apogee_m']:,.1f} m"])
@@ -111,9 +122,8 @@ def limit_rows(result) -> list[list[str]]:
         if windy is not None:
             rows.append(["apogee above site, stated wind", f"{_f(windy, ',.1f')} m",
                          "shown, not enforced (the search flies calm air)"])
-    rows.append(["liftoff thrust-to-weight", _f(f.get("liftoff_thrust_to_weight"), ".1f"),
-                 f">= {lim['min_thrust_to_weight']:g}"
-                 + (" (DTEG 5.18.2)" if lim["min_thrust_to_weight"] == 5 else "")])
+    rows.append(["liftoff thrust-to-weight (mean thrust)", _f(f.get("liftoff_thrust_to_weight"), ".1f"),
+                 f">= {lim['min_thrust_to_weight']:g}{tw_src}"])
     rail_len = f"{lim['rail_length_m']:g} m rail" + (" assumed" if lim.get("rail_length_assumed") else "")
     rows.append([f"rail-exit speed, {rail_len}", f"{_f(f.get('rail_exit_speed_m_s'), '.1f')} m/s",
                  f">= {lim['min_rail_exit_speed_m_s']:g} m/s{rule}"])
@@ -295,10 +305,9 @@ def _export_extras(result) -> list[list[Any]]:
                             "shown, not enforced"])
         else:
             out.append(["apogee above site", num(f["apogee_m"]), "m", "maximised"])
-        tw = lim["min_thrust_to_weight"]
-        out.append(["liftoff thrust-to-weight", num(f.get("liftoff_thrust_to_weight")), "-",
-                    f">= {tw:g}" + (" (DTEG 5.18.2)" if tw == 5 else "")])
-        rule = {"hobby": " (hobby practice)", "dteg": " (DTEG 10.2.1)"}.get(lim.get("rail_rule"), "")
+        tw_src, rule = _limit_sources(lim)
+        out.append(["liftoff thrust-to-weight (mean thrust)", num(f.get("liftoff_thrust_to_weight")), "-",
+                    f">= {lim['min_thrust_to_weight']:g}{tw_src}"])
         out.append([f"rail-exit speed, {lim['rail_length_m']:g} m rail", num(f.get("rail_exit_speed_m_s")), "m/s",
                     f">= {lim['min_rail_exit_speed_m_s']:g}{rule}"])
         amax = lim.get("max_acceleration_m_s2")

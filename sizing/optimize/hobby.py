@@ -44,7 +44,7 @@ Method (exact branch and bound on a known objective)
    status ``max_simulations``.
 
 The minimum liftoff thrust-to-weight defaults to 5 (Spaceport America Cup
-DTEG req. 5.18.2, as quoted on a university team wiki; also the common hobby
+DTEG req. 5.18.2, quoted second-hand from a university team wiki, edition not checked; also the common hobby
 rule of thumb). The minimum rail-exit speed defaults to 15 m/s (about 50 ft/s,
 common hobby practice, from memory); `DTEG_RAIL_EXIT_SPEED_M_S` = 30.48 m/s
 (100 ft/s, Spaceport America Cup DTEG 10.2.1, as quoted on the same wiki) is the
@@ -83,11 +83,11 @@ __all__ = [
     "search_hobby_stack",
 ]
 
-#: Minimum liftoff thrust-to-weight [-]: Spaceport America Cup DTEG req. 5.18.2, as quoted on a university team wiki.
+#: Minimum liftoff thrust-to-weight [-]: Spaceport America Cup DTEG req. 5.18.2, quoted second-hand from a university team wiki, edition not checked.
 HOBBY_MIN_THRUST_TO_WEIGHT = 5.0
 #: Minimum rail-exit speed [m/s]: ~50 ft/s, common hobby practice (from memory, no source).
 HOBBY_RAIL_EXIT_SPEED_M_S = 15.0
-#: Minimum rail-exit speed [m/s]: 100 ft/s, Spaceport America Cup DTEG 10.2.1, as quoted on a university team wiki.
+#: Minimum rail-exit speed [m/s]: 100 ft/s, Spaceport America Cup DTEG 10.2.1, quoted second-hand from a university team wiki, edition not checked.
 DTEG_RAIL_EXIT_SPEED_M_S = 30.48
 
 HOBBY_CAUTION = (

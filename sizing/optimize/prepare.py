@@ -12,7 +12,7 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 
-from ..errors import MSG_UNKNOWN_METHOD
+from ..errors import MSG_UNKNOWN_METHOD, ProblemDefinitionError
 from ..problem.model import Problem
 
 __all__ = ["Prepared", "prepare", "METHODS", "MSG_LAGRANGE_LIMITS", "MSG_METHOD_NOT_FOR_FLIGHT"]
@@ -67,13 +67,20 @@ def prepare(problem: Problem, *, method: str | None = None) -> Prepared:
         `sizing.optimize.flight_problem.check_flight_problem`).
     """
     m = method or problem.method or "auto"
+
+    def refuse(text: str):
+        # the flag or the file key that asked for the method, then what is allowed
+        if method:
+            raise ValueError(f"--method: {text}")
+        raise ProblemDefinitionError(problem.source, [f"solver.method: {text}"])
+
     if m not in METHODS:
-        raise ValueError(f"{MSG_UNKNOWN_METHOD} {m!r}. Choose one of: {', '.join(repr(x) for x in METHODS)}.")
+        refuse(f"{MSG_UNKNOWN_METHOD} {m!r}. Choose one of: {', '.join(repr(x) for x in METHODS)}.")
     if problem.is_flight_target:
         from .flight_problem import check_flight_problem
 
         if m != "auto":
-            raise ValueError(f"{MSG_METHOD_NOT_FOR_FLIGHT} Got method {m!r}.")
+            refuse(f"{MSG_METHOD_NOT_FOR_FLIGHT} Got method {m!r}.")
         check_flight_problem(problem)
         return Prepared(problem, m)
     model = problem.has_stage_models and any(s.has_mass_model for s in problem.stages)
@@ -81,10 +88,10 @@ def prepare(problem: Problem, *, method: str | None = None) -> Prepared:
         if m in ("lagrange", "cvxpy"):
             from ._stage_nlp import MSG_MODEL_METHOD
 
-            raise ValueError(f"method {m!r} {MSG_MODEL_METHOD} 'slsqp' (or 'auto').")
+            refuse(f"method {m!r} {MSG_MODEL_METHOD} 'slsqp' (or 'auto').")
         return Prepared(problem, "slsqp")
     if m == "auto":
         m = "cvxpy" if problem.has_constraints else "lagrange"
     if m == "lagrange" and problem.has_constraints:
-        raise ValueError(MSG_LAGRANGE_LIMITS)
+        refuse(MSG_LAGRANGE_LIMITS)
     return Prepared(problem, m)

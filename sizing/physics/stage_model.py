@@ -45,7 +45,7 @@ TANK_METHODS = ("per_volume", "pressure_vessel")
 #: Each mass estimating relationship: (item, formula, source, fitted range).
 MERS: tuple[tuple[str, str, str, str], ...] = (
     ("tanks (LH2)", "9.0911 kg/m^3 x tank volume",
-     "D. Akin, ENAE 791 'Mass Estimating Relations', Univ. of Maryland, 2016, slide 5 (found)",
+     "D. Akin, ENAE 791 'Mass Estimating Relations', Univ. of Maryland, 2016, slide 5 (course notes found online; values as printed there)",
      "tank volumes about 10-1,500 m^3 (the slide's regression data)"),
     ("tanks (LOX, RP-1, methane, storables)", "12.158 kg/m^3 x tank volume",
      "Akin 2016, slide 5 (found; LOX fit, RP-1 tanks plotted with it)", "as above"),

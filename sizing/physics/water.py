@@ -98,7 +98,7 @@ R_AIR_J_KG_K = 8314.32 / 28.9644
 #: Ratio of specific heats of air [-] (1.4022 at 288 K per CoolProp, check-values.md section 8; 1.4 used).
 GAMMA_AIR = 1.4
 #: Default safety factor on the rated/burst pressure [-]: burst >= 2 x MEOP (Spaceport America Cup
-#: design, test & evaluation guide, as quoted on a university team wiki).
+#: design, test & evaluation guide, quoted second-hand from a university team wiki, edition not checked).
 DEFAULT_SAFETY_FACTOR = 2.0
 #: Smallest accepted safety factor [-]: the same rule, burst >= 2 x maximum expected operating pressure.
 MIN_SAFETY_FACTOR = 2.0
@@ -113,7 +113,7 @@ MSG_PRESSURE_LIMIT = (
 )
 MSG_SAFETY_FACTOR = (
     "must be >= 2: the burst (or rated) pressure must be at least 2 x the maximum expected operating "
-    "pressure (Spaceport America Cup design, test & evaluation guide, as quoted on a university team wiki)"
+    "pressure (Spaceport America Cup design, test & evaluation guide, quoted second-hand from a university team wiki, edition not checked)"
 )
 MSG_FILL_FRACTION = "must be in (0, 1)"
 MSG_NO_LIFTOFF = "no design within the bounds can lift off and clear the rail or launch tube"

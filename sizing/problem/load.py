@@ -39,15 +39,25 @@ from .stage_load import property_tables, stage_model_fields
 
 __all__ = ["load_problem", "problem_from_dict", "read_toml", "render_validation_error"]
 
-_TABLES: dict[str, type[BaseModel]] = {
-    "mission": MissionTable,
-    "stage": StageTable,
-    "solver": SolverTable,
-    "launch": LaunchTable,
-    "structure": StructureTable,
-    "propellant_table": PropellantEntryTable,
-    "material_table": MaterialEntryTable,
-}
+def _nested_tables(model: type[BaseModel], out: dict[str, type[BaseModel]] | None = None) -> dict[str, type[BaseModel]]:
+    """Table name -> schema class for every table nested in `model` (the allowed keys of an unknown-key error)."""
+    import typing
+
+    out = {} if out is None else out
+    for name, f in model.model_fields.items():
+        todo = [f.annotation]
+        while todo:
+            t = todo.pop()
+            if isinstance(t, type) and issubclass(t, BaseModel):
+                if name not in out:
+                    out[name] = t
+                    _nested_tables(t, out)
+            else:
+                todo.extend(typing.get_args(t))
+    return out
+
+
+_TABLES: dict[str, type[BaseModel]] = _nested_tables(ProblemFile)
 
 
 def read_toml(path: str | Path) -> dict[str, Any]:

@@ -256,3 +256,24 @@ def test_fly_notes_high_drag_and_max_q(capsys):
     w = json.loads(capsys.readouterr().out)["warnings"]
     assert any(x.startswith("drag loss") and "45 %" in x for x in w), w
     assert any(x.startswith("max-q 175 kPa") for x in w), w
+
+
+def test_method_refusals_name_the_flag_or_key(tmp_path, capsys):
+    """A method that does not apply names where it was asked for: the --method flag or solver.method
+    in the file (one line, exit 2)."""
+    orbit = ROOT / "problems" / "jackdaw_orbit.toml"
+    assert main(["solve", str(orbit), "--method", "slsqp"]) == EXIT_BAD_INPUT
+    assert capsys.readouterr().err.startswith("error: --method: methods")
+    path = tmp_path / "m.toml"
+    path.write_text(orbit.read_text() + '\n[solver]\nmethod = "slsqp"\n')
+    assert main(["solve", str(path)]) == EXIT_BAD_INPUT
+    err = capsys.readouterr().err
+    assert err.startswith(f"error: {path}: solver.method: methods") and err.count("\n") == 1
+
+
+def test_unknown_steering_key_lists_the_steering_keys(tmp_path, capsys):
+    path = tmp_path / "s.toml"
+    path.write_text((ROOT / "problems" / "jackdaw_orbit.toml").read_text() + "\n[steering]\nfoo = 1\n")
+    assert main(["check", str(path)]) == EXIT_BAD_INPUT
+    err = capsys.readouterr().err
+    assert "steering.foo: unknown key" in err and "nodes_per_stage" in err and "mission" not in err
