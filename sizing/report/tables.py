@@ -3,7 +3,6 @@
 from __future__ import annotations
 
 import math
-from typing import Any, Sequence
 
 from ..result import CAUTION, SizingResult
 from .flight_tables import (
