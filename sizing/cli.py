@@ -95,10 +95,12 @@ def print_result(result, console=None, *, caution: bool = True) -> None:
 
     from .report.tables import (
         TRADE_FACTOR_HEADER,
+        TRADE_FACTOR_TITLE,
         limit_step,
         limit_text,
         limit_value_text,
         stage_columns_table,
+        trade_factor_caption,
         trade_factor_rows,
     )
     from .result import CAUTION
@@ -145,43 +147,68 @@ def print_result(result, console=None, *, caution: bool = True) -> None:
         con.print(t)
     tfr = trade_factor_rows(result)
     if tfr:
-        basis = result.trade_factors.get("basis", "")
-        t = Table(title=escape(f"Trade factors ({basis}): change per step in gross mass (payload fixed) or in "
-                               "payload (gross mass fixed)"), title_justify="left")
+        t = Table(title=TRADE_FACTOR_TITLE, title_justify="left", caption=escape(trade_factor_caption(result)),
+                  caption_justify="left")
         for i, h in enumerate(TRADE_FACTOR_HEADER):
             t.add_column(escape(h), justify="right" if i >= 2 else "left", no_wrap=True)
         for r in tfr:
             t.add_row(*map(escape, r))
         con.print(t)
     if result.flight:
-        from .report.tables import flight_summary_rows
-
-        rows = flight_summary_rows(result)
-        if rows:
-            t = Table(title="Flight", title_justify="left")
-            t.add_column("quantity")
-            t.add_column("value", justify="right")
-            t.add_column("unit")
-            for r in rows:
-                t.add_row(*map(escape, r))
-            con.print(t)
-        from .report.tables import STEERING_HEADER, steering_rows
-
-        srows = steering_rows(result)
-        if srows:
-            t = Table(title="Steering programme (pitch interpolated linearly in time between nodes; fly it with "
-                            "the design file from --out design.toml)", title_justify="left")
-            for i, h in enumerate(STEERING_HEADER):
-                t.add_column(escape(h), justify="right" if i in (1, 2) else "left")
-            for r in srows:
-                t.add_row(*map(escape, r))
-            con.print(t)
+        print_flight(result.flight, con)
     if result.best:
         con.print(escape("best reachable: " + ", ".join(f"{k} = {v:,.6g}" for k, v in result.best.items())))
     for w in result.warnings:
         con.print(f"[yellow]review note:[/] {escape(w)}")
     if caution:
         con.print(f"[dim]{escape(CAUTION)}[/]")
+
+
+def _quantity_table(title: str, header, rows, *, caption: str | None = None, right=(1,)):
+    """A rich table with a left-aligned title (and caption line); columns in `right` right-aligned."""
+    from rich.markup import escape
+    from rich.table import Table
+
+    t = Table(title=escape(title), title_justify="left", caption=escape(caption) if caption else None,
+              caption_justify="left")
+    for i, h in enumerate(header):
+        t.add_column(escape(h), justify="right" if i in right else "left")
+    for r in rows:
+        t.add_row(*map(escape, r))
+    return t
+
+
+def print_flight(flight, con) -> None:
+    """The flight tables `sizing solve` and `sizing fly` share: flight figures, the signed delta-v
+    budget that adds up to the final speed, and the steering programme with its staging events."""
+    from .report.flight_tables import (
+        BUDGET_HEADER,
+        STEERING_CAPTION,
+        STEERING_HEADER,
+        budget_title,
+        delta_v_budget_rows,
+        flight_quantity_values,
+        loss_values,
+        steering_rows,
+    )
+    from .report.formats import fmt
+
+    budget = delta_v_budget_rows(flight)
+    rows = flight_quantity_values(flight) + ([] if budget else loss_values(flight))
+    if rows:
+        con.print(_quantity_table("Flight", ("quantity", "value", "unit"),
+                                  [[label, fmt(v, spec), unit] for label, v, unit, spec in rows]))
+    if budget:
+        from rich.markup import escape
+
+        t = _quantity_table(budget_title(flight), BUDGET_HEADER, budget[:-1])
+        t.add_section()
+        t.add_row(*map(escape, budget[-1]), style="bold")
+        con.print(t)
+    srows = steering_rows(flight)
+    if srows:
+        con.print(_quantity_table("Steering programme and staging", STEERING_HEADER, srows,
+                                  caption=STEERING_CAPTION, right=(0, 3)))
 
 
 def _cmd_check(args) -> int:

@@ -3,7 +3,6 @@
 from __future__ import annotations
 
 import json
-import math
 import sys
 from pathlib import Path
 
@@ -89,7 +88,6 @@ def _cell(v):
 
 def run_fly(args) -> int:
     from rich.markup import escape
-    from rich.table import Table
 
     from .cli import EXIT_BAD_INPUT, EXIT_FAILED, EXIT_OK, _console, error_line
     from .optimize.flight_problem import flight_summary, fly_problem
@@ -116,31 +114,13 @@ def run_fly(args) -> int:
         con = _console()
         con.print(f"[bold]flight[/] {escape(problem.name)}: {fr.profile} profile, ended at {fr.terminated_by}, "
                   f"gross mass {vehicle.gross_mass_kg:,.6g} kg")
-        t = Table(title="Burnout states (bottom stage first; altitude above the launch site, "
-                        "speed relative to Earth, losses = gravity + drag + steering + pressure)",
-                  title_justify="left")
-        for h in ("stage", "t [s]", "alt [m]", "v [m/s]", "path [deg]", "m [kg]", "ideal [m/s]", "loss [m/s]"):
-            width = max([len(h)] + [len(b["stage"]) for b in summary["burnouts"]]) if h == "stage" else len(h)
-            t.add_column(escape(h), justify="left" if h == "stage" else "right", no_wrap=True, min_width=width)
-        for b in summary["burnouts"]:
-            t.add_row(escape(b["stage"]), f"{b['time_s']:.1f}", f"{b['altitude_m'] - problem.launch.altitude_m:,.0f}", f"{b['speed_m_s']:,.1f}",
-                      f"{b['flight_path_angle_deg']:.1f}", f"{b['mass_kg']:,.4g}", f"{b['ideal_delta_v_m_s']:,.1f}",
-                      f"{sum(b['losses_m_s'].values()):,.1f}")
-        con.print(t)
-        from .report.tables import FLIGHT_QUANTITIES
+        from .cli import _quantity_table, print_flight
+        from .report.flight_tables import BURNOUT_HEADER, burnout_rows
 
-        t = Table(title="Flight", title_justify="left")
-        t.add_column("quantity")
-        t.add_column("value", justify="right")
-        t.add_column("unit")
-        for key, label, unit, spec in FLIGHT_QUANTITIES:
-            v = summary.get(key)
-            if isinstance(v, (int, float)) and math.isfinite(v):
-                t.add_row(label, format(v, spec), escape(unit))
-        for k, v in summary["delta_v_budget_m_s"].items():
-            if math.isfinite(v):
-                t.add_row(f"budget: {k}", f"{v + 0.0:,.1f}", "m/s")
-        con.print(t)
+        con.print(_quantity_table("Burnout states (bottom stage first; losses = gravity + drag + steering + pressure)",
+                                  BURNOUT_HEADER, burnout_rows(summary, problem.launch.altitude_m),
+                                  right=range(1, len(BURNOUT_HEADER))))
+        print_flight(summary, con)
         for w in fr.warnings:
             con.print(f"[yellow]review note:[/] {escape(w)}")
         con.print(f"[dim]{escape(CAUTION)}[/]")

@@ -100,16 +100,20 @@ def run_sweep(args) -> int:
 
 
 def _print_table(key: str, rows: list[dict]) -> None:
-    from rich.console import Console
     from rich.markup import escape
     from rich.table import Table
 
-    con = Console(width=None if sys.stdout.isatty() else 200)
+    from .report.formats import fmt, unit_format
+
+    from .cli import _console
+
+    con = _console()
     t = Table(title=f"Sweep of mission.{key}", title_justify="left")
     cols = list(rows[0]) if rows else []
     for c in cols:
         t.add_column(escape(c), justify="left" if c == "status" else "right")
+    specs = {c: unit_format(c, [r.get(c) for r in rows]) for c in cols}
     for r in rows:
-        t.add_row(*(escape(r[c] if isinstance(r[c], str) else (f"{r[c]:,.6g}" if r[c] is not None else "")) for c in cols))
+        t.add_row(*(escape(r[c] if isinstance(r[c], str) else fmt(r[c], specs[c])) for c in cols))
     con.print(t)
     con.print(f"[dim]{escape(CAUTION)}[/]")

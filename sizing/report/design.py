@@ -53,7 +53,7 @@ def design_toml(result: SizingResult) -> str:
     if not d:
         raise ValueError(MSG_NO_DESIGN)
     lines = ["# Design file written by `sizing solve`: the sized vehicle and its steering programme.",
-             "# Fly it with `sizing fly` (it reproduces the solve's flight). Preliminary estimates only:",
+             "# Fly it with `sizing fly` (it reproduces the solve's flight).",
              "# " + CAUTION, ""]
     t = d["target"]
     mission = [("name", d["name"] + " (sized design)"), ("payload_mass", d["payload_mass_kg"])]

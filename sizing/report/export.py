@@ -6,6 +6,7 @@ import json
 from pathlib import Path
 
 from ..result import CAUTION, SizingResult
+from .flight_tables import STEERING_HEADER, delta_v_budget_values, steering_values
 from .tables import (
     STAGE_COLUMNS,
     flight_summary_values,
@@ -25,8 +26,8 @@ def result_json(result: SizingResult) -> str:
     return json.dumps(result.to_dict(), indent=2)
 
 
-def write_stage_table(result: SizingResult, path: str | Path) -> Path:
-    """Write the stage mass table (with totals, trade factors and the caution).
+def write_stage_table(result: SizingResult, path: str | Path, *, title: str | None = None) -> Path:
+    """Write the stage mass table (with totals, trade factors, the flight tables and the caution).
 
     Parameters
     ----------
@@ -34,6 +35,8 @@ def write_stage_table(result: SizingResult, path: str | Path) -> Path:
     path : str or Path
         Extension picks the format: .csv, .md, .json, .xlsx, or .toml (the design
         file of an apogee or orbit result, which `sizing fly` flies).
+    title : str, optional
+        Heading of the .md export (default: the problem name), e.g. a study case.
 
     Raises
     ------
@@ -51,7 +54,7 @@ def write_stage_table(result: SizingResult, path: str | Path) -> Path:
     if ext == ".json":
         p.write_text(result_json(result) + "\n", encoding="utf-8")
     elif ext == ".md":
-        p.write_text(result_markdown(result), encoding="utf-8")
+        p.write_text(result_markdown(result, title=title), encoding="utf-8")
     elif ext == ".csv":
         _write_csv(result, p)
     else:
@@ -84,8 +87,9 @@ def _numeric_frame(result: SizingResult):
 def _section_rows(result: SizingResult) -> list[tuple[str, list[str], list[list]]]:
     """The sections below the stage table, as numbers: (title, header, rows).
 
-    Trade factors, design limits and the flight figures (with the delta-v
-    budget); the same sections go to CSV and XLSX.
+    Trade factors, design limits, the flight figures (with the signed delta-v
+    budget), the steering programme with its staging events (the rows the
+    terminal prints) and the stage hardware; the same sections go to CSV and XLSX.
     """
     out = []
     tf = trade_factor_values(result)
@@ -98,12 +102,14 @@ def _section_rows(result: SizingResult) -> list[tuple[str, list[str], list[list]
                     [[c.name, limit_text(c), c.value, "yes" if c.binding else "no", c.sensitivity,
                       c.sensitivity_unit] for c in result.constraints]))
     fl = flight_summary_values(result)
-    if fl:
+    budget = delta_v_budget_values(result.flight)
+    if fl or budget:
         rows = [[label, v, unit] for label, v, unit, _spec in fl]
-        budget = (result.flight or {}).get("delta_v_budget_m_s") or {}
-        rows += [[f"delta-v budget: {k}", float(v), "m/s"] for k, v in budget.items()
-                 if isinstance(v, (int, float))]
+        rows += [[f"delta-v budget: {label}", v, "m/s"] for label, v, _total in budget]
         out.append(("flight", ["quantity", "value [unit column]", "unit"], rows))
+    steering = steering_values(result)
+    if steering:
+        out.append(("steering programme", list(STEERING_HEADER), [list(r) for r in steering]))
     hw = hardware_records(result)
     if hw:
         out.append(("stage hardware", ["quantity [unit]"] + [s.name for s in result.stages],

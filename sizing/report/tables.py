@@ -3,12 +3,23 @@
 from __future__ import annotations
 
 import math
-from typing import Any, Sequence
 
 from ..result import CAUTION, SizingResult
+from .flight_tables import (
+    FLIGHT_QUANTITIES,
+    STEERING_HEADER,
+    flight_quantity_values,
+    loss_values,
+    steering_rows,
+)
+from .formats import fmt as _fmt
+from .formats import fmt_mass as _fmt_mass  # noqa: F401  (kept importable from here)
+from .formats import md_table as _md_table
 
 __all__ = ["HARDWARE_QUANTITIES", "hardware_records", "hardware_table", "TRADE_FACTOR_HEADER", "limit_text", "limit_value_text", "limit_step", "STAGE_COLUMNS", "FLIGHT_QUANTITIES", "flight_summary_rows", "flight_summary_values", "trade_factor_values", "stage_rows", "stage_columns_table", "total_row", "trade_factor_rows",
-           "stage_table_markdown", "result_markdown", "steering_rows", "STEERING_HEADER"]
+           "stage_table_markdown", "result_markdown", "steering_rows", "STEERING_HEADER",
+           "TRADE_FACTOR_TITLE", "trade_factor_caption", "METHOD_WORDS", "SOLVE_FOR_WORDS", "method_text",
+           "flight_markdown"]
 
 #: (field, header with unit, format) for each column of the stage mass table.
 STAGE_COLUMNS: tuple[tuple[str, str, str], ...] = (
@@ -24,32 +35,6 @@ STAGE_COLUMNS: tuple[tuple[str, str, str], ...] = (
     ("delta_v_m_s", "delta-v [m/s]", ",.1f"),
     ("delta_v_share", "delta-v share [%]", ".1%"),
 )
-
-
-def _fmt(value: Any, spec: str) -> str:
-    if value is None:
-        return ""
-    if isinstance(value, float) and not math.isfinite(value):
-        return "n/a"
-    if spec.endswith("%"):
-        return format(value, spec).replace("%", "")
-    if spec == "mass":
-        return _fmt_mass(float(value))
-    return format(value, spec)
-
-
-def _fmt_mass(kg: float) -> str:
-    """Masses keep four significant figures down to grams: 8,108.2 / 40.12 / 0.1234 kg."""
-    a = abs(kg)
-    if a >= 1000 or a == 0:
-        return format(kg, ",.1f")
-    if a >= 100:
-        return format(kg, ".1f")
-    if a >= 10:
-        return format(kg, ".2f")
-    if a >= 1:
-        return format(kg, ".3f")
-    return format(kg, ".4f")
 
 
 def stage_rows(result: SizingResult) -> list[list[str]]:
@@ -129,6 +114,17 @@ def trade_factor_rows(result: SizingResult) -> list[list[str]]:
             for item, step, dm0, dpl, spec in trade_factor_values(result)]
 
 
+#: Title of the trade-factor table; `trade_factor_caption` says what is held fixed.
+TRADE_FACTOR_TITLE = "Trade factors: change per step of each item"
+
+
+def trade_factor_caption(result: SizingResult) -> str:
+    """The line under the trade-factor table: what each column holds fixed and how it was found."""
+    basis = (result.trade_factors or {}).get("basis") or "change in gross mass at fixed payload"
+    return (f"Gross mass column: {basis}. "
+            "Payload column: change in payload at fixed gross mass, from the same factors.")
+
+
 def _limit_value(c, value: float) -> str:
     if c.name.endswith("delta_v_share"):
         return f"{100.0 * value:.2f} %"
@@ -159,24 +155,66 @@ def limit_step(c) -> tuple[float, str]:
     return 1.0, "1" + ("" if c.unit in ("-", "") else f" {c.unit}")
 
 
-def _md_table(header: Sequence[str], rows: Sequence[Sequence[str]], align_right_from: int = 1) -> str:
-    esc = lambda t: str(t).replace("|", "\\|")  # noqa: E731
-    out = ["| " + " | ".join(esc(h) for h in header) + " |"]
-    out.append("|" + "|".join(":---" if i < align_right_from else "---:" for i in range(len(header))) + "|")
-    for r in rows:
-        out.append("| " + " | ".join(esc(c) for c in r) + " |")
-    return "\n".join(out)
-
-
 def stage_table_markdown(result: SizingResult) -> str:
     """The stage mass table (with totals) as a Markdown table."""
     header = [h for _f, h, _s in STAGE_COLUMNS]
     return _md_table(header, stage_rows(result) + [total_row(result)])
 
 
+#: What each `SizingResult.method` does, in words (methods not listed are printed as they are).
+METHOD_WORDS = {
+    "lagrange": "Lagrange multipliers (the closed-form optimal staging of the rocket equation)",
+    "cvxpy": "convex optimisation (cvxpy) of the staging problem with its design limits",
+    "slsqp": "sequential quadratic programming (SciPy SLSQP) of the staging problem",
+    "stage-model slsqp": "sequential quadratic programming (SciPy SLSQP) over the stage mass models",
+    "flight-integrated": "optimising the masses (and the steering) with the simulated flight "
+                         "(direct shooting, SciPy SLSQP)",
+}
+#: What was solved for (`SizingResult.solve_for`), in words.
+SOLVE_FOR_WORDS = {
+    "gross_mass": "the minimum gross mass for the given payload",
+    "payload_mass": "the maximum payload for the given gross mass",
+    "delta_v": "the maximum delta-v for the given masses",
+}
+
+
+def method_text(result: SizingResult) -> str:
+    """'Solved for the minimum gross mass for the given payload, by Lagrange multipliers (...).'"""
+    goal = SOLVE_FOR_WORDS.get(result.solve_for, result.solve_for.replace("_", " "))
+    return f"Solved for {goal}, by {METHOD_WORDS.get(result.method, result.method)}."
+
+
+def flight_markdown(flight) -> list[str]:
+    """Markdown lines of the flight figures, the delta-v budget and the steering programme ([] without a flight)."""
+    from .flight_tables import (
+        BUDGET_HEADER,
+        STEERING_CAPTION,
+        budget_title,
+        delta_v_budget_rows,
+        delta_v_budget_values,
+    )
+
+    if not flight:
+        return []
+    parts = []
+    fl = flight_quantity_values(flight) + ([] if delta_v_budget_values(flight) else loss_values(flight))
+    if fl:
+        parts += ["### Flight", "", _md_table(["quantity", "value", "unit"],
+                                              [[label, _fmt(v, spec), unit] for label, v, unit, spec in fl],
+                                              right=(1,)), ""]
+    budget = delta_v_budget_rows(flight)
+    if budget:
+        parts += [f"### {budget_title(flight)}", "", _md_table(list(BUDGET_HEADER), budget), ""]
+    steering = steering_rows(flight)
+    if steering:
+        parts += ["### Steering programme and staging", "", STEERING_CAPTION, "",
+                  _md_table(list(STEERING_HEADER), steering, right=(0, 3)), ""]
+    return parts
+
+
 def result_markdown(result: SizingResult, *, title: str | None = None, caution: str | None = CAUTION,
                     extra: str = "") -> str:
-    """A design-review section: summary, stage table, limits, trade factors, `extra`, caution.
+    """A design-review section: summary, stage table, limits, trade factors, flight, `extra`, caution.
 
     The caution is printed once, last; pass ``caution=None`` when the document
     carries it elsewhere, or another text (e.g. the hobby caution, which holds
@@ -184,7 +222,7 @@ def result_markdown(result: SizingResult, *, title: str | None = None, caution: 
     """
     parts = [f"## {title or result.problem_name}: stage mass table", "",
              f"Status: **{result.status}** -- {result.message}", "",
-             f"Method: {result.method}; solving for {result.solve_for}.", ""]
+             method_text(result), ""]
     if result.success:
         parts += [stage_table_markdown(result), ""]
         hw_header, hw_rows = hardware_table(result)
@@ -197,13 +235,9 @@ def result_markdown(result: SizingResult, *, title: str | None = None, caution: 
                               f"{c.sensitivity:.6g}", c.sensitivity_unit] for c in result.constraints]), ""]
     tfr = trade_factor_rows(result)
     if tfr:
-        parts += ["### Trade factors", "", result.trade_factors.get("basis", ""), "",
+        parts += ["### Trade factors", "", trade_factor_caption(result), "",
                   _md_table(list(TRADE_FACTOR_HEADER), tfr), ""]
-    if result.flight:
-        budget = result.flight.get("delta_v_budget_m_s")
-        if budget:
-            parts += ["### Delta-v budget", "",
-                      _md_table(["term", "m/s"], [[k, f"{v:,.1f}"] for k, v in budget.items()]), ""]
+    parts += flight_markdown(result.flight)
     notes = [w for w in result.warnings if w != caution]
     if notes:
         parts += ["### Review notes", ""] + [f"- {w}" for w in notes] + [""]
@@ -214,66 +248,9 @@ def result_markdown(result: SizingResult, *, title: str | None = None, caution: 
     return "\n".join(parts)
 
 
-#: (key in result.flight, label, unit, format) for the flight summary.
-FLIGHT_QUANTITIES: tuple[tuple[str, str, str, str], ...] = (
-    ("apogee_m", "apogee above launch site", "m", ",.0f"),
-    ("time_to_apogee_s", "time to apogee", "s", ".1f"),
-    ("rail_exit_speed_m_s", "rail-exit speed", "m/s", ".1f"),
-    ("max_dynamic_pressure_pa", "max dynamic pressure (max-q)", "Pa", ",.0f"),
-    ("max_acceleration_m_s2", "max acceleration", "m/s^2", ".1f"),
-    ("liftoff_thrust_to_weight", "lift-off thrust-to-weight", "-", ".2f"),
-    ("perigee_altitude_m", "perigee altitude above sea level", "m", ",.0f"),
-    ("apogee_altitude_m", "apogee altitude above sea level", "m", ",.0f"),
-    ("inclination_deg", "inclination", "deg", ".3f"),
-    ("orbit_speed_m_s", "speed at insertion", "m/s", ",.1f"),
-    ("flight_path_angle_deg", "flight-path angle at insertion", "deg", ".3f"),
-    ("iterations", "sizing iterations", "-", "d"),
-    ("flights", "flights flown by the sizing", "-", "d"),
-)
-
-
-#: Header of `steering_rows`.
-STEERING_HEADER = ("event", "time from liftoff [s]", "pitch above horizontal [deg]", "note")
-
-
-def steering_rows(result: SizingResult) -> list[list[str]]:
-    """The optimised steering programme as (event, time [s], pitch [deg], note) text rows; [] without one."""
-    st = (result.flight or {}).get("steering")
-    if not st:
-        return []
-    rows = [["launch azimuth", "0.0", "", f"{st['launch_azimuth_deg']:.3f} deg from north"],
-            ["vertical rise ends", f"{st['vertical_rise_time_s']:.1f}", "90.0", ""],
-            ["pitch kick", f"{st['vertical_rise_time_s']:.1f}", f"{90.0 - st['pitch_kick_deg']:.2f}",
-             f"kick {st['pitch_kick_deg']:.3f} deg for {st['kick_duration_s']:.1f} s, then zero lift"]]
-    plane = (f"plane of inclination {st['hold_inclination_deg']:g} deg" if st.get("hold_inclination_deg") is not None
-             else "plane of the velocity")
-    for k, row in enumerate(st.get("pitch_table") or []):
-        note = f"from {st['steer_from_stage']}, {plane}" if k == 0 else ""
-        rows.append([f"programme node {k + 1}", f"{row['time_s']:.1f}", f"{row['pitch_deg']:.2f}", note])
-    ins = st.get("insertion")
-    if ins:
-        what = (f"restart, {ins['propellant_kg']:,.1f} kg" if ins.get("propellant_kg") else "kick stage ignites")
-        if ins.get("cutoff_time_s") is not None:
-            rows.append(["cut-off, coast begins", f"{ins['cutoff_time_s']:.1f}", "", f"coast {ins['coast_s']:.1f} s"])
-            rows.append(["insertion burn", f"{ins['ignition_time_s']:.1f}", f"{ins['pitch_deg']:.2f}",
-                         f"{what}; ends at {ins['burnout_time_s']:.1f} s"])
-        else:
-            rows.append(["insertion burn", f"after {ins['coast_s']:.1f} s coast", f"{ins['pitch_deg']:.2f}", what])
-    return rows
-
-
 def flight_summary_values(result: SizingResult) -> list[tuple[str, float, str, str]]:
-    """(quantity, value, unit, format) rows of the flight part of a result, including losses."""
-    f = result.flight or {}
-    rows = []
-    for key, label, unit, spec in FLIGHT_QUANTITIES:
-        v = f.get(key)
-        if isinstance(v, (int, float)) and not isinstance(v, bool):
-            rows.append((label, v, unit, spec))
-    for k, v in (f.get("losses_m_s") or {}).items():
-        if isinstance(v, (int, float)):
-            rows.append((f"{k} loss", float(v), "m/s", ",.1f"))
-    return rows
+    """(quantity, value, unit, format) rows of the flight part of a result, with each loss (positive)."""
+    return flight_quantity_values(result.flight) + loss_values(result.flight)
 
 
 #: (StageResult field, label with unit, format) of the stage hardware table (stage model results).

@@ -13,6 +13,8 @@ import math
 from pathlib import Path
 from typing import Any, Sequence
 
+from .formats import significant_decimals
+
 __all__ = ["column_format", "format_sheet", "write_frames_xlsx"]
 
 
@@ -40,7 +42,7 @@ def column_format(values: Sequence[Any]) -> str | None:
         return "0"
     if big >= 1e9 or big < 1e-4:
         return "0.000E+00"
-    decimals = min(6, max(0, 3 - math.floor(math.log10(big))))
+    decimals = min(6, significant_decimals(big))
     head = "#,##0" if big >= 1000 else "0"
     return head + ("." + "0" * decimals if decimals else "")
 

@@ -419,6 +419,7 @@ def write_review_pack(folder: str | Path, case_id: int, out_dir: str | Path | No
     from ..optimize.api import solve
     from ..problem.load import problem_from_dict
     from ..report.export import write_stage_table
+    from ..report.flight_tables import delta_v_budget_rows
     from ..report.tables import result_markdown
     from ..result import CAUTION
 
@@ -435,7 +436,7 @@ def write_review_pack(folder: str | Path, case_id: int, out_dir: str | Path | No
     out = Path(out_dir) if out_dir is not None else Path(folder) / "review" / f"case-{case_id}"
     out.mkdir(parents=True, exist_ok=True)
     write_stage_table(result, out / "stage_masses.xlsx")
-    write_stage_table(result, out / "stage_masses.md")
+    write_stage_table(result, out / "stage_masses.md", title=f"{study.name}, case {case_id}")
     write_stage_table(result, out / "stage_masses.json")
     units = study_input_units(study)
     lines = [f"# Design review pack: {study.name}, case {case_id}", "",
@@ -446,8 +447,9 @@ def write_review_pack(folder: str | Path, case_id: int, out_dir: str | Path | No
     for s in result.stages:
         lines.append(f"| {s.name} (ideal) | {s.delta_v_m_s:,.1f} |")
     d = result.to_dict()
-    losses = d.get("losses_m_s") if isinstance(d.get("losses_m_s"), dict) else {}
-    lines.append(f"| total ideal | {result.delta_v_m_s:,.1f} |")
+    budget = delta_v_budget_rows(result.flight)  # the signed budget `sizing solve` prints
+    losses = {} if budget else d.get("losses_m_s") if isinstance(d.get("losses_m_s"), dict) else {}
+    lines += [f"| {label} | {v} |" for label, v in budget] or [f"| total ideal | {result.delta_v_m_s:,.1f} |"]
     for k, v in losses.items():
         if isinstance(v, (int, float)):
             lines.append(f"| loss: {k} | {0.0 - float(v):,.1f} |")

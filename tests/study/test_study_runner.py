@@ -316,7 +316,10 @@ def test_study_outputs_and_review_pack(tmp_path):
     text = (pack / "review.md").read_text()
     assert "Preliminary estimates only" in text and "## Delta-v budget" in text
     stored = res.rows[cid]["metrics"]["gross_mass_kg"]
-    assert f"{stored:,.1f}"[:-2] in (pack / "stage_masses.md").read_text()
+    stage_md = (pack / "stage_masses.md").read_text()
+    assert f"{stored:,.1f}"[:-2] in stage_md
+    assert stage_md.startswith(f"## unit study, case {cid}: stage mass table")  # the case, not the base problem
+    assert "Method: lagrange" not in text + stage_md and "solving for gross_mass" not in text + stage_md
     assert (pack / "stage_masses.xlsx").exists()
     assert "| n_stages [-] |" in text and "| gross_mass [kg] |" in text
     with pytest.raises(ValueError, match="case 999: not in"):
