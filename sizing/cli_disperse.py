@@ -82,9 +82,11 @@ def cmd_disperse(args: argparse.Namespace) -> int:
         return 2
     engine = "dask" if args.scheduler else (args.engine or "local")
     out = args.out or Path("runs") / f"{args.file.stem}-dispersion"
+    con = _console(stderr=True)
+    if not args.quiet:
+        con.print(f"reading {args.file} (a problem file is sized first, a hobby file's stack searched first)")
     case = case_from_file(args.file, dispersions=args.dispersions)
     n = args.samples or case.spec.samples
-    con = _console(stderr=True)
     if not args.quiet:
         con.print(f"[bold]dispersing[/] {case.name}: {n:,} samples of {len(case.spec.inputs)} inputs into {out}")
     prog = None
@@ -129,6 +131,8 @@ def cmd_disperse(args: argparse.Namespace) -> int:
 
 def _fmt(v, spec: str | None = None) -> str:
     """A number for a table: four significant digits, whole numbers with thousands separators from 10^4."""
+    if isinstance(v, float) and math.isinf(v):
+        return "inf (failed flights)" if v > 0 else "-inf"
     if v is None or (isinstance(v, float) and not math.isfinite(v)):
         return "-"
     if spec is None:

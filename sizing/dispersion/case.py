@@ -341,7 +341,8 @@ def case_from_file(path: str | Path, *, dispersions: str | Path | None = None) -
 def sized_design(problem, result=None):
     """The design of a flight-target problem as `sizing solve --out design.toml` writes it, loaded back.
 
-    Returns (design problem, sizing result). A result that did not converge raises.
+    Sized to the required probability when the problem's [dispersions] table gives one. Returns
+    (design problem, sizing result). A result that did not converge raises.
     """
     from ..errors import InfeasibleProblemError
     from ..optimize.api import solve
@@ -349,12 +350,17 @@ def sized_design(problem, result=None):
     from ..report.design import design_toml
 
     if result is None:
-        result = solve(problem)
+        if problem.dispersions is not None and problem.dispersions.probability is not None:
+            from .confidence import solve_with_dispersions
+
+            result = solve_with_dispersions(problem)  # sized to the probability, as `sizing solve` does
+        else:
+            result = solve(problem)
     if not result.success:
         raise InfeasibleProblemError(f"{problem.source}: sizing failed before the dispersion run: {result.message}",
                                      dict(result.best or {}))
     data = dict(tomllib.loads(design_toml(result)))
-    if problem.raw.get("dispersions") is not None:
+    if problem.raw.get("dispersions") is not None and "dispersions" not in data:
         data["dispersions"] = problem.raw["dispersions"]
     return problem_from_dict(data, source=problem.source), result
 
@@ -370,7 +376,8 @@ def case_from_problem(problem, *, spec: DispersionSpec | None = None) -> Dispers
     if not problem.design_masses_given:
         if not problem.is_flight_target:
             raise ProblemDefinitionError(problem.source, [MSG_NO_TARGET_SIZE + "."])
-        problem, _ = sized_design(problem)
+        problem, _ = sized_design(replace(problem, dispersions=spec))
+        spec = problem.dispersions
     vehicle = design_vehicle(problem)
     site = launch_site(problem)
     vertical = profile_of(problem) == "vertical"

@@ -159,7 +159,7 @@ def solve_with_dispersions(problem, *, method: str | None = None) -> SizingResul
     else:
         info.update(reserve_propellant_kg=target)
         what = (f"sized with a propellant reserve of {target:,.4g} kg carried above stage "
-                f"{case.vehicle.stages[-1].name!r}")
+                f"{case.vehicle.stages[-1].name!r} (the payload figure includes it)")
     verdict = "meets" if info["demonstrated"] else "does NOT demonstrate"
     msg = (f"{result.message}; {what}: {verdict} probability {spec.probability:g} at {spec.confidence:.0%} "
            f"confidence ({met:,} of {n:,} dispersed flights meet it, lower bound {prob['lower']:.4f}) after "

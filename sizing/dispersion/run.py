@@ -109,13 +109,16 @@ def _deficit(case: DispersionCase, metrics: dict[str, float]) -> float:
     return -m if m is not None and math.isfinite(m) else math.nan
 
 
-def one_sigma_effects(case: DispersionCase, nominal_deficit: float) -> dict[str, Any]:
+def one_sigma_effects(case: DispersionCase, nominal_deficit: float,
+                      figure: Callable[[DispersionCase, dict[str, float]], float] | None = None) -> dict[str, Any]:
     """Root-sum-square inputs: the deficit at every input's mean, and each input's one-sigma effect.
 
     Central differences about the inputs' means (flights with one input at mean
     +- one standard deviation); the bias is the deficit at the means minus the
-    nominal deficit (a mean off the nominal, e.g. a mean wind).
+    nominal deficit (a mean off the nominal, e.g. a mean wind). `figure`
+    replaces the deficit by another figure of the flight (e.g. the ideal delta-v).
     """
+    figure = figure or _deficit
     means = np.array([m.mean for m in case.marginals])
     rows = [means]
     for j, m in enumerate(case.marginals):
@@ -137,7 +140,7 @@ def one_sigma_effects(case: DispersionCase, nominal_deficit: float) -> dict[str,
             d.append(math.nan)
             continue
         status, _, figs = flight_figures(case, v, fr)
-        d.append(_deficit(case, figs) if status == "ok" else math.inf)
+        d.append(figure(case, figs) if status == "ok" else math.inf)
     effects = [0.5 * (d[1 + 2 * j] - d[2 + 2 * j]) for j in range(len(case.marginals))]
     return {"deficit_at_means": d[0], "bias": d[0] - nominal_deficit, "one_sigma_effects": effects,
             "inputs": list(case.spec.names)}

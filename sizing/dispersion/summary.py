@@ -96,7 +96,7 @@ def summarise(samples: dict[str, Any], *, probability: float | None = None, conf
             r["reserve_rss"] = r["reserve_rss"] + (bias if math.isfinite(bias) else 0.0)
             r["covered_by_nominal_margin"] = bool(-d_nom >= r["reserve_order_statistic"])
             if meta["target_kind"] == "orbit":
-                r["reserve_propellant_kg"] = _propellant_for(r["reserve_order_statistic"] + d_nom, samples)
+                r["reserve_propellant_kg"] = _propellant_for(r["reserve_order_statistic"], samples)
         out["reserves"] = rows
         out["reserve_required"] = next((r for r in rows if p_req is not None and r["probability"] == p_req), None)
         out["performance"] = {"deficit_unit": unit, "nominal_margin": -d_nom,
@@ -116,12 +116,13 @@ def summarise(samples: dict[str, Any], *, probability: float | None = None, conf
 
 
 def _propellant_for(dv_m_s: float, samples: dict[str, Any]) -> float:
-    """Last-stage propellant giving `dv_m_s` at the nominal final mass: m_f (1 - exp(-dv / c)) [kg]."""
-    m_f = samples["nominal"]["metrics"].get("final_mass_kg", math.nan)
+    """Propellant above the last stage's nominal burnout mass (less any reserve carried) that gives
+    `dv_m_s`: m (exp(dv / c) - 1) (rocket equation, Sutton & Biblarz, 9th ed., eq. 4-6) [kg]."""
+    m_f = samples["nominal"]["metrics"].get("final_mass_kg", math.nan) - (samples["meta"]["extra_top_mass_kg"] or 0.0)
     c = samples["meta"]["last_stage_exhaust_velocity_m_s"]
     if not (math.isfinite(dv_m_s) and math.isfinite(m_f)):
         return math.nan
-    return max(0.0, m_f * (1.0 - math.exp(-dv_m_s / c))) if dv_m_s > 0 else 0.0
+    return m_f * math.expm1(dv_m_s / c) if dv_m_s > 0 else 0.0
 
 
 def _sensitivities(samples: dict[str, Any], figs: dict[str, np.ndarray]) -> dict[str, list]:
@@ -290,5 +291,7 @@ def report_data(samples: dict[str, Any], stats: dict[str, Any]) -> dict[str, Any
         idx = _thin(int(ok.sum()))
         landing = {"east": figs["landing_east_m"][ok][idx].tolist(), "north": figs["landing_north_m"][ok][idx].tolist(),
                    "ellipses": stats.get("landing_ellipses", [])}
-    return {"statistics": _clean(stats), "plots": _clean(plots), "scatter": _clean(scatter),
-            "landing": _clean(landing), "caution": CAUTION}
+    labels = {k: f"{METRIC_LABELS.get(k, k)} [{unit if k == 'target_margin' else METRIC_UNITS.get(k, '')}]"
+              for k in sens}
+    return {"statistics": stats, "plots": _clean(plots), "scatter": _clean(scatter),
+            "landing": _clean(landing), "labels": labels, "caution": CAUTION}

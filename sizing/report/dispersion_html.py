@@ -26,10 +26,13 @@ th:first-child, td:first-child { text-align: left; }
 .caution { background: #fff4d6; border: 1px solid #d9a400; padding: 0.7em 1em; margin: 1em 0; }
 .verdict-ok { color: #176b2c; font-weight: bold; } .verdict-no { color: #a11; font-weight: bold; }
 .note { color: #555; font-size: 0.9em; }
+td.text { text-align: left; }
 """
 
 
 def _num(v: Any, spec: str | None = None) -> str:
+    if isinstance(v, float) and math.isinf(v):
+        return "inf (failed flights)" if v > 0 else "-inf"
     if v is None or (isinstance(v, float) and not math.isfinite(v)):
         return "-"
     if isinstance(v, bool):
@@ -113,7 +116,7 @@ def _plots(data: dict[str, Any]) -> list[str]:
         if not h["edges"]:
             continue
         unit = f" [{p['unit']}]" if p["unit"] else ""
-        fig = make_subplots(rows=1, cols=2, subplot_titles=("histogram", "cumulative distribution"))
+        fig = make_subplots(rows=1, cols=2, horizontal_spacing=0.1)
         mids = [0.5 * (a + b) for a, b in zip(h["edges"], h["edges"][1:])]
         fig.add_trace(go.Bar(x=mids, y=h["counts"], name="samples", marker_color="#4a78b5",
                              width=[b - a for a, b in zip(h["edges"], h["edges"][1:])]), 1, 1)
@@ -126,8 +129,8 @@ def _plots(data: dict[str, Any]) -> list[str]:
         fig.update_xaxes(title_text=p["label"] + unit)
         fig.update_yaxes(title_text="samples", row=1, col=1)
         fig.update_yaxes(title_text="fraction at or below", row=1, col=2, range=[0, 1])
-        fig.update_layout(height=330, showlegend=False, margin=dict(t=40, b=40, l=60, r=20),
-                          title_text=p["label"] + unit)
+        fig.update_layout(height=330, showlegend=False, margin=dict(t=50, b=40, l=60, r=20),
+                          title_text=f"{p['label']}{unit}: histogram and cumulative distribution")
         out.append(fig.to_html(full_html=False, include_plotlyjs=False))
     return out
 
@@ -141,16 +144,18 @@ def _sensitivity(data: dict[str, Any]) -> str:
     for key, rows in st["sensitivities"].items():
         body = [[html.escape(r["input"]), _num(r["rank_correlation"], "+.3f"), _num(r["share"], ".1%")]
                 for r in rows]
-        parts.append(f"<h3>{html.escape(key)}</h3>" + _table(["input", "rank correlation", "share of the squares"],
-                                                              body))
+        label = data["labels"].get(key, key)
+        parts.append(f"<h3>{html.escape(label)}</h3>" + _table(["input", "rank correlation", "share of the squares"],
+                                                                body))
     sc = data["scatter"]
     if sc:
+        # user-given names (stages) are entity-escaped: plotly shows them as text, never as markup
         fig = make_subplots(rows=1, cols=len(sc), subplot_titles=[
-            f"{s['input']} (rho {s['rank_correlation']:+.2f})" for s in sc])
+            f"{html.escape(s['input'])} (rho {s['rank_correlation']:+.2f})" for s in sc])
         for k, s in enumerate(sc, start=1):
             fig.add_trace(go.Scattergl(x=s["x"], y=s["y"], mode="markers", marker=dict(size=3, opacity=0.5),
-                                       name=s["input"]), 1, k)
-            fig.update_xaxes(title_text=f"{s['input']} [{s['unit']}]", row=1, col=k)
+                                       name=html.escape(s["input"])), 1, k)
+            fig.update_xaxes(title_text=f"{html.escape(s['input'])} [{s['unit']}]", row=1, col=k)
         fig.update_yaxes(title_text=f"{sc[0]['y_label']} [{sc[0]['y_unit']}]", row=1, col=1)
         fig.update_layout(height=340, showlegend=False, margin=dict(t=40, b=40, l=60, r=20))
         parts.append(fig.to_html(full_html=False, include_plotlyjs=False))
@@ -194,6 +199,7 @@ def _landing(data: dict[str, Any]) -> str:
 def _inputs(st: dict[str, Any]) -> str:
     rows = [[html.escape(i["name"]), html.escape(i["unit"]), _num(i["nominal"], ",.6g"), _num(i["mean"], ",.6g"),
              _num(i["std"], ",.4g"), html.escape(i["distribution"])] for i in st["inputs"]]
+    rows = [r[:-1] + [f"<span style='float:left'>{r[-1]}</span>"] for r in rows]
     return "<h2>Dispersed inputs</h2>" + _table(["input", "unit", "nominal", "mean", "std", "distribution"], rows)
 
 
