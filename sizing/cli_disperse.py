@@ -117,9 +117,9 @@ def cmd_disperse(args: argparse.Namespace) -> int:
         return 130
     st = summary.statistics
     if args.json:
-        from .dispersion.summary import _clean
+        from .result import finite_json
 
-        print(json.dumps(_clean(st), indent=2))
+        print(json.dumps(finite_json(st), indent=2))
     else:
         print_statistics(st, summary)
     for k in ("report", "samples_csv", "statistics_csv", "statistics_json"):

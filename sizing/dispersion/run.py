@@ -26,6 +26,7 @@ from typing import Any, Callable
 import numpy as np
 
 from ..errors import FieldError, ProblemDefinitionError, StudyOutputConflictError
+from ..study.runner import StudySummary
 from .case import DispersionCase, Variant
 from .flights import METRIC_UNITS, fly_nominal, fly_samples, fly_variants, flight_figures
 
@@ -54,24 +55,12 @@ class DispersionProgress:
 
 
 @dataclass
-class DispersionSummary:
-    """What a `run_dispersion` call did; `statistics` is None unless every sample is stored."""
+class DispersionSummary(StudySummary):
+    """What a `run_dispersion` call did (the study summary's counters, samples for cases);
+    `statistics` is None unless every sample is stored."""
 
-    folder: Path
-    total: int
-    done_before: int
-    ran: int
-    counts: dict[str, int] = field(default_factory=dict)
-    elapsed_s: float = 0.0
-    interrupted: bool = False
-    engine: str = "local"
-    workers: int = 1
     statistics: dict[str, Any] | None = None
     outputs: dict[str, Path] = field(default_factory=dict)
-
-    @property
-    def complete(self) -> bool:
-        return sum(self.counts.values()) >= self.total
 
 
 class _NoInputs(dict):
@@ -205,7 +194,7 @@ def run_dispersion(case: DispersionCase, out: str | Path, *, samples: int | None
     StudyOutputConflictError
         The folder holds another run's samples and `restart` is False.
     """
-    from ..study.runner import _drive, _make_engine
+    from ..study.runner import drive_engine
     from ..study.spec import Case
 
     t0 = time.perf_counter()
@@ -240,20 +229,9 @@ def run_dispersion(case: DispersionCase, out: str | Path, *, samples: int | None
         if on_progress is not None:
             on_progress(DispersionProgress(n, state["done"], len(done), 0.0, {}))
         if todo:
-            eng = _make_engine(engine, case, workers, scheduler, case_function or fly_samples)
-            eng.start()
-            summary.workers = eng.parallelism
-            if on_message is not None and hasattr(eng, "description"):
-                on_message(eng.description)
-            try:
-                _drive(eng, todo, True, report)
-            except KeyboardInterrupt:
-                summary.interrupted = True
-                eng.close(terminate=True)
-                eng = None
-            finally:
-                if eng is not None:
-                    eng.close()
+            summary.workers, summary.interrupted = drive_engine(
+                engine, case, todo, report, workers=workers, scheduler=scheduler,
+                case_function=case_function or fly_samples, batch=True, on_message=on_message)
         summary.counts = _counts(db, n)
         db.set_meta("last_run", {"elapsed_s": time.perf_counter() - t0, "ran": summary.ran, "engine": engine,
                                  "workers": summary.workers, "interrupted": summary.interrupted})

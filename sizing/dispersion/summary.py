@@ -20,7 +20,7 @@ from typing import Any
 
 import numpy as np
 
-from ..result import CAUTION
+from ..result import CAUTION, finite_json
 from . import statistics as S
 from .flights import METRIC_LABELS, METRIC_UNITS
 
@@ -139,7 +139,7 @@ def _sensitivities(samples: dict[str, Any], figs: dict[str, np.ndarray]) -> dict
 # ---------------------------------------------------------------- files
 def _fmt(v: Any) -> Any:
     if isinstance(v, float):
-        return "" if not math.isfinite(v) else f"{v:.10g}"
+        return ("inf" if v > 0 else "-inf") if math.isinf(v) else "" if math.isnan(v) else f"{v:.10g}"
     return "" if v is None else v
 
 
@@ -211,7 +211,7 @@ def write_outputs(folder: str | Path, samples: dict[str, Any], stats: dict[str, 
     folder = Path(folder)
     out = {"statistics_json": folder / STATISTICS_JSON, "statistics_csv": folder / STATISTICS_CSV,
            "samples_csv": folder / SAMPLES_CSV, "report": folder / REPORT_HTML, "caution": folder / CAUTION_TXT}
-    out["statistics_json"].write_text(json.dumps(_clean(stats), indent=2), encoding="utf-8")
+    out["statistics_json"].write_text(json.dumps(finite_json(stats), indent=2), encoding="utf-8")
     _write_statistics_csv(out["statistics_csv"], stats)
     _write_samples_csv(out["samples_csv"], samples, stats["target_unit"])
     write_dispersion_report(report_data(samples, stats), out["report"])
@@ -221,18 +221,6 @@ def write_outputs(folder: str | Path, samples: dict[str, Any], stats: dict[str, 
         "the stated input distributions only; they are no reliability figure of a real vehicle.\n",
         encoding="utf-8")
     return out
-
-
-def _clean(o: Any) -> Any:
-    if isinstance(o, float):
-        return o if math.isfinite(o) else None
-    if isinstance(o, dict):
-        return {str(k): _clean(v) for k, v in o.items()}
-    if isinstance(o, (list, tuple)):
-        return [_clean(v) for v in o]
-    if isinstance(o, np.generic):
-        return _clean(o.item())
-    return o
 
 
 # ---------------------------------------------------------------- what the page embeds
@@ -293,5 +281,5 @@ def report_data(samples: dict[str, Any], stats: dict[str, Any]) -> dict[str, Any
                    "ellipses": stats.get("landing_ellipses", [])}
     labels = {k: f"{METRIC_LABELS.get(k, k)} [{unit if k == 'target_margin' else METRIC_UNITS.get(k, '')}]"
               for k in sens}
-    return {"statistics": stats, "plots": _clean(plots), "scatter": _clean(scatter),
-            "landing": _clean(landing), "labels": labels, "caution": CAUTION}
+    return {"statistics": stats, "plots": finite_json(plots), "scatter": finite_json(scatter),
+            "landing": finite_json(landing), "labels": labels, "caution": CAUTION}

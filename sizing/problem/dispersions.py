@@ -26,7 +26,7 @@ import math
 from dataclasses import dataclass
 from typing import Any, Mapping, Sequence
 
-from ..units import to_si
+from .load import _Collector
 
 __all__ = [
     "STAGE_QUANTITIES", "VEHICLE_QUANTITIES", "DISTRIBUTIONS", "DEFAULT_CONFIDENCE", "DEFAULT_SAMPLES",
@@ -182,33 +182,19 @@ def quantity_names(stage_names: Sequence[str]) -> list[str]:
             + [f"*.{k}" for k in STAGE_QUANTITIES])
 
 
-class _Faults:
-    def __init__(self) -> None:
-        self.lines: list[str] = []
+class _Faults(_Collector):
+    """The loader's collector (SI conversion, bounds, one line per fault) with the table's own checks."""
+
+    @property
+    def lines(self) -> list[str]:
+        return self.faults
 
     def add(self, text: str) -> None:
-        self.lines.append(text)
+        self.fault(text)
 
     def number(self, where: str, value: Any, kind: str, *, lo: float | None = None, lo_open: bool = True,
                hi: float | None = None, hi_open: bool = True) -> float | None:
-        if value is None:
-            return None
-        try:
-            v = to_si(value, kind)
-        except ValueError as exc:
-            self.add(f"{where}: {exc}")
-            return None
-        low = lo is not None and (v <= lo if lo_open else v < lo)
-        if low or (hi is not None and (v >= hi if hi_open else v > hi)):
-            if lo is not None and hi is not None:
-                what = f"must be in {'(' if lo_open else '['}{lo:g}, {hi:g}{')' if hi_open else ']'}"
-            elif lo is not None:
-                what = f"must be {'>' if lo_open else '>='} {lo:g}"
-            else:
-                what = f"must be {'<' if hi_open else '<='} {hi:g}"
-            self.add(f"{where}: {what}. Got {value!r}.")
-            return None
-        return v
+        return self.quantity(where, value, kind, lo=lo, hi=hi, lo_open=lo_open, hi_open=hi_open)
 
     def integer(self, where: str, value: Any, lo: int, hi: int) -> int | None:
         if value is None:

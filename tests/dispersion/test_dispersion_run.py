@@ -32,9 +32,9 @@ def _same(a, b):
 
 
 def _stats_text(stats):
-    from sizing.dispersion.summary import _clean
+    from sizing.result import finite_json
 
-    return json.dumps(_clean(stats), sort_keys=True)
+    return json.dumps(finite_json(stats), sort_keys=True)
 
 
 @pytest.fixture(scope="module")
