@@ -166,6 +166,12 @@ def print_statistics(st: dict, summary=None, console=None) -> None:
             ok = st["requirement_demonstrated"]
             word = "[bold green]demonstrated[/]" if ok else "[bold red]not demonstrated[/]"
             con.print(f"required {req:.4%}: {word} at {c:.0%} confidence")
+    shape = st.get("orbit_shape")
+    if shape:
+        con.print(f"orbit shape with the fixed steering programme (no guidance): "
+                  f"{shape['perigee_short_by_10_km_share']:.1%} of flights end with the perigee more than 10 km "
+                  f"below the target's, {shape['perigee_below_surface_share']:.1%} below the surface; a guided "
+                  "vehicle trades such shape errors with the reserve, this model does not")
     if st.get("reserves"):
         u = st["target_unit"]
         t = Table(title=escape(f"Flight performance reserve [{u}]: {st['performance']['what']} that a fraction p of "

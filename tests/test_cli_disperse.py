@@ -38,6 +38,11 @@ def test_disperse_writes_every_output_with_units_and_the_caution(tmp_path, capsy
     page = (out / "report.html").read_text()
     assert page.index(CAUTION) < page.index("<h2>Summary") and "<script src=" not in page
     assert CAUTION in (out / "CAUTION.txt").read_text()
+    # `sizing report FOLDER` rebuilds a dispersion folder's files from the stored samples
+    before = (out / "statistics.json").read_text()
+    (out / "report.html").unlink()
+    assert main(["report", str(out)]) == 0
+    assert (out / "report.html").exists() and (out / "statistics.json").read_text() == before
 
 
 def test_disperse_exit_1_when_the_probability_is_not_demonstrated(tmp_path, capsys):

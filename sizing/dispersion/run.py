@@ -31,6 +31,7 @@ from .case import DispersionCase, Variant
 from .flights import METRIC_UNITS, fly_nominal, fly_samples, fly_variants, flight_figures
 
 __all__ = ["run_dispersion", "DispersionSummary", "DispersionProgress", "load_samples", "one_sigma_effects",
+           "is_dispersion_folder", "rebuild_outputs",
            "fingerprint", "MSG_OTHER_RUN", "FORMAT"]
 
 #: Version of what a stored sample holds; part of the fingerprint.
@@ -142,6 +143,7 @@ def _case_meta(case: DispersionCase) -> dict[str, Any]:
         "extra_top_mass_kg": case.extra_top_mass_kg, "gross_mass_kg": case.vehicle.gross_mass_kg,
         "stages": [s.name for s in case.vehicle.stages], "hobby": dict(case.hobby or {}),
         "has_landing": case.descent is not None, "seed": case.spec.seed,
+        "probability": case.spec.probability, "confidence": case.spec.confidence,
         "inputs": [{"name": m.name, "unit": m.unit, "nominal": m.nominal, "mean": m.mean, "std": m.std,
                     "distribution": m.describe()} for m in case.marginals],
         "correlation": [list(r) for r in case.spec.correlation],
@@ -258,6 +260,28 @@ def _counts(db, n: int) -> dict[str, int]:
         if i < n:
             out[s] = out.get(s, 0) + 1
     return out
+
+
+def is_dispersion_folder(folder: str | Path) -> bool:
+    """True when the folder's store holds a dispersion run (not a trade study)."""
+    from ..study.store import StudyStore
+
+    if not (Path(folder) / "study.sqlite").exists():
+        return False
+    with StudyStore(folder) as db:
+        return db.get_meta("kind") == "dispersion"
+
+
+def rebuild_outputs(folder: str | Path) -> dict[str, Path]:
+    """Statistics, exports and report of every stored sample, at the run's probability and confidence
+    (`sizing report FOLDER` on a dispersion folder)."""
+    from .summary import summarise, write_outputs
+
+    samples = load_samples(folder)
+    meta = samples["meta"]
+    stats = summarise(samples, default_probability=meta.get("probability"),
+                      default_confidence=meta.get("confidence") or 0.9)
+    return write_outputs(folder, samples, stats)
 
 
 def load_samples(folder: str | Path, n: int | None = None) -> dict[str, Any]:

@@ -27,6 +27,9 @@ from .flights import METRIC_LABELS, METRIC_UNITS
 __all__ = ["summarise", "write_outputs", "report_data", "STATISTICS_JSON", "STATISTICS_CSV", "SAMPLES_CSV",
            "REPORT_HTML", "CAUTION_TXT", "target_unit"]
 
+#: Perigee shortfall counted as a shape miss of a fixed-programme ascent [m] (common practice, no source).
+ORBIT_SHAPE_TOLERANCE_M = 10e3
+
 STATISTICS_JSON = "statistics.json"
 STATISTICS_CSV = "statistics.csv"
 SAMPLES_CSV = "samples.csv"
@@ -104,6 +107,12 @@ def summarise(samples: dict[str, Any], *, probability: float | None = None, conf
                               "what": "apogee lost against the nominal flight" if meta["target_kind"] == "apogee"
                               else "speed lost against the nominal flight (orbital energy at final burnout)"}
     figs = {k: v for k, v in samples["metrics"].items()}
+    if meta["target_kind"] == "orbit" and "perigee_altitude_m" in figs and n:
+        per = figs["perigee_altitude_m"][st == "ok"]
+        goal = meta["target"]["perigee_altitude_m"]
+        out["orbit_shape"] = {"perigee_short_by_10_km_share": float(np.mean(per < goal - ORBIT_SHAPE_TOLERANCE_M)),
+                              "perigee_below_surface_share": float(np.mean(per < 0.0)),
+                              "tolerance_m": ORBIT_SHAPE_TOLERANCE_M}
     out["percentiles"] = [dict(r, unit=unit if r["figure"] == "target_margin" else METRIC_UNITS.get(r["figure"], ""),
                                label=METRIC_LABELS.get(r["figure"], r["figure"]))
                           for r in S.percentile_table({k: v[st == "ok"] for k, v in figs.items()})]

@@ -65,6 +65,12 @@ def _summary(st: dict[str, Any]) -> str:
             word = "demonstrated" if ok else "not demonstrated"
             rows.append(["required probability", f"{st['probability_required']:.4%}: <span class='{cls}'>{word}</span>"
                                                  f" at {c:.0%} confidence"])
+    shape = st.get("orbit_shape")
+    if shape:
+        rows.append(["orbit shape (fixed steering, no guidance)",
+                     f"{shape['perigee_short_by_10_km_share']:.1%} of flights end with the perigee more than 10 km "
+                     f"below the target's ({shape['perigee_below_surface_share']:.1%} below the surface); a guided "
+                     "vehicle trades shape errors with the reserve, this model does not"])
     return "<table>" + "".join(f"<tr><th>{html.escape(a)}</th><td style='text-align:left'>{b}</td></tr>"
                                for a, b in rows) + "</table>"
 
