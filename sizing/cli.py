@@ -23,7 +23,7 @@ EXIT_BAD_INPUT = 2
 EXIT_INTERNAL = 3
 
 #: Modules that add sub-commands through `register(subparsers)`, imported lazily.
-_PLUGINS = ("sizing.cli_flight", "sizing.cli_study", "sizing.cli_hobby")
+_PLUGINS = ("sizing.cli_flight", "sizing.cli_study", "sizing.cli_hobby", "sizing.cli_disperse")
 
 
 def _console(stderr: bool = False):
@@ -255,13 +255,22 @@ def _cmd_solve(args) -> int:
         raise ValueError(f"--out {args.out}: {MSG_NO_DESIGN}.")
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always")
-        result = solve(problem, method=args.method)
+        if problem.dispersions is not None and problem.is_flight_target:  # sizing to a confidence
+            from .dispersion.confidence import solve_with_dispersions
+
+            result = solve_with_dispersions(problem, method=args.method)
+        else:
+            result = solve(problem, method=args.method)
     for w in caught:
         print(f"warning: {w.message}", file=sys.stderr)
     if args.json:
         print(result_json(result))
     else:
         print_result(result)
+        if (result.flight or {}).get("confidence"):
+            from .cli_disperse import print_confidence
+
+            print_confidence(result)
     if args.out:
         if not result.success:
             error_line(f"--out {args.out}: not written, the problem has no solution.")

@@ -196,7 +196,9 @@ def cmd_report(args: argparse.Namespace) -> int:
             path = write_review_pack(args.folder, args.case, args.pack_dir)
             con.print(f"design-review pack of case {args.case}: {escape(str(path))}")
         else:
-            files = write_outputs(args.folder)
+            from .dispersion.run import is_dispersion_folder, rebuild_outputs
+
+            files = rebuild_outputs(args.folder) if is_dispersion_folder(args.folder) else write_outputs(args.folder)
             for p in files.values():
                 con.print(escape(str(p)))
     except SizingError as exc:

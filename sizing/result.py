@@ -199,6 +199,6 @@ def finite_json(obj: Any) -> Any:
         return obj if math.isfinite(obj) else None
     if isinstance(obj, dict):
         return {k: finite_json(v) for k, v in obj.items()}
-    if isinstance(obj, list):
+    if isinstance(obj, (list, tuple)):
         return [finite_json(v) for v in obj]
     return obj

@@ -185,6 +185,7 @@ class _HobbyFileBase(_Strict):
     hobby: HobbyTable
     mission: HobbyMissionTable
     launch: HobbyLaunchTable | None = None
+    dispersions: dict[str, Any] | None = None  # validated by sizing.problem.dispersions
 
 
 class MotorHobbyFile(_HobbyFileBase):
@@ -290,6 +291,7 @@ class HobbyProblem:
     ballast_position_m: float | None = None
     min_static_margin_cal: float = DEFAULT_MIN_STATIC_MARGIN_CAL
     stability_fix: str = "ballast"
+    dispersions: Any = None  # sizing.problem.dispersions.DispersionSpec or None
 
     @property
     def has_geometry(self) -> bool:
@@ -641,6 +643,11 @@ def hobby_problem_from_dict(data: Mapping[str, Any], *, source: str = "<dict>",
         rail = DEFAULT_RAIL_LENGTH_M if kind == "motors" else (
             water_stages[0].launch_tube_length_m if water_stages else 0.0)
 
+    from .dispersions import parse_dispersions
+
+    stage_names = [s.name for s in (motor_stages if kind == "motors" else water_stages)]
+    dispersions, faults = parse_dispersions(pf.dispersions, stage_names, has_wind=wind is not None)
+    col.faults.extend(faults)
     if col.faults:
         raise ProblemDefinitionError(source, col.faults)
     site = LaunchSite(altitude_m=alt or 0.0, rail_length_m=rail, rail_angle_deg=angle or 0.0)
@@ -648,7 +655,7 @@ def hobby_problem_from_dict(data: Mapping[str, Any], *, source: str = "<dict>",
         name=m.name or Path(source).stem, source=source, kind=kind, payload_mass_kg=payload,
         payload_diameter_m=payload_d, target_apogee_m=target, site=site, rail_length_given=rail_given,
         min_thrust_to_weight=tw, rail_rule=h.rail_rule, min_rail_exit_speed_m_s=rail_min,
-        max_acceleration_m_s2=amax,
+        max_acceleration_m_s2=amax, dispersions=dispersions,
     )
     if kind == "motors":
         return HobbyProblem(

@@ -502,6 +502,10 @@ def problem_from_dict(data: Mapping[str, Any], *, source: str = "<dict>") -> Pro
         col.fault(f"mission.apogee: must be above the launch site. Got {m.apogee!r}.")
 
     flight = _flight_fields(col, m, pf.steering, {s.name for s in stages})
+    from .dispersions import parse_dispersions
+
+    dispersions, faults = parse_dispersions(pf.dispersions, [s.name for s in stages])
+    col.faults.extend(faults)
     if col.faults:
         raise ProblemDefinitionError(source, col.faults)
     assert solve_for is not None
@@ -512,7 +516,7 @@ def problem_from_dict(data: Mapping[str, Any], *, source: str = "<dict>") -> Pro
         orbit_altitude_m=orbit, inclination_deg=incl, max_gross_mass_kg=cap,
         max_acceleration_m_s2=amax, target_tolerance_m=tol_m, g0_m_s2=g0, **flight,
         method=pf.solver.method, max_iterations=pf.solver.max_iterations,
-        tolerance=pf.solver.tolerance, launch=launch, raw=data,
+        tolerance=pf.solver.tolerance, launch=launch, raw=data, dispersions=dispersions,
         design_masses_given=all(st.propellant_mass is not None and st.structural_mass is not None
                                 for st in pf.stage),
     )

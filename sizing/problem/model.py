@@ -160,6 +160,7 @@ class Problem:
     tolerance: float | None = None
     launch: LaunchDef = field(default_factory=LaunchDef)
     design_masses_given: bool = False
+    dispersions: Any = None  # sizing.problem.dispersions.DispersionSpec or None
     raw: Mapping[str, Any] = field(default_factory=dict, compare=False, repr=False)
 
     @property

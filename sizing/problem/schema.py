@@ -7,7 +7,7 @@ Every table forbids unknown keys, so a misspelt key is an error.
 
 from __future__ import annotations
 
-from typing import Literal, Union
+from typing import Any, Literal, Union
 
 from pydantic import BaseModel, ConfigDict, Field, StrictFloat, StrictInt, StrictStr
 
@@ -187,3 +187,4 @@ class ProblemFile(_Strict):
     steering: SteeringTable | None = None
     propellant_table: dict[str, PropellantEntryTable] | None = None
     material_table: dict[str, MaterialEntryTable] | None = None
+    dispersions: dict[str, Any] | None = None  # validated by sizing.problem.dispersions

@@ -89,7 +89,23 @@ def design_toml(result: SizingResult) -> str:
             ("structural_mass", st["structural_mass_kg"]), ("thrust", st["thrust_n"]), ("diameter", st["diameter_m"]),
             ("nozzle_exit_area", st["nozzle_exit_area_m2"]), ("drag_mach", st["drag_mach"]),
             ("drag_cd", st["drag_cd"]), ("coast_before_ignition", st["coast_before_ignition_s"] or None)])
+    if d.get("dispersions"):
+        lines += _dispersion_lines(d["dispersions"])
     return "\n".join(lines)
+
+
+def _dispersion_lines(raw: dict[str, Any]) -> list[str]:
+    """The [dispersions] table of the problem file, written back as read (whole numbers stay whole)."""
+    def val(v: Any) -> str:
+        return str(v) if isinstance(v, int) and not isinstance(v, bool) else _value(v)
+
+    lines = ["[dispersions]"] + [f"{k} = {val(v)}" for k, v in raw.items() if not isinstance(v, list) or
+                                 not all(isinstance(x, dict) for x in v)] + [""]
+    for k, v in raw.items():
+        if isinstance(v, list) and v and all(isinstance(x, dict) for x in v):
+            for item in v:
+                lines += [f"[[dispersions.{k}]]"] + [f"{a} = {val(b)}" for a, b in item.items()] + [""]
+    return lines
 
 
 def write_design(result: SizingResult, path: str | Path) -> Path:

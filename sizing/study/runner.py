@@ -21,7 +21,7 @@ from .evaluate import EvalContext, evaluate_case, is_batch_eligible
 from .spec import Case, Study, expand_cases, load_study
 from .store import NullStore, StudyStore
 
-__all__ = ["run_study", "StudySummary", "StudyProgress", "MSG_WORKER_DIED", "FAILED_STATUSES"]
+__all__ = ["run_study", "StudySummary", "StudyProgress", "MSG_WORKER_DIED", "FAILED_STATUSES", "drive_engine"]
 
 MSG_WORKER_DIED = "worker process died twice while sizing this case"
 #: Statuses counted as failed in the progress bar and summary.
@@ -233,20 +233,9 @@ def run_study(study: Study | str | Path, out: str | Path, *, engine: str = "loca
             report([first])
             todo = todo[1:]
         if todo:
-            eng = _make_engine(engine, ctx, workers, scheduler, case_function)
-            eng.start()
-            summary.workers = eng.parallelism
-            if on_message is not None and hasattr(eng, "description"):
-                on_message(eng.description)
-            try:
-                _drive(eng, todo, batch, report)
-            except KeyboardInterrupt:
-                summary.interrupted = True
-                eng.close(terminate=True)
-                eng = None
-            finally:
-                if eng is not None:
-                    eng.close()
+            summary.workers, summary.interrupted = drive_engine(
+                engine, ctx, todo, report, workers=workers, scheduler=scheduler, case_function=case_function,
+                batch=batch, on_message=on_message)
         summary.counts = db.counts() if store != "none" else {}
         summary.elapsed_s = time.perf_counter() - t_start
         if isinstance(db, StudyStore):
@@ -260,6 +249,32 @@ def run_study(study: Study | str | Path, out: str | Path, *, engine: str = "loca
 
         _write(folder)
     return summary
+
+
+def drive_engine(engine: str, ctx: Any, todo: list[Case], report: Callable[[list[dict]], None], *,
+                 workers: int | None = None, scheduler: Any = None, case_function: CaseFunction | None = None,
+                 batch: bool = False, on_message: Callable[[str], None] | None = None) -> tuple[int, bool]:
+    """Start an engine, run the cases through it (`report` gets the outcomes as they arrive), close it.
+
+    Returns (parallelism, interrupted): Ctrl-C stops the workers and returns interrupted True, so the
+    caller keeps what is stored. Dispersion runs use it with their own context and case function.
+    """
+    eng = _make_engine(engine, ctx, workers, scheduler, case_function)
+    eng.start()
+    parallelism = eng.parallelism
+    if on_message is not None and hasattr(eng, "description"):
+        on_message(eng.description)
+    interrupted = False
+    try:
+        _drive(eng, todo, batch, report)
+    except KeyboardInterrupt:
+        interrupted = True
+        eng.close(terminate=True)
+        eng = None
+    finally:
+        if eng is not None:
+            eng.close()
+    return parallelism, interrupted
 
 
 def _drive(eng, todo: list[Case], batch: bool, report: Callable[[list[dict]], None]) -> None:

@@ -217,14 +217,14 @@ def fly_ascent(vehicle: Vehicle, site: LaunchSite, profile: AscentProfile | None
 def fly_many(vehicles: Sequence[Vehicle], site: LaunchSite | Sequence[LaunchSite], profiles=None, *,
              profile: str = "ascent", rotating: bool = True, earth: str = "round", with_drag: bool = True,
              stop_at: str = "apogee", rtol: float = 1e-8, winds=None,
-             acceleration_limit_m_s2: float | None = None,
+             acceleration_limit_m_s2: float | None = None, max_step_s: float | None = None,
              stabilities: Sequence | None = None) -> tuple[FlightResult, ...]:
     """Fly many vehicles (each with its own stages, drag tables, thrusts, site, profile, wind) in one compiled call.
 
     The vehicles must have the same number of stages. No time history is kept.
     Studies and dispersion runs use this path; each result equals the one of
-    `simulate` for the same inputs. `stabilities` (vertical profile): one
-    `stability` sequence per vehicle, or one for all (see `fly_vertical`).
+    `simulate` for the same inputs (`max_step_s` caps the step [s] as there). `stabilities`
+    (vertical profile): one `stability` sequence per vehicle, or one for all (see `fly_vertical`).
     """
     vehicles = list(vehicles)
     if not vehicles:
@@ -244,7 +244,7 @@ def fly_many(vehicles: Sequence[Vehicle], site: LaunchSite | Sequence[LaunchSite
         setups.append(prepare_flight(
             v, s, profile=profile, ascent=(p or AscentProfile()) if profile == "ascent" else None, earth=earth,
             rotating=rotating and profile == "ascent", with_drag=with_drag, stop_at=stop_at, record_history=False,
-            rtol=rtol, wind=w, stability=c))
+            rtol=rtol, wind=w, stability=c, max_step_s=max_step_s))
     kernel_outs = _run_packed(setups)
     return tuple(
         _finish(s, k, v, st, profile=profile, ascent=(p or AscentProfile()) if profile == "ascent" else None,
