@@ -328,43 +328,7 @@ def problem_from_dict(data: Mapping[str, Any], *, source: str = "<dict>") -> Pro
     amax = col.quantity("mission.max_acceleration", m.max_acceleration, "acceleration", lo=0.0)
     propellants, materials = property_tables(col, pf)
 
-    targets = [k for k, v in (("delta_v", m.delta_v), ("apogee", m.apogee),
-                              ("orbit_altitude", m.orbit_altitude)) if v is not None]
-    if len(targets) > 1:
-        col.fault(f"mission: give one target of delta_v, apogee, orbit_altitude. Got {', '.join(targets)}.")
-    has_target = bool(targets)
-    # a design under review (every stage gives its masses) has a known gross mass
-    design_gross = None
-    if (m.gross_mass is None and m.payload_mass is not None and not has_target
-            and all(st.propellant_mass is not None and st.structural_mass is not None for st in pf.stage)):
-        try:
-            design_gross = to_si(m.payload_mass, "mass") + sum(
-                to_si(st.propellant_mass, "mass") + to_si(st.structural_mass, "mass") for st in pf.stage)
-        except ValueError:
-            design_gross = None  # the per-field checks below report it
-    given = {"payload_mass": m.payload_mass is not None, "delta_v": has_target,
-             "gross_mass": m.gross_mass is not None or design_gross is not None}
-    solve_for: SolveFor | None = None
-    if m.solve_for is not None:
-        solve_for = SolveFor(m.solve_for)
-        needed = [k for k in given if k != m.solve_for and not given[k]]
-        if needed:
-            col.fault(f"mission.solve_for: solving for {m.solve_for} needs {' and '.join(needed)}"
-                      f" (a target: delta_v, apogee or orbit_altitude). Got solve_for = {m.solve_for!r}.")
-    else:
-        missing = [k for k, v in given.items() if not v]
-        if len(missing) == 1:
-            solve_for = SolveFor(missing[0])
-        elif not missing:
-            col.fault("mission: payload_mass, gross_mass and a target are all given; "
-                      "set mission.solve_for to say which one to find.")
-        else:
-            col.fault("mission: give two of payload_mass, gross_mass and a target "
-                      f"(delta_v, apogee or orbit_altitude). Missing {' and '.join(missing)}.")
-    if (apogee is not None or orbit is not None) and solve_for not in (None, SolveFor.GROSS_MASS,
-                                                                       SolveFor.PAYLOAD_MASS):
-        col.fault("mission: apogee and orbit_altitude targets solve for gross_mass (give payload_mass) or for "
-                  f"payload_mass (give gross_mass). Got solve_for = {str(solve_for)!r}.")
+    solve_for, design_gross = _solve_for(col, pf, flight_target=apogee is not None or orbit is not None)
     if gross is None and design_gross is not None:
         gross = design_gross
     if payload is not None and gross is not None and gross <= payload:
@@ -373,131 +337,16 @@ def problem_from_dict(data: Mapping[str, Any], *, source: str = "<dict>") -> Pro
     stages: list[StageDef] = []
     names: set[str] = set()
     for i, st in enumerate(pf.stage):
-        where = _stage_label(data, i)
-        name = st.name if st.name else f"stage {i + 1}"
-        if name in names:
-            col.fault(f"{where}.name: stage names must be unique. Got {name!r} twice.")
-        names.add(name)
-        if st.isp is None and st.exhaust_velocity is None and st.propellant is None:
-            col.fault(f"{where}: {MSG_ISP_OR_VE_REQUIRED}.")
-            c = None
-        elif st.isp is not None and st.exhaust_velocity is not None:
-            col.fault(f"{where}: {MSG_ISP_AND_VE}. Got isp = {st.isp!r}, exhaust_velocity = {st.exhaust_velocity!r}.")
-            c = None
-        elif st.isp is not None:
-            isp = col.quantity(f"{where}.isp", st.isp, "time", lo=0.0, allowed="must be > 0 s")
-            c = None if isp is None else isp * g0
-        else:
-            c = col.quantity(f"{where}.exhaust_velocity", st.exhaust_velocity, "velocity", lo=0.0,
-                             allowed="must be > 0 m/s")
-        if st.structure is not None:
-            eps = math.nan  # an output of the stage mass model
-        elif st.structural_coefficient is None:
-            col.fault(f"{where}.structural_coefficient: {MSG_MISSING_KEY}; it is m_s/(m_s+m_p), in (0, 1).")
-            eps = None
-        else:
-            eps = col.quantity(f"{where}.structural_coefficient", st.structural_coefficient,
-                               "dimensionless", lo=0.0, hi=1.0,
-                               allowed=MSG_STRUCTURAL_COEFFICIENT)
-        nmin = col.quantity(f"{where}.min_mass_ratio", st.min_mass_ratio, "dimensionless", lo=1.0,
-                            lo_open=False)
-        nmax = col.quantity(f"{where}.max_mass_ratio", st.max_mass_ratio, "dimensionless", lo=1.0)
-        if nmax is not None and eps is not None and nmax >= 1.0 / eps:
-            # a mass ratio of 1/eps needs infinite stage mass; the bound is then inactive
-            nmax = None
-        smin = col.quantity(f"{where}.min_delta_v_share", st.min_delta_v_share, "dimensionless",
-                            lo=0.0, hi=1.0, lo_open=False, hi_open=False)
-        smax = col.quantity(f"{where}.max_delta_v_share", st.max_delta_v_share, "dimensionless",
-                            lo=0.0, hi=1.0, hi_open=False)
-        if nmin is not None and nmax is not None and nmin > nmax:
-            col.fault(f"{where}.min_mass_ratio: must be <= max_mass_ratio ({nmax:g}). Got {st.min_mass_ratio!r}.")
-        if smin is not None and smax is not None and smin > smax:
-            col.fault(f"{where}.min_delta_v_share: must be <= max_delta_v_share ({smax:g}). Got {st.min_delta_v_share!r}.")
-        mig = col.quantity(f"{where}.max_ignition_mass", st.max_ignition_mass, "mass", lo=0.0)
-        isp_sl = col.quantity(f"{where}.isp_sea_level", st.isp_sea_level, "time", lo=0.0)
-        if isp_sl is not None and c is not None and isp_sl * g0 > c * (1 + 1e-12):
-            col.fault(f"{where}.isp_sea_level: must not exceed the vacuum Isp ({c / g0:.1f} s). Got {st.isp_sea_level!r}.")
-        tw = col.quantity(f"{where}.thrust_to_weight", st.thrust_to_weight, "dimensionless", lo=0.0)
-        thrust = col.quantity(f"{where}.thrust", st.thrust, "force", lo=0.0)
-        if tw is not None and thrust is not None:
-            col.fault(f"{where}: give thrust_to_weight or thrust, not both.")
-        if i == 0 and tw is not None and tw <= 1.0:
-            col.fault(f"{where}.thrust_to_weight: the first stage must lift off, so it must be > 1. Got {st.thrust_to_weight!r}.")
-        dia = col.quantity(f"{where}.diameter", st.diameter, "length", lo=0.0)
-        ae = col.quantity(f"{where}.nozzle_exit_area", st.nozzle_exit_area, "area", lo=0.0)
-        mach = cd = None
-        if (st.drag_mach is None) != (st.drag_cd is None):
-            col.fault(f"{where}: drag_mach and drag_cd go together; give both or neither.")
-        elif st.drag_mach is not None and st.drag_cd is not None:
-            mach_l = [col.quantity(f"{where}.drag_mach[{k + 1}]", v, "dimensionless", lo=0.0, lo_open=False)
-                      for k, v in enumerate(st.drag_mach)]
-            cd_l = [col.quantity(f"{where}.drag_cd[{k + 1}]", v, "dimensionless", lo=0.0)
-                    for k, v in enumerate(st.drag_cd)]
-            if len(mach_l) != len(cd_l) or len(mach_l) < 1:
-                col.fault(f"{where}.drag_cd: must have as many entries as drag_mach ({len(mach_l)}). Got {len(cd_l)}.")
-            elif None not in mach_l and None not in cd_l:
-                if any(b <= a for a, b in zip(mach_l, mach_l[1:])):
-                    col.fault(f"{where}.drag_mach: must be strictly increasing. Got {list(st.drag_mach)!r}.")
-                else:
-                    mach, cd = tuple(mach_l), tuple(cd_l)  # type: ignore[arg-type]
-        coast = col.quantity(f"{where}.coast_before_ignition", st.coast_before_ignition, "time",
-                             lo=0.0, lo_open=False)
-        mp = col.quantity(f"{where}.propellant_mass", st.propellant_mass, "mass", lo=0.0)
-        ms = col.quantity(f"{where}.structural_mass", st.structural_mass, "mass", lo=0.0)
-        cpk = col.quantity(f"{where}.cost_per_dry_kg", st.cost_per_dry_kg, "dimensionless", lo=0.0, lo_open=False)
-        cfx = col.quantity(f"{where}.cost_fixed", st.cost_fixed, "dimensionless", lo=0.0, lo_open=False)
-        extras = stage_model_fields(
-            col, where, st, index=i, n_stages=len(pf.stage), propellants=propellants, materials=materials,
-            dia=dia, tw=tw, thrust=thrust, has_eps=st.structural_coefficient is not None,
-            flight_target=apogee is not None or orbit is not None)
-        table_isp = extras.pop("isp_s", None)
-        if c is None and table_isp is not None and st.isp is None and st.exhaust_velocity is None:
-            c = table_isp * g0
-        table_isp_sl = extras.pop("isp_sea_level_s", None)
-        if isp_sl is None:
-            isp_sl = table_isp_sl
-        if c is None or eps is None:
-            continue
-        stages.append(StageDef(
-            name=name, exhaust_velocity_m_s=c, isp_s=c / g0, structural_coefficient=eps,
-            min_mass_ratio=nmin, max_mass_ratio=nmax, min_delta_v_share=smin,
-            max_delta_v_share=smax, max_ignition_mass_kg=mig, isp_sea_level_s=isp_sl,
-            thrust_to_weight=tw, thrust_n=thrust, diameter_m=dia, nozzle_exit_area_m2=ae,
-            drag_mach=mach, drag_cd=cd, coast_before_ignition_s=coast,
-            propellant_mass_kg=mp, structural_mass_kg=ms, cost_per_dry_kg=cpk, cost_fixed=cfx,
-            **extras,
-        ))
+        sd = _stage_def(col, data, pf, i, st, g0, names, propellants, materials,
+                        flight_target=apogee is not None or orbit is not None)
+        if sd is not None:
+            stages.append(sd)
 
     smin_sum = sum(s.min_delta_v_share or 0.0 for s in stages)
     if smin_sum > 1.0 + 1e-12:
         col.fault(f"stage.min_delta_v_share: the shares must add up to at most 1. Got {smin_sum:g}.")
 
-    launch = LaunchDef()
-    if pf.launch is not None:
-        L = pf.launch
-        launch = LaunchDef(
-            altitude_m=col.quantity("launch.altitude", L.altitude, "length", lo=-500.0, hi=10000.0,
-                                    lo_open=False, hi_open=False) or 0.0,
-            latitude_deg=col.quantity("launch.latitude", L.latitude, "angle", lo=-90.0, hi=90.0,
-                                      lo_open=False, hi_open=False) or 0.0,
-            azimuth_deg=col.quantity("launch.azimuth", L.azimuth, "angle", lo=0.0, hi=360.0,
-                                     lo_open=False),
-            rail_length_m=col.quantity("launch.rail_length", L.rail_length, "length", lo=0.0,
-                                       lo_open=False) or 0.0,
-            rail_angle_deg=col.quantity("launch.rail_angle", L.rail_angle, "angle", lo=0.0, hi=30.0,
-                                        lo_open=False, hi_open=False,
-                                        allowed="must be in [0, 30] degrees from vertical "
-                                                "(hobby safety codes keep launchers within 30 degrees)") or 0.0,
-            profile=L.profile,
-            pitch_kick_deg=col.quantity("launch.pitch_kick", L.pitch_kick, "angle", lo=0.0, hi=45.0,
-                                        lo_open=False),
-            vertical_rise_time_s=col.quantity("launch.vertical_rise_time", L.vertical_rise_time,
-                                              "time", lo=0.0),
-            staging_delay_s=col.quantity("launch.staging_delay", L.staging_delay, "time", lo=0.0,
-                                         lo_open=False) or 0.0,
-            payload_diameter_m=col.quantity("launch.payload_diameter", L.payload_diameter, "length",
-                                            lo=0.0),
-        )
+    launch = LaunchDef() if pf.launch is None else _launch_def(col, pf.launch)
     if apogee is not None and apogee <= 0:
         col.fault(f"mission.apogee: must be above the launch site. Got {m.apogee!r}.")
 
@@ -519,5 +368,179 @@ def problem_from_dict(data: Mapping[str, Any], *, source: str = "<dict>") -> Pro
         tolerance=pf.solver.tolerance, launch=launch, raw=data, dispersions=dispersions,
         design_masses_given=all(st.propellant_mass is not None and st.structural_mass is not None
                                 for st in pf.stage),
+    )
+
+
+def _solve_for(col: _Collector, pf: ProblemFile, *, flight_target: bool) -> tuple[SolveFor | None, float | None]:
+    """What the problem solves for (the one of payload, gross mass and target not given), and the gross mass
+    of a design under review (every stage gives its masses) [kg] or None."""
+    m = pf.mission
+    targets = [k for k, v in (("delta_v", m.delta_v), ("apogee", m.apogee),
+                              ("orbit_altitude", m.orbit_altitude)) if v is not None]
+    if len(targets) > 1:
+        col.fault(f"mission: give one target of delta_v, apogee, orbit_altitude. Got {', '.join(targets)}.")
+    has_target = bool(targets)
+    design_gross = None
+    if (m.gross_mass is None and m.payload_mass is not None and not has_target
+            and all(st.propellant_mass is not None and st.structural_mass is not None for st in pf.stage)):
+        try:
+            design_gross = to_si(m.payload_mass, "mass") + sum(
+                to_si(st.propellant_mass, "mass") + to_si(st.structural_mass, "mass") for st in pf.stage)
+        except ValueError:
+            design_gross = None  # the per-field checks report it
+    given = {"payload_mass": m.payload_mass is not None, "delta_v": has_target,
+             "gross_mass": m.gross_mass is not None or design_gross is not None}
+    solve_for: SolveFor | None = None
+    if m.solve_for is not None:
+        solve_for = SolveFor(m.solve_for)
+        needed = [k for k in given if k != m.solve_for and not given[k]]
+        if needed:
+            col.fault(f"mission.solve_for: solving for {m.solve_for} needs {' and '.join(needed)}"
+                      f" (a target: delta_v, apogee or orbit_altitude). Got solve_for = {m.solve_for!r}.")
+    else:
+        missing = [k for k, v in given.items() if not v]
+        if len(missing) == 1:
+            solve_for = SolveFor(missing[0])
+        elif not missing:
+            col.fault("mission: payload_mass, gross_mass and a target are all given; "
+                      "set mission.solve_for to say which one to find.")
+        else:
+            col.fault("mission: give two of payload_mass, gross_mass and a target "
+                      f"(delta_v, apogee or orbit_altitude). Missing {' and '.join(missing)}.")
+    if flight_target and solve_for not in (None, SolveFor.GROSS_MASS, SolveFor.PAYLOAD_MASS):
+        col.fault("mission: apogee and orbit_altitude targets solve for gross_mass (give payload_mass) or for "
+                  f"payload_mass (give gross_mass). Got solve_for = {str(solve_for)!r}.")
+    return solve_for, design_gross
+
+
+def _exhaust_velocity(col: _Collector, where: str, st, g0: float) -> float | None:
+    """Vacuum exhaust velocity [m/s] from isp or exhaust_velocity (None when the propellant table gives it)."""
+    if st.isp is None and st.exhaust_velocity is None and st.propellant is None:
+        col.fault(f"{where}: {MSG_ISP_OR_VE_REQUIRED}.")
+        return None
+    if st.isp is not None and st.exhaust_velocity is not None:
+        col.fault(f"{where}: {MSG_ISP_AND_VE}. Got isp = {st.isp!r}, exhaust_velocity = {st.exhaust_velocity!r}.")
+        return None
+    if st.isp is not None:
+        isp = col.quantity(f"{where}.isp", st.isp, "time", lo=0.0, allowed="must be > 0 s")
+        return None if isp is None else isp * g0
+    return col.quantity(f"{where}.exhaust_velocity", st.exhaust_velocity, "velocity", lo=0.0,
+                        allowed="must be > 0 m/s")
+
+
+def _drag_table(col: _Collector, where: str, st) -> tuple[tuple | None, tuple | None]:
+    """(Mach numbers, C_D) of a stage's drag table, or (None, None)."""
+    if (st.drag_mach is None) != (st.drag_cd is None):
+        col.fault(f"{where}: drag_mach and drag_cd go together; give both or neither.")
+        return None, None
+    if st.drag_mach is None:
+        return None, None
+    mach_l = [col.quantity(f"{where}.drag_mach[{k + 1}]", v, "dimensionless", lo=0.0, lo_open=False)
+              for k, v in enumerate(st.drag_mach)]
+    cd_l = [col.quantity(f"{where}.drag_cd[{k + 1}]", v, "dimensionless", lo=0.0)
+            for k, v in enumerate(st.drag_cd)]
+    if len(mach_l) != len(cd_l) or len(mach_l) < 1:
+        col.fault(f"{where}.drag_cd: must have as many entries as drag_mach ({len(mach_l)}). Got {len(cd_l)}.")
+    elif None not in mach_l and None not in cd_l:
+        if any(b <= a for a, b in zip(mach_l, mach_l[1:])):
+            col.fault(f"{where}.drag_mach: must be strictly increasing. Got {list(st.drag_mach)!r}.")
+        else:
+            return tuple(mach_l), tuple(cd_l)
+    return None, None
+
+
+def _stage_limits(col: _Collector, where: str, st, eps: float | None) -> dict[str, Any]:
+    """The per-stage design limits (mass ratio, delta-v share, ignition mass) as StageDef fields."""
+    nmin = col.quantity(f"{where}.min_mass_ratio", st.min_mass_ratio, "dimensionless", lo=1.0, lo_open=False)
+    nmax = col.quantity(f"{where}.max_mass_ratio", st.max_mass_ratio, "dimensionless", lo=1.0)
+    if nmax is not None and eps is not None and nmax >= 1.0 / eps:
+        # a mass ratio of 1/eps needs infinite stage mass; the bound is then inactive
+        nmax = None
+    smin = col.quantity(f"{where}.min_delta_v_share", st.min_delta_v_share, "dimensionless",
+                        lo=0.0, hi=1.0, lo_open=False, hi_open=False)
+    smax = col.quantity(f"{where}.max_delta_v_share", st.max_delta_v_share, "dimensionless",
+                        lo=0.0, hi=1.0, hi_open=False)
+    if nmin is not None and nmax is not None and nmin > nmax:
+        col.fault(f"{where}.min_mass_ratio: must be <= max_mass_ratio ({nmax:g}). Got {st.min_mass_ratio!r}.")
+    if smin is not None and smax is not None and smin > smax:
+        col.fault(f"{where}.min_delta_v_share: must be <= max_delta_v_share ({smax:g}). Got {st.min_delta_v_share!r}.")
+    mig = col.quantity(f"{where}.max_ignition_mass", st.max_ignition_mass, "mass", lo=0.0)
+    return dict(min_mass_ratio=nmin, max_mass_ratio=nmax, min_delta_v_share=smin, max_delta_v_share=smax,
+                max_ignition_mass_kg=mig)
+
+
+def _stage_def(col: _Collector, data, pf: ProblemFile, i: int, st, g0: float, names: set[str], propellants,
+               materials, *, flight_target: bool) -> StageDef | None:
+    """One [[stage]] table checked and converted to SI (None when a fault leaves it incomplete)."""
+    where = _stage_label(data, i)
+    name = st.name if st.name else f"stage {i + 1}"
+    if name in names:
+        col.fault(f"{where}.name: stage names must be unique. Got {name!r} twice.")
+    names.add(name)
+    c = _exhaust_velocity(col, where, st, g0)
+    if st.structure is not None:
+        eps = math.nan  # an output of the stage mass model
+    elif st.structural_coefficient is None:
+        col.fault(f"{where}.structural_coefficient: {MSG_MISSING_KEY}; it is m_s/(m_s+m_p), in (0, 1).")
+        eps = None
+    else:
+        eps = col.quantity(f"{where}.structural_coefficient", st.structural_coefficient,
+                           "dimensionless", lo=0.0, hi=1.0, allowed=MSG_STRUCTURAL_COEFFICIENT)
+    limits = _stage_limits(col, where, st, eps)
+    isp_sl = col.quantity(f"{where}.isp_sea_level", st.isp_sea_level, "time", lo=0.0)
+    if isp_sl is not None and c is not None and isp_sl * g0 > c * (1 + 1e-12):
+        col.fault(f"{where}.isp_sea_level: must not exceed the vacuum Isp ({c / g0:.1f} s). Got {st.isp_sea_level!r}.")
+    tw = col.quantity(f"{where}.thrust_to_weight", st.thrust_to_weight, "dimensionless", lo=0.0)
+    thrust = col.quantity(f"{where}.thrust", st.thrust, "force", lo=0.0)
+    if tw is not None and thrust is not None:
+        col.fault(f"{where}: give thrust_to_weight or thrust, not both.")
+    if i == 0 and tw is not None and tw <= 1.0:
+        col.fault(f"{where}.thrust_to_weight: the first stage must lift off, so it must be > 1. Got {st.thrust_to_weight!r}.")
+    dia = col.quantity(f"{where}.diameter", st.diameter, "length", lo=0.0)
+    ae = col.quantity(f"{where}.nozzle_exit_area", st.nozzle_exit_area, "area", lo=0.0)
+    mach, cd = _drag_table(col, where, st)
+    coast = col.quantity(f"{where}.coast_before_ignition", st.coast_before_ignition, "time", lo=0.0, lo_open=False)
+    mp = col.quantity(f"{where}.propellant_mass", st.propellant_mass, "mass", lo=0.0)
+    ms = col.quantity(f"{where}.structural_mass", st.structural_mass, "mass", lo=0.0)
+    cpk = col.quantity(f"{where}.cost_per_dry_kg", st.cost_per_dry_kg, "dimensionless", lo=0.0, lo_open=False)
+    cfx = col.quantity(f"{where}.cost_fixed", st.cost_fixed, "dimensionless", lo=0.0, lo_open=False)
+    extras = stage_model_fields(
+        col, where, st, index=i, n_stages=len(pf.stage), propellants=propellants, materials=materials,
+        dia=dia, tw=tw, thrust=thrust, has_eps=st.structural_coefficient is not None, flight_target=flight_target)
+    table_isp = extras.pop("isp_s", None)
+    if c is None and table_isp is not None and st.isp is None and st.exhaust_velocity is None:
+        c = table_isp * g0
+    table_isp_sl = extras.pop("isp_sea_level_s", None)
+    if isp_sl is None:
+        isp_sl = table_isp_sl
+    if c is None or eps is None:
+        return None
+    return StageDef(
+        name=name, exhaust_velocity_m_s=c, isp_s=c / g0, structural_coefficient=eps, **limits,
+        isp_sea_level_s=isp_sl, thrust_to_weight=tw, thrust_n=thrust, diameter_m=dia, nozzle_exit_area_m2=ae,
+        drag_mach=mach, drag_cd=cd, coast_before_ignition_s=coast,
+        propellant_mass_kg=mp, structural_mass_kg=ms, cost_per_dry_kg=cpk, cost_fixed=cfx, **extras,
+    )
+
+
+def _launch_def(col: _Collector, L) -> LaunchDef:
+    """The [launch] table in SI."""
+    return LaunchDef(
+        altitude_m=col.quantity("launch.altitude", L.altitude, "length", lo=-500.0, hi=10000.0,
+                                lo_open=False, hi_open=False) or 0.0,
+        latitude_deg=col.quantity("launch.latitude", L.latitude, "angle", lo=-90.0, hi=90.0,
+                                  lo_open=False, hi_open=False) or 0.0,
+        azimuth_deg=col.quantity("launch.azimuth", L.azimuth, "angle", lo=0.0, hi=360.0, lo_open=False),
+        rail_length_m=col.quantity("launch.rail_length", L.rail_length, "length", lo=0.0, lo_open=False) or 0.0,
+        rail_angle_deg=col.quantity("launch.rail_angle", L.rail_angle, "angle", lo=0.0, hi=30.0,
+                                    lo_open=False, hi_open=False,
+                                    allowed="must be in [0, 30] degrees from vertical "
+                                            "(hobby safety codes keep launchers within 30 degrees)") or 0.0,
+        profile=L.profile,
+        pitch_kick_deg=col.quantity("launch.pitch_kick", L.pitch_kick, "angle", lo=0.0, hi=45.0, lo_open=False),
+        vertical_rise_time_s=col.quantity("launch.vertical_rise_time", L.vertical_rise_time, "time", lo=0.0),
+        staging_delay_s=col.quantity("launch.staging_delay", L.staging_delay, "time", lo=0.0,
+                                     lo_open=False) or 0.0,
+        payload_diameter_m=col.quantity("launch.payload_diameter", L.payload_diameter, "length", lo=0.0),
     )
 
