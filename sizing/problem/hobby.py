@@ -437,25 +437,7 @@ def hobby_problem_from_dict(data: Mapping[str, Any], *, source: str = "<dict>",
     kind = hob.get("kind") if isinstance(hob, Mapping) else None
     model = {"motors": MotorHobbyFile, "water": WaterHobbyFile}.get(kind, _AnyHobbyFile)
     stage_model = {"motors": MotorStageTable, "water": WaterStageTable}.get(kind)
-    # keys of the other kind are checked on the raw table, so they are reported with schema faults
-    pre: list[str] = []
-    if kind == "water":
-        for k in ("objective", "match_target", "motors", "max_simulations", "max_combinations"):
-            if k in hob:
-                pre.append(f"hobby.{k}: {MSG_MOTORS_ONLY}. Got {hob[k]!r} with kind = 'water'.")
-        if "max_acceleration" in hob:
-            pre.append(f"hobby.max_acceleration: {MSG_MOTORS_ONLY} (the water optimiser has no acceleration "
-                       f"limit; the output reports the maximum). Got {hob['max_acceleration']!r}.")
-        for k in ("min_static_margin", "stability_fix"):
-            if k in hob:
-                pre.append(f"hobby.{k}: {MSG_MOTORS_ONLY}. Got {hob[k]!r} with kind = 'water'.")
-        for tab, keys in (("launch", WIND_KEYS), ("mission", ("payload_position", "ballast_position"))):
-            raw_tab = data.get(tab)
-            for k in keys:
-                if isinstance(raw_tab, Mapping) and k in raw_tab:
-                    pre.append(f"{tab}.{k}: {MSG_MOTORS_ONLY}. Got {raw_tab[k]!r} with kind = 'water'.")
-    elif kind == "motors" and "optimise" in hob:
-        pre.append(f"hobby.optimise: {MSG_WATER_ONLY}. Got a [hobby.optimise] table with kind = 'motors'.")
+    pre = _other_kind_faults(data, hob, kind)
     try:
         pf = model.model_validate(data)
     except ValidationError as exc:
@@ -502,141 +484,13 @@ def hobby_problem_from_dict(data: Mapping[str, Any], *, source: str = "<dict>",
     motors: tuple[Motor, ...] = ()
     motor_stages: list[MotorStageDef] = []
     water_stages: list[WaterStage] = []
-    names: set[str] = set()
     opt = None
-
     if kind == "motors":
-        found: list[Motor] = []
-        origin: dict[str, str] = {}
-        motors_file = None
-        if h.motors is not None:
-            motors_file = base / h.motors
-            try:
-                for mo in load_motors(motors_file):
-                    found.append(mo)
-                    origin[mo.name] = str(motors_file)
-            except ProblemDefinitionError as exc:
-                for f in exc.faults:
-                    col.fault(f"hobby.motors ({exc.source}): {f}")
-        if pf.motor is not None:
-            try:
-                inline = parse_motors({"motor": pf.motor}, source=source)
-            except ProblemDefinitionError as exc:
-                for f in exc.faults:
-                    col.fault(f)
-                inline = ()
-            for mo in inline:
-                if mo.name in origin:
-                    col.fault(f"motor ({mo.name}).name: {MSG_DUPLICATE_MOTOR}; {origin[mo.name]} has it too. "
-                              f"Got {mo.name!r}.")
-                    continue
-                found.append(mo)
-                origin[mo.name] = source
-        if h.motors is None and pf.motor is None:
-            col.fault(f"hobby.motors: {MSG_NO_MOTORS}.")
-        motors = tuple(found)
-        if h.objective == "cost":
-            missing = [mo.name for mo in motors if mo.cost is None]
-            if missing:
-                col.fault("hobby.objective: 'cost' needs a cost for every motor; missing for "
-                          + ", ".join(missing[:5]) + (" ..." if len(missing) > 5 else "") + ". Got 'cost'.")
-        known = {mo.name for mo in motors}
-        for i, st in enumerate(pf.stage):
-            where = _stage_label(data, i)
-            name = st.name or f"stage {i + 1}"
-            if name in names:
-                col.fault(f"{where}.name: stage names must be unique. Got {name!r} twice.")
-            names.add(name)
-            af = col.quantity(f"{where}.airframe_mass", st.airframe_mass, "mass", lo=0.0, lo_open=False)
-            dia = col.quantity(f"{where}.diameter", st.diameter, "length", lo=0.0)
-            mdia = col.quantity(f"{where}.motor_diameter", st.motor_diameter, "length", lo=0.0)
-            coast = col.quantity(f"{where}.coast_before_ignition", st.coast_before_ignition, "time", lo=0.0,
-                                 lo_open=False)
-            drag = _drag(col, where, st.drag_mach, st.drag_cd)
-            allowed = tuple(st.allowed_motors) if st.allowed_motors is not None else None
-            if allowed is not None and motors:
-                unknown = [a for a in allowed if a not in known]
-                if unknown:
-                    col.fault(f"{where}.allowed_motors: {MSG_UNKNOWN_MOTOR}. Got {', '.join(map(repr, unknown))}; "
-                              f"the list has {len(known)} motors (e.g. {', '.join(sorted(known)[:3])}).")
-                    continue
-            if af is None or dia is None or (st.motor_diameter is not None and mdia is None):
-                continue
-            geo = _stage_geometry(col, data, pf.stage, i, where, dia, af)
-            recovery = parse_recovery(col, where, st.recovery)
-            sd = MotorStageDef(name, af, dia, mdia, allowed, coast or 0.0, drag, geo, recovery)
-            if geo is not None and motors:
-                short = sorted(mo.name for mo in motors if _fits(sd, mo) and mo.length_m is None)
-                if short:
-                    col.fault(f"{where}.geometry: {MSG_MOTOR_LENGTH}; give `length` for "
-                              + ", ".join(short[:5]) + (" ..." if len(short) > 5 else "") + ". Got none.")
-            if motors and not any(_fits(sd, mo) for mo in motors):
-                have = sorted({round(mo.diameter_m * 1000, 1) for mo in motors if mo.diameter_m})
-                col.fault(f"{where}.motor_diameter: {MSG_NO_MOTOR_FITS}; motor diameters in the list: "
-                          f"{', '.join(f'{d:g}' for d in have)} mm. Got {st.motor_diameter!r}.")
-                continue
-            motor_stages.append(sd)
-        with_geo = [st.geometry is not None for st in pf.stage]
-        if any(with_geo) and not all(with_geo):
-            col.fault(f"{_stage_label(data, with_geo.index(False))}.geometry: {MSG_GEOMETRY_ALL_OR_NONE}. "
-                      f"Got geometry on {sum(with_geo)} of {len(with_geo)} stages.")
-        if not any(with_geo):
-            for k, v in (("hobby.min_static_margin", h.min_static_margin), ("hobby.stability_fix", h.stability_fix),
-                         ("mission.payload_position", m.payload_position),
-                         ("mission.ballast_position", m.ballast_position)):
-                if v is not None:
-                    col.fault(f"{k}: {MSG_GEOMETRY_NEEDED}. Got {v!r}.")
+        motors = _collect_motors(col, pf, base, source)
+        motor_stages = _motor_stages(col, data, pf, motors)
     else:
-        o = h.optimise or OptimiseTable()
-        vary = tuple(dict.fromkeys(o.vary))
-        if len(vary) != len(o.vary):
-            col.fault(f"hobby.optimise.vary: each name once. Got {list(o.vary)!r}.")
-        maxp = col.quantity("hobby.optimise.max_pressure", o.max_pressure, "pressure", lo=0.0)
-        fb = _bounds(col, "hobby.optimise.fill_bounds", o.fill_bounds, "dimensionless", 0.0, 1.0, "")
-        nb = _bounds(col, "hobby.optimise.nozzle_diameter_bounds", o.nozzle_diameter_bounds, "length", 0.0,
-                     None, " (m)")
-        opt = (vary, maxp, fb, nb, o.max_evaluations, o.n_grid)
-        for i, st in enumerate(pf.stage):
-            where = _stage_label(data, i)
-            name = st.name or f"stage {i + 1}"
-            if name in names:
-                col.fault(f"{where}.name: stage names must be unique. Got {name!r} twice.")
-            names.add(name)
-            n0 = len(col.faults)
-            q = col.quantity
-            vol = q(f"{where}.bottle_volume", st.bottle_volume, "volume", lo=0.0)
-            dry = q(f"{where}.dry_mass", st.dry_mass, "mass", lo=0.0, lo_open=False)
-            dia = q(f"{where}.diameter", st.diameter, "length", lo=0.0)
-            noz = q(f"{where}.nozzle_diameter", st.nozzle_diameter, "length", lo=0.0)
-            pg = q(f"{where}.pressure", st.pressure, "pressure", lo=0.0, allowed="must be > 0 Pa (gauge)")
-            fill = q(f"{where}.fill_fraction", st.fill_fraction, "dimensionless", lo=0.0, hi=1.0)
-            rated = q(f"{where}.rated_pressure", st.rated_pressure, "pressure", lo=0.0,
-                      allowed="must be > 0 Pa (gauge)")
-            sf = q(f"{where}.safety_factor", st.safety_factor, "dimensionless", lo=MIN_SAFETY_FACTOR,
-                   lo_open=False, allowed=MSG_SAFETY_FACTOR)
-            tl = q(f"{where}.launch_tube_length", st.launch_tube_length, "length", lo=0.0, lo_open=False)
-            td = q(f"{where}.launch_tube_diameter", st.launch_tube_diameter, "length", lo=0.0)
-            n_exp = q(f"{where}.polytropic_exponent", st.polytropic_exponent, "dimensionless", lo=1.0, hi=1.4,
-                      lo_open=False, hi_open=False)
-            drag = _drag(col, where, st.drag_mach, st.drag_cd)
-            if i > 0 and tl:
-                col.fault(f"{where}.launch_tube_length: {MSG_TUBE_BOTTOM_ONLY}. Got {st.launch_tube_length!r}.")
-            if len(col.faults) > n0:
-                continue
-            kw: dict[str, Any] = {}
-            if n_exp is not None:
-                kw["polytropic_exponent"] = n_exp
-            try:
-                water_stages.append(WaterStage(
-                    name, vol, dry, dia, noz, pg, fill, rated,
-                    safety_factor=DEFAULT_SAFETY_FACTOR if sf is None else sf,
-                    launch_tube_length_m=tl or 0.0, launch_tube_diameter_m=td, drag=drag, **kw,
-                ))
-            except FieldError as exc:
-                key = exc.field.rsplit(".", 1)[-1]
-                raw = getattr(st, key, None) if key in WaterStageTable.model_fields else exc.value
-                got = f" Got {raw!r}." if raw is not None else ""
-                col.fault(f"{where}.{key}: {exc.message}{got}")
+        opt = _water_options(col, h)
+        water_stages = _water_stages(col, data, pf)
 
     rail_given = L is not None and L.rail_length is not None
     if rail is None:
@@ -671,6 +525,192 @@ def hobby_problem_from_dict(data: Mapping[str, Any], *, source: str = "<dict>",
         **common, water_stages=tuple(water_stages), vary=vary, max_gauge_pressure_pa=maxp, fill_bounds=fb,
         nozzle_diameter_bounds_m=nb, max_evaluations=max_eval, n_grid=n_grid,
     )
+
+
+def _other_kind_faults(data: Mapping[str, Any], hob, kind) -> list[str]:
+    """Keys of the other kind (motors vs water), checked on the raw table so they are reported with the
+    schema faults."""
+    pre: list[str] = []
+    if kind == "water":
+        for k in ("objective", "match_target", "motors", "max_simulations", "max_combinations"):
+            if k in hob:
+                pre.append(f"hobby.{k}: {MSG_MOTORS_ONLY}. Got {hob[k]!r} with kind = 'water'.")
+        if "max_acceleration" in hob:
+            pre.append(f"hobby.max_acceleration: {MSG_MOTORS_ONLY} (the water optimiser has no acceleration "
+                       f"limit; the output reports the maximum). Got {hob['max_acceleration']!r}.")
+        for k in ("min_static_margin", "stability_fix"):
+            if k in hob:
+                pre.append(f"hobby.{k}: {MSG_MOTORS_ONLY}. Got {hob[k]!r} with kind = 'water'.")
+        for tab, keys in (("launch", WIND_KEYS), ("mission", ("payload_position", "ballast_position"))):
+            raw_tab = data.get(tab)
+            for k in keys:
+                if isinstance(raw_tab, Mapping) and k in raw_tab:
+                    pre.append(f"{tab}.{k}: {MSG_MOTORS_ONLY}. Got {raw_tab[k]!r} with kind = 'water'.")
+    elif kind == "motors" and "optimise" in hob:
+        pre.append(f"hobby.optimise: {MSG_WATER_ONLY}. Got a [hobby.optimise] table with kind = 'motors'.")
+    return pre
+
+
+def _stage_name(col: _Collector, where: str, st, i: int, names: set[str]) -> str:
+    """The stage's name (default "stage N"), faulted when it repeats one in `names` (which it joins)."""
+    name = st.name or f"stage {i + 1}"
+    if name in names:
+        col.fault(f"{where}.name: stage names must be unique. Got {name!r} twice.")
+    names.add(name)
+    return name
+
+
+def _collect_motors(col: _Collector, pf, base: Path, source: str) -> tuple[Motor, ...]:
+    """The candidate motors: the hobby.motors file (relative to `base`) and inline [[motor]] tables."""
+    h = pf.hobby
+    found: list[Motor] = []
+    origin: dict[str, str] = {}
+    if h.motors is not None:
+        motors_file = base / h.motors
+        try:
+            for mo in load_motors(motors_file):
+                found.append(mo)
+                origin[mo.name] = str(motors_file)
+        except ProblemDefinitionError as exc:
+            for f in exc.faults:
+                col.fault(f"hobby.motors ({exc.source}): {f}")
+    if pf.motor is not None:
+        try:
+            inline = parse_motors({"motor": pf.motor}, source=source)
+        except ProblemDefinitionError as exc:
+            for f in exc.faults:
+                col.fault(f)
+            inline = ()
+        for mo in inline:
+            if mo.name in origin:
+                col.fault(f"motor ({mo.name}).name: {MSG_DUPLICATE_MOTOR}; {origin[mo.name]} has it too. "
+                          f"Got {mo.name!r}.")
+                continue
+            found.append(mo)
+            origin[mo.name] = source
+    if h.motors is None and pf.motor is None:
+        col.fault(f"hobby.motors: {MSG_NO_MOTORS}.")
+    motors = tuple(found)
+    if h.objective == "cost":
+        missing = [mo.name for mo in motors if mo.cost is None]
+        if missing:
+            col.fault("hobby.objective: 'cost' needs a cost for every motor; missing for "
+                      + ", ".join(missing[:5]) + (" ..." if len(missing) > 5 else "") + ". Got 'cost'.")
+    return motors
+
+
+def _motor_stages(col: _Collector, data: Mapping[str, Any], pf, motors: tuple[Motor, ...]) -> list[MotorStageDef]:
+    """The [[stage]] tables of a motor stack, each checked against the candidate motors."""
+    known = {mo.name for mo in motors}
+    names: set[str] = set()
+    out: list[MotorStageDef] = []
+    for i, st in enumerate(pf.stage):
+        where = _stage_label(data, i)
+        name = _stage_name(col, where, st, i, names)
+        af = col.quantity(f"{where}.airframe_mass", st.airframe_mass, "mass", lo=0.0, lo_open=False)
+        dia = col.quantity(f"{where}.diameter", st.diameter, "length", lo=0.0)
+        mdia = col.quantity(f"{where}.motor_diameter", st.motor_diameter, "length", lo=0.0)
+        coast = col.quantity(f"{where}.coast_before_ignition", st.coast_before_ignition, "time", lo=0.0,
+                             lo_open=False)
+        drag = _drag(col, where, st.drag_mach, st.drag_cd)
+        allowed = tuple(st.allowed_motors) if st.allowed_motors is not None else None
+        if allowed is not None and motors:
+            unknown = [a for a in allowed if a not in known]
+            if unknown:
+                col.fault(f"{where}.allowed_motors: {MSG_UNKNOWN_MOTOR}. Got {', '.join(map(repr, unknown))}; "
+                          f"the list has {len(known)} motors (e.g. {', '.join(sorted(known)[:3])}).")
+                continue
+        if af is None or dia is None or (st.motor_diameter is not None and mdia is None):
+            continue
+        geo = _stage_geometry(col, data, pf.stage, i, where, dia, af)
+        recovery = parse_recovery(col, where, st.recovery)
+        sd = MotorStageDef(name, af, dia, mdia, allowed, coast or 0.0, drag, geo, recovery)
+        if geo is not None and motors:
+            short = sorted(mo.name for mo in motors if _fits(sd, mo) and mo.length_m is None)
+            if short:
+                col.fault(f"{where}.geometry: {MSG_MOTOR_LENGTH}; give `length` for "
+                          + ", ".join(short[:5]) + (" ..." if len(short) > 5 else "") + ". Got none.")
+        if motors and not any(_fits(sd, mo) for mo in motors):
+            have = sorted({round(mo.diameter_m * 1000, 1) for mo in motors if mo.diameter_m})
+            col.fault(f"{where}.motor_diameter: {MSG_NO_MOTOR_FITS}; motor diameters in the list: "
+                      f"{', '.join(f'{d:g}' for d in have)} mm. Got {st.motor_diameter!r}.")
+            continue
+        out.append(sd)
+    _geometry_rules(col, data, pf)
+    return out
+
+
+def _geometry_rules(col: _Collector, data: Mapping[str, Any], pf) -> None:
+    """Geometry on every stage or none; stability keys need it."""
+    h, m = pf.hobby, pf.mission
+    with_geo = [st.geometry is not None for st in pf.stage]
+    if any(with_geo) and not all(with_geo):
+        col.fault(f"{_stage_label(data, with_geo.index(False))}.geometry: {MSG_GEOMETRY_ALL_OR_NONE}. "
+                  f"Got geometry on {sum(with_geo)} of {len(with_geo)} stages.")
+    if not any(with_geo):
+        for k, v in (("hobby.min_static_margin", h.min_static_margin), ("hobby.stability_fix", h.stability_fix),
+                     ("mission.payload_position", m.payload_position),
+                     ("mission.ballast_position", m.ballast_position)):
+            if v is not None:
+                col.fault(f"{k}: {MSG_GEOMETRY_NEEDED}. Got {v!r}.")
+
+
+def _water_options(col: _Collector, h) -> tuple:
+    """[hobby.optimise] of a water stack: (vary, max pressure, fill bounds, nozzle bounds, evaluations, grid)."""
+    o = h.optimise or OptimiseTable()
+    vary = tuple(dict.fromkeys(o.vary))
+    if len(vary) != len(o.vary):
+        col.fault(f"hobby.optimise.vary: each name once. Got {list(o.vary)!r}.")
+    maxp = col.quantity("hobby.optimise.max_pressure", o.max_pressure, "pressure", lo=0.0)
+    fb = _bounds(col, "hobby.optimise.fill_bounds", o.fill_bounds, "dimensionless", 0.0, 1.0, "")
+    nb = _bounds(col, "hobby.optimise.nozzle_diameter_bounds", o.nozzle_diameter_bounds, "length", 0.0,
+                 None, " (m)")
+    return vary, maxp, fb, nb, o.max_evaluations, o.n_grid
+
+
+def _water_stages(col: _Collector, data: Mapping[str, Any], pf) -> list[WaterStage]:
+    """The [[stage]] tables of a water stack in SI."""
+    names: set[str] = set()
+    out: list[WaterStage] = []
+    for i, st in enumerate(pf.stage):
+        where = _stage_label(data, i)
+        name = _stage_name(col, where, st, i, names)
+        n0 = len(col.faults)
+        q = col.quantity
+        vol = q(f"{where}.bottle_volume", st.bottle_volume, "volume", lo=0.0)
+        dry = q(f"{where}.dry_mass", st.dry_mass, "mass", lo=0.0, lo_open=False)
+        dia = q(f"{where}.diameter", st.diameter, "length", lo=0.0)
+        noz = q(f"{where}.nozzle_diameter", st.nozzle_diameter, "length", lo=0.0)
+        pg = q(f"{where}.pressure", st.pressure, "pressure", lo=0.0, allowed="must be > 0 Pa (gauge)")
+        fill = q(f"{where}.fill_fraction", st.fill_fraction, "dimensionless", lo=0.0, hi=1.0)
+        rated = q(f"{where}.rated_pressure", st.rated_pressure, "pressure", lo=0.0,
+                  allowed="must be > 0 Pa (gauge)")
+        sf = q(f"{where}.safety_factor", st.safety_factor, "dimensionless", lo=MIN_SAFETY_FACTOR,
+               lo_open=False, allowed=MSG_SAFETY_FACTOR)
+        tl = q(f"{where}.launch_tube_length", st.launch_tube_length, "length", lo=0.0, lo_open=False)
+        td = q(f"{where}.launch_tube_diameter", st.launch_tube_diameter, "length", lo=0.0)
+        n_exp = q(f"{where}.polytropic_exponent", st.polytropic_exponent, "dimensionless", lo=1.0, hi=1.4,
+                  lo_open=False, hi_open=False)
+        drag = _drag(col, where, st.drag_mach, st.drag_cd)
+        if i > 0 and tl:
+            col.fault(f"{where}.launch_tube_length: {MSG_TUBE_BOTTOM_ONLY}. Got {st.launch_tube_length!r}.")
+        if len(col.faults) > n0:
+            continue
+        kw: dict[str, Any] = {}
+        if n_exp is not None:
+            kw["polytropic_exponent"] = n_exp
+        try:
+            out.append(WaterStage(
+                name, vol, dry, dia, noz, pg, fill, rated,
+                safety_factor=DEFAULT_SAFETY_FACTOR if sf is None else sf,
+                launch_tube_length_m=tl or 0.0, launch_tube_diameter_m=td, drag=drag, **kw,
+            ))
+        except FieldError as exc:
+            key = exc.field.rsplit(".", 1)[-1]
+            raw = getattr(st, key, None) if key in WaterStageTable.model_fields else exc.value
+            got = f" Got {raw!r}." if raw is not None else ""
+            col.fault(f"{where}.{key}: {exc.message}{got}")
+    return out
 
 
 def _stage_geometry(col: _Collector, data: Mapping[str, Any], tables, i: int, where: str,
