@@ -25,16 +25,7 @@ from ..errors import (
 )
 from ..units import G0_M_S2, to_si
 from .model import LaunchDef, Problem, SolveFor, StageDef, SteeringDef
-from .schema import (
-    LaunchTable,
-    MaterialEntryTable,
-    MissionTable,
-    ProblemFile,
-    PropellantEntryTable,
-    SolverTable,
-    StageTable,
-    StructureTable,
-)
+from .schema import ProblemFile
 from .stage_load import property_tables, stage_model_fields
 
 __all__ = ["load_problem", "problem_from_dict", "read_toml", "render_validation_error"]
