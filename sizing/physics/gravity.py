@@ -24,6 +24,7 @@ __all__ = [
     "launch_azimuth_deg",
     "OrbitElements",
     "orbit_elements",
+    "time_to_apoapsis_s",
 ]
 
 
@@ -221,3 +222,30 @@ def orbit_elements(radius_m: float, speed_m_s: float, flight_path_angle_rad: flo
         eccentricity=e,
         inclination_deg=inclination_deg,
     )
+
+
+def time_to_apoapsis_s(y) -> float:
+    """Two-body time from an inertial state (x, y, z, vx, vy, vz) [m, m/s] to the next apoapsis [s].
+
+    True anomaly from the eccentricity vector, then eccentric and mean anomaly (Kepler's
+    equation; Curtis, Orbital Mechanics for Engineering Students, 3rd ed., Sec. 3.4, from memory).
+    inf on an escape path; 0 on a circular orbit.
+    """
+    r = [float(c) for c in y[0:3]]
+    v = [float(c) for c in y[3:6]]
+    rn = math.sqrt(sum(c * c for c in r))
+    v2 = sum(c * c for c in v)
+    rv = sum(a * b for a, b in zip(r, v))
+    a = 1.0 / (2.0 / rn - v2 / GM_EARTH_M3_S2)
+    if a <= 0:  # escape: no apoapsis
+        return math.inf
+    e_vec = [((v2 - GM_EARTH_M3_S2 / rn) * ri - rv * vi) / GM_EARTH_M3_S2 for ri, vi in zip(r, v)]
+    e = math.sqrt(sum(c * c for c in e_vec))
+    if e < 1e-6:  # circular: every point is an apsis
+        return 0.0
+    cos_nu = max(-1.0, min(1.0, sum(a_ * b for a_, b in zip(e_vec, r)) / (e * rn)))
+    nu = math.acos(cos_nu) if rv >= 0 else 2.0 * math.pi - math.acos(cos_nu)
+    ecc = 2.0 * math.atan(math.sqrt((1 - e) / (1 + e)) * math.tan(nu / 2.0))
+    mean = ecc - e * math.sin(ecc)
+    n = math.sqrt(GM_EARTH_M3_S2 / a ** 3)
+    return float(((math.pi - mean) % (2.0 * math.pi)) / n)

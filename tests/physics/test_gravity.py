@@ -14,6 +14,7 @@ from sizing.physics.gravity import (
     launch_azimuth_deg,
     orbit_elements,
     site_rotation_speed_m_s,
+    time_to_apoapsis_s,
 )
 from sizing.units import GM_EARTH_M3_S2, R_EARTH_EQ_M
 
@@ -106,3 +107,44 @@ def test_orbit_elements_circular_and_elliptic():
     assert el2.apogee_alt_m == pytest.approx(2000e3, abs=1e-3)
     esc = orbit_elements(rp, 1.01 * math.sqrt(2 * mu / rp), 0.0)
     assert math.isinf(esc.apogee_alt_m)
+
+
+def test_time_to_apoapsis_from_perigee_is_half_the_period():
+    """Perigee of a 300 x 800 km transfer orbit: half the period, pi*sqrt(a^3/mu)
+    (Kepler's third law; Curtis, Orbital Mechanics for Engineering Students, 3rd ed., Eq. 2.83)."""
+    r_p, r_a = R_EARTH_EQ_M + 300e3, R_EARTH_EQ_M + 800e3
+    a = 0.5 * (r_p + r_a)
+    v_p = math.sqrt(GM_EARTH_M3_S2 * (2.0 / r_p - 1.0 / a))
+    t = time_to_apoapsis_s([r_p, 0.0, 0.0, 0.0, v_p * math.cos(0.3), v_p * math.sin(0.3)])
+    assert t == pytest.approx(math.pi * math.sqrt(a ** 3 / GM_EARTH_M3_S2), rel=1e-12)
+
+
+@pytest.mark.parametrize("gamma_deg", [4.0, -4.0])
+def test_time_to_apoapsis_matches_a_numerical_two_body_coast(gamma_deg):
+    """From a climbing and a descending state: the time at which an independent two-body
+    integration (scipy solve_ivp, DOP853) next turns from climbing to descending."""
+    from scipy.integrate import solve_ivp
+
+    r0 = R_EARTH_EQ_M + 250e3
+    v0 = 7900.0
+    g = math.radians(gamma_deg)
+    y0 = [r0, 0.0, 0.0, v0 * math.sin(g), v0 * math.cos(g), 0.0]
+
+    def rhs(_t, y):
+        r3 = (y[0] ** 2 + y[1] ** 2 + y[2] ** 2) ** 1.5
+        return [y[3], y[4], y[5], -GM_EARTH_M3_S2 * y[0] / r3, -GM_EARTH_M3_S2 * y[1] / r3,
+                -GM_EARTH_M3_S2 * y[2] / r3]
+
+    def apoapsis(_t, y):
+        return y[0] * y[3] + y[1] * y[4] + y[2] * y[5]
+
+    apoapsis.direction = -1.0
+    sol = solve_ivp(rhs, (0.0, 2e4), y0, method="DOP853", rtol=1e-12, atol=1e-6, events=apoapsis)
+    assert time_to_apoapsis_s(y0) == pytest.approx(sol.t_events[0][0], rel=1e-8)
+
+
+def test_time_to_apoapsis_escape_and_circular():
+    r0 = R_EARTH_EQ_M + 400e3
+    v_c = math.sqrt(GM_EARTH_M3_S2 / r0)
+    assert time_to_apoapsis_s([r0, 0, 0, 0, 1.5 * v_c, 0]) == math.inf
+    assert time_to_apoapsis_s([r0, 0, 0, 0, v_c, 0]) == 0.0
