@@ -70,6 +70,8 @@ class OrbitTarget:
         Apogee altitude [m] of an elliptical target.
     insertion : {"coast", "kick_stage", "direct"}
         How the last stage reaches the orbit (see `OrbitGoal`).
+    transfer : {"lightest", "short_coast", "low_transfer"}
+        Starting designs of a coasting insertion (see `OrbitGoal`).
     nodes_per_stage : int
         Pitch-programme nodes per upper-stage burn.
     vertical_rise_s, kick_duration_s : float
@@ -81,6 +83,7 @@ class OrbitTarget:
     ascending: bool = True
     apogee_altitude_m: float | None = None
     insertion: str = "coast"
+    transfer: str = "lightest"
     nodes_per_stage: int = 4
     vertical_rise_s: float = 10.0
     kick_duration_s: float = 10.0
@@ -88,7 +91,7 @@ class OrbitTarget:
     @property
     def goal(self) -> OrbitGoal:
         ap = self.altitude_m if self.apogee_altitude_m is None else self.apogee_altitude_m
-        return OrbitGoal(self.altitude_m, ap, self.inclination_deg, self.ascending, self.insertion)
+        return OrbitGoal(self.altitude_m, ap, self.inclination_deg, self.ascending, self.insertion, self.transfer)
 
 
 @dataclass(frozen=True, slots=True)
@@ -234,7 +237,7 @@ def size_to_target(specs: Sequence[FlightStageSpec], payload_mass_kg: float, tar
         raise FieldError("payload_mass_kg", "must be > 0.", payload_mass_kg)
     limits = limits or PathLimits()
     if limits.max_acceleration_m_s2 is None and acceleration_limit_m_s2 is not None:
-        limits = PathLimits(limits.max_dynamic_pressure_pa, acceleration_limit_m_s2, limits.max_pitch_rate_deg_s)
+        limits = replace(limits, max_acceleration_m_s2=acceleration_limit_m_s2)
     cap = max_gross_mass_kg
     if gross_mass_kg is None:  # the minimum gross mass meets a cap or nothing does: size, then check
         max_gross_mass_kg = None
@@ -319,7 +322,7 @@ def _orbit(specs, payload, target, site, tolerance, limits, dia, delay, gross, g
         msg = (f"orbit not met within {tol:g} m (apsis error {err:,.0f} m) after {d.n_flights} flights: "
                f"{d.message}. Raise thrust-to-weight or Isp, or lower the target.")
         msg += "".join(f" Also {o}." for o in over)
-    warnings += stage_notes(fr, d.vehicle, orbit=True)
+    warnings += list(d.warnings) + stage_notes(fr, d.vehicle, orbit=True)
     return _result(ok, msg, "integrated", d.vehicle, d.site, d.profile, fr, v_t, achieved, err, tol,
                    d.n_iterations, d.n_flights, (), warnings + ([] if ok else [msg]), d.trade_factors)
 

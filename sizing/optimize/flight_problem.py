@@ -323,7 +323,8 @@ def _target(problem: Problem, site: LaunchSite):
     if st.nodes_per_stage is not None:
         kw["nodes_per_stage"] = st.nodes_per_stage
     target = OrbitTarget(altitude_m=problem.orbit_altitude_m, inclination_deg=incl,
-                         apogee_altitude_m=problem.orbit_apogee_m, insertion=problem.insertion or "coast", **kw)
+                         apogee_altitude_m=problem.orbit_apogee_m, insertion=problem.insertion or "coast",
+                         transfer=problem.transfer or "lightest", **kw)
     if problem.orbit_apogee_m is None or problem.orbit_apogee_m == problem.orbit_altitude_m:
         goal = f"{problem.orbit_altitude_m / 1000:,.0f} km circular orbit"
     else:
@@ -347,7 +348,8 @@ def solve_flight_problem(problem: Problem, *, method: str = "auto") -> SizingRes
     specs = flight_specs(problem)
     site = launch_site(problem)
     target, goal = _target(problem, site)
-    limits = PathLimits(problem.max_dynamic_pressure_pa, problem.max_acceleration_m_s2, problem.max_pitch_rate_deg_s)
+    limits = PathLimits(problem.max_dynamic_pressure_pa, problem.max_acceleration_m_s2, problem.max_pitch_rate_deg_s,
+                        problem.min_transfer_perigee_m)
     payload_free = problem.solve_for.value == "payload_mass"
     payload0 = problem.payload_mass_kg if not payload_free else 0.01 * problem.gross_mass_kg
     try:

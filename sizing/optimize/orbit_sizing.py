@@ -41,16 +41,22 @@ from sizing.physics.flight import layout as L
 from sizing.physics.flight.kernel import run_flight
 from sizing.physics.flight.profiles import InsertionBurn
 from sizing.physics.flight.setup import burn_schedule, prepare_flight, replay_steps
-from sizing.physics.gravity import circular_speed_m_s, launch_azimuth_deg, site_rotation_speed_m_s
+from sizing.physics.gravity import (circular_speed_m_s, launch_azimuth_deg, site_rotation_speed_m_s,
+                                    time_to_apoapsis_s)
 from sizing.physics.rocket import stack_masses
 from sizing.physics.loss_estimate import gravity_loss_split
 from sizing.physics.vehicle import FlightStageSpec, LaunchSite, Vehicle, build_vehicle, structural_masses
 from sizing.units import GM_EARTH_M3_S2, R_EARTH_EQ_M
 
-__all__ = ["INSERTION_MODES", "OrbitGoal", "PathLimits", "OrbitDesign", "size_for_orbit"]
+__all__ = ["INSERTION_MODES", "TRANSFER_PLANS", "MIN_TRANSFER_PERIGEE_M", "OrbitGoal", "PathLimits", "OrbitDesign", "size_for_orbit"]
 
+#: Default lowest perigee altitude of a coasting transfer orbit [m]: below about 150-200 km a half-orbit
+#: coast loses noticeable energy to drag, and a small shortfall at cut-off brings an unguided vehicle back
+#: into the atmosphere (common practice, no source).
+MIN_TRANSFER_PERIGEE_M = 180e3
 #: How the vehicle reaches the target orbit.
 INSERTION_MODES = ("coast", "kick_stage", "direct")
+TRANSFER_PLANS = ("lightest", "short_coast", "low_transfer")
 _PITCH_SCALE_DEG = 30.0
 COAST0 = 300.0  # starting insertion coast [s]
 _COAST_SCALE_S = 1000.0
@@ -78,6 +84,11 @@ class OrbitGoal:
         restarts to raise the perigee (circularise); ``"kick_stage"``: the last
         stage is an insertion stage that ignites after the coast;
         ``"direct"``: final burnout is the insertion.
+    transfer : str
+        Which starting designs the optimiser tries for a coasting insertion
+        (`_starts`): ``"lightest"`` both and keeps the lighter, ``"short_coast"``
+        only the burn-most-of-the-way-up one, ``"low_transfer"`` only the
+        low-transfer, long-coast one (the short coast when that is out of reach).
     """
 
     perigee_altitude_m: float
@@ -85,11 +96,15 @@ class OrbitGoal:
     inclination_deg: float | None = None
     ascending: bool = True
     insertion: str = "coast"
+    transfer: str = "lightest"
 
     def __post_init__(self) -> None:
         if self.insertion not in INSERTION_MODES:
             raise FieldError("mission.insertion", f"must be one of {', '.join(map(repr, INSERTION_MODES))}.",
                              self.insertion)
+        if self.transfer not in TRANSFER_PLANS:
+            raise FieldError("mission.transfer", f"must be one of {', '.join(map(repr, TRANSFER_PLANS))}.",
+                             self.transfer)
         if not self.apogee_altitude_m >= self.perigee_altitude_m:
             raise FieldError("mission.orbit_apogee", "must be >= the perigee altitude.", self.apogee_altitude_m)
 
@@ -99,12 +114,20 @@ class PathLimits:
     """Path limits a reviewer sets (None: no limit).
 
     max_dynamic_pressure_pa [Pa], max_acceleration_m_s2 (sensed) [m/s^2],
-    max_pitch_rate_deg_s (between programme nodes) [deg/s].
+    max_pitch_rate_deg_s (between programme nodes) [deg/s],
+    min_transfer_perigee_m: lowest perigee altitude of the orbit coasted in
+    before the insertion burn [m] (None: `MIN_TRANSFER_PERIGEE_M`; 0 turns the
+    limit off).
     """
 
     max_dynamic_pressure_pa: float | None = None
     max_acceleration_m_s2: float | None = None
     max_pitch_rate_deg_s: float | None = None
+    min_transfer_perigee_m: float | None = None
+
+    def transfer_perigee_m(self) -> float:
+        """The transfer-perigee limit in force [m]."""
+        return MIN_TRANSFER_PERIGEE_M if self.min_transfer_perigee_m is None else self.min_transfer_perigee_m
 
 
 @dataclass(frozen=True, slots=True)
@@ -277,7 +300,8 @@ class _Layout:
         return np.array(A), np.array(b)
 
 
-def orbit_residuals_m_s(y: np.ndarray, rp_t: float, ra_t: float) -> tuple[list[float], float]:
+def orbit_residuals_m_s(y: np.ndarray, rp_t: float, ra_t: float, *, at_perigee: bool = False
+                        ) -> tuple[list[float], float]:
     """Speed-like residuals of a final state against a target orbit [m/s], and its inclination [deg].
 
     Circular target (rp = ra = r_t): radial speed v_r, v_theta - sqrt(GM/r_t)
@@ -288,7 +312,9 @@ def orbit_residuals_m_s(y: np.ndarray, rp_t: float, ra_t: float) -> tuple[list[f
     (h - sqrt(GM p_t)) / r (angular momentum), which fix a and e. All are close
     to linear in the burnout velocity, unlike apsis altitudes (about 3.6 km of
     apogee per m/s in low orbit), which keeps the optimiser's linearisation
-    valid over its steps. Formulas: Curtis, Orbital Mechanics for Engineering
+    valid over its steps. `at_perigee`: the state must be the perigee of the
+    target (radial speed, perigee speed by vis-viva, radius), as for the burnout
+    into a transfer orbit. Formulas: Curtis, Orbital Mechanics for Engineering
     Students, 3rd ed., Ch. 2 (vis-viva, angular momentum; from memory).
     """
     x, yy, z, vx, vy, vz = (float(c) for c in y[:6])
@@ -296,14 +322,34 @@ def orbit_residuals_m_s(y: np.ndarray, rp_t: float, ra_t: float) -> tuple[list[f
     hx, hy, hz = yy * vz - z * vy, z * vx - x * vz, x * vy - yy * vx
     hn = math.sqrt(hx * hx + hy * hy + hz * hz)
     inc = math.degrees(math.acos(max(-1.0, min(1.0, hz / hn)))) if hn > 0 else 90.0
-    if abs(ra_t - rp_t) < 1.0:
+    if abs(ra_t - rp_t) < 1.0 or at_perigee:
         v_c = math.sqrt(GM_EARTH_M3_S2 / rp_t)
+        v_p = math.sqrt(GM_EARTH_M3_S2 * (2.0 / rp_t - 2.0 / (rp_t + ra_t)))  # vis-viva at perigee
         v_r = (x * vx + yy * vy + z * vz) / rn
-        return [v_r, hn / rn - v_c, (rn - rp_t) * v_c / (4.0 * rp_t)], inc
+        return [v_r, hn / rn - v_p, (rn - rp_t) * v_c / (4.0 * rp_t)], inc
     a_t = 0.5 * (rp_t + ra_t)
     p_t = 2.0 * rp_t * ra_t / (rp_t + ra_t)
     v_req = math.sqrt(max(0.0, GM_EARTH_M3_S2 * (2.0 / rn - 1.0 / a_t)))
     return [math.sqrt(vx * vx + vy * vy + vz * vz) - v_req, (hn - math.sqrt(GM_EARTH_M3_S2 * p_t)) / rn], inc
+
+
+def perigee_radius_m(y: np.ndarray) -> float:
+    """Perigee radius of the two-body orbit through a state [m]: r_p = p / (1 + e), with p = h^2 / mu and
+    e from the energy and angular momentum (Curtis, Orbital Mechanics for Engineering Students, 3rd ed.,
+    Ch. 2; from memory). A state on an escape path returns its p / (1 + e) all the same."""
+    r = np.asarray(y[0:3], float)
+    v = np.asarray(y[3:6], float)
+    h2 = float(np.sum(np.cross(r, v) ** 2))
+    energy = 0.5 * float(v @ v) - GM_EARTH_M3_S2 / float(np.linalg.norm(r))
+    e = math.sqrt(max(0.0, 1.0 + 2.0 * energy * h2 / GM_EARTH_M3_S2 ** 2))
+    return h2 / GM_EARTH_M3_S2 / (1.0 + e)
+
+
+def lowest_coast_radius_m(y: np.ndarray) -> float:
+    """Lowest radius of a coast from a cut-off state up to the next apoapsis [m]: the cut-off radius when
+    climbing (r . v >= 0), else the perigee radius passed on the way (two-body)."""
+    r = np.asarray(y[0:3], float)
+    return float(np.linalg.norm(r)) if float(r @ np.asarray(y[3:6], float)) >= 0 else perigee_radius_m(y)
 
 
 def _flight(lay: _Layout, z: np.ndarray, rtol: float, steps: np.ndarray | None = None):
@@ -322,7 +368,7 @@ class _Outputs:
     """fly(z) -> [objective, apsis residuals, inclination residual, path margins] for `solve_shooting`."""
 
     def __init__(self, lay: _Layout, limits: PathLimits, *, rtol: float, gross_mass_kg: float | None = None,
-                 max_gross_mass_kg: float | None = None):
+                 max_gross_mass_kg: float | None = None, at_perigee: bool = False):
         self.lay, self.limits, self.rtol = lay, limits, rtol
         self.gross_target = gross_mass_kg if lay.payload_free else None
         self.gross_cap = max_gross_mass_kg
@@ -330,19 +376,22 @@ class _Outputs:
         self.rp_t = R_EARTH_EQ_M + g.perigee_altitude_m
         self.ra_t = R_EARTH_EQ_M + g.apogee_altitude_m
         self.v_t = circular_speed_m_s(g.perigee_altitude_m)
-        self.n_orbit = 3 if abs(self.ra_t - self.rp_t) < 1.0 else 2
+        self.at_perigee = at_perigee
+        self.n_orbit = 3 if (abs(self.ra_t - self.rp_t) < 1.0 or at_perigee) else 2
         self.n_eq = self.n_orbit + (1 if g.inclination_deg is not None else 0) + (self.gross_target is not None)
+        self.rp_min = (R_EARTH_EQ_M + limits.transfer_perigee_m()
+                       if g.insertion != "direct" and limits.transfer_perigee_m() > 0 and not at_perigee else None)
         self.n_ineq = ((limits.max_dynamic_pressure_pa is not None) + (limits.max_acceleration_m_s2 is not None)
-                       + (self.gross_cap is not None))
+                       + (self.gross_cap is not None) + (self.rp_min is not None))
         self.m_ref = lay.gross_mass(np.zeros(lay.size))
 
     def __call__(self, z: np.ndarray, steps: np.ndarray | None = None) -> tuple[np.ndarray, np.ndarray | None]:
         try:
-            _, _, _, (out, y, _, _, _, rec) = _flight(self.lay, z, self.rtol, steps)
+            _, _, _, (out, y, _, burn, _, rec) = _flight(self.lay, z, self.rtol, steps)
         except FieldError:  # a design outside the models' domain (e.g. thrust-to-weight <= 1)
             return np.full(1 + self.n_eq + self.n_ineq, 1e3), None
         token = rec[: int(out[L.OUT_N_STEPREC])].copy() if out[L.OUT_N_STEPREC] > 0 else None
-        orbit, inc = orbit_residuals_m_s(y, self.rp_t, self.ra_t)
+        orbit, inc = orbit_residuals_m_s(y, self.rp_t, self.ra_t, at_perigee=self.at_perigee)
         gross = self.lay.gross_mass(z)
         obj = -self.lay.payload(z) / self.lay.payload_kg if self.lay.payload_free else gross / self.m_ref
         obj += _SMOOTHING * self.lay.roughness(z)
@@ -357,6 +406,11 @@ class _Outputs:
             res.append((self.limits.max_acceleration_m_s2 - out[L.OUT_MAX_ACC]) / self.limits.max_acceleration_m_s2)
         if self.gross_cap is not None:
             res.append((self.gross_cap - gross) / self.gross_cap)
+        if self.rp_min is not None:  # the coast arc, from the state at cut-off (or below the kick stage)
+            n_st = len(self.lay.specs)
+            row = burn[n_st] if self.lay.goal.insertion == "coast" else burn[n_st - 2]
+            low = lowest_coast_radius_m(row[L.B_Y:L.B_Y + 6]) if math.isfinite(row[L.B_T]) else 0.0
+            res.append((low - self.rp_min) / 100e3)  # 1 unit = 100 km; a flight that never cut off: far below
         return np.array(res), (token if steps is None else None)
 
 
@@ -453,15 +507,122 @@ def size_for_orbit(specs, payload_mass_kg: float, goal: OrbitGoal, site: LaunchS
                   nodes=nodes_per_stage, vertical_rise_s=vertical_rise_s, kick_duration_s=kick_duration_s,
                   azimuth_deg=az, plane_inclination_deg=goal.inclination_deg, payload_diameter_m=payload_diameter_m,
                   staging_delay_s=staging_delay_s)
-    lay1 = _Layout(**common, scale_only=True)
-    z1 = _start(lay1, rtol)
+    runs = []
+    for label, start in _starts(common, limits, rtol):
+        lay2, outputs, res, n = _passes(common, start, limits, rtol, max_iterations, gross_mass_kg,
+                                        max_gross_mass_kg)
+        runs.append((label, lay2, outputs, res, n))
+    n_total = sum(r[4] for r in runs)
+    label, lay2, outputs, res, _ = min(runs, key=lambda r: (not r[3].success, _merit(r[1], r[3], gross_mass_kg)))
+    design = _design(lay2, outputs, res, n_total, sum(r[3].n_iterations for r in runs))
+    if len(runs) > 1:
+        design = replace(design, warnings=design.warnings + (_basin_note(runs, label, gross_mass_kg),))
+    if not res.success or gross_mass_kg is not None:
+        return design
+    out_kw = dict(rtol=rtol, max_gross_mass_kg=max_gross_mass_kg)
+    return replace(design, trade_factors=_trade_factors(common, limits, out_kw, res, lay2.gross_mass(res.z)))
+
+
+def _starts(common: dict, limits: PathLimits, rtol: float):
+    """Starting designs of the scale-only pass: (label, layout, z).
+
+    Direct shooting finds a local optimum, and an ascent to a high orbit has
+    two: burn most of the way up and insert after a short coast, or burn into
+    a low transfer orbit whose apoapsis is the target, coast about half an orbit
+    and circularise there (a Hohmann transfer with a finite first burn; Curtis,
+    Orbital Mechanics for Engineering Students, 3rd ed., Sec. 6.2). The second is
+    the lighter one for low-thrust upper stages and high targets. Both are tried
+    when the target perigee is well above the low transfer perigee and the
+    insertion has a coast; the lighter design is kept. The goal's `transfer`
+    plan may ask for one of them only (the short coast stands in when the low
+    transfer is out of reach).
+    """
+    goal = common["goal"]
+    low = None
+    h_p = max(limits.transfer_perigee_m(), 150e3)
+    if (goal.transfer != "short_coast" and goal.insertion != "direct" and goal.perigee_altitude_m >= h_p + 100e3
+            and not (goal.insertion == "kick_stage" and len(common["specs"]) < 3)):  # a kick stage above
+        low = _low_transfer_start(common, h_p, rtol)  # one stage would leave the transfer to the zero-lift turn
+    if low is None or goal.transfer != "low_transfer":
+        lay1 = _Layout(**common, scale_only=True)
+        yield "short-coast", (lay1, _start(lay1, rtol), None)
+    if low is not None:  # the ascent reaches the transfer: feasibility moves the last stage and the insertion
+        lay, z = low
+        yield "low-transfer, long-coast", (lay, z, [len(common["specs"]) - 1, *range(lay.i_ins, lay.size)])
+
+
+def _low_transfer_start(common: dict, h_p: float, rtol: float):
+    """A starting design that burns into the low transfer orbit, coasts to its apoapsis and circularises.
+
+    The ascent steering and size come from a scale-only feasibility solve of
+    direct insertion at the perigee of the transfer orbit (perigee altitude
+    `h_p` [m], the transfer-perigee limit; apoapsis the target's apogee) with
+    the insertion burn's propellant, sized
+    by the rocket equation for the apoapsis burn of a Hohmann transfer
+    (Curtis 3rd ed., Sec. 6.2), riding along as inert mass; the coast is the
+    two-body time from that burnout to apoapsis (Kepler's equation, Curtis
+    3rd ed., Sec. 3.4). Returns (full layout, z) or None when the transfer is
+    out of reach of the starting split.
+    """
+    goal, mp_ref, payload = common["goal"], common["mp_ref"], common["payload_kg"]
+    specs = tuple(replace(s, mass_model=None) for s in common["specs"])  # a start: fixed coefficients do
+    n = len(specs)
+    kick = goal.insertion == "kick_stage"
+    direct = OrbitGoal(h_p, goal.apogee_altitude_m, goal.inclination_deg, goal.ascending,
+                       "direct")
+    sub = dict(common, goal=direct, specs=specs)
+    s_kg = 0.0
+    if kick:  # the transfer is flown by the stages below the kick stage, which rides as payload
+        ms_k = structural_masses(specs, mp_ref, payload)[-1]
+        sub.update(specs=specs[:-1], mp_ref=mp_ref[:-1], payload_kg=payload + float(mp_ref[-1]) + ms_k)
+    else:
+        ra = R_EARTH_EQ_M + goal.apogee_altitude_m
+        a_tr = 0.5 * (R_EARTH_EQ_M + h_p + ra)
+        a_fin = 0.5 * (R_EARTH_EQ_M + goal.perigee_altitude_m + ra)
+        dv2 = math.sqrt(GM_EARTH_M3_S2 * (2.0 / ra - 1.0 / a_fin)) - math.sqrt(GM_EARTH_M3_S2 * (2.0 / ra - 1.0 / a_tr))
+        ms = structural_masses(specs, mp_ref, payload)
+        s_kg = (ms[-1] + payload) * math.expm1(dv2 / specs[-1].exhaust_velocity_vac_m_s)
+        eps = ms[-1] / (ms[-1] + float(mp_ref[-1]))  # the stage's structure grows with the reserved propellant
+        sub["extra_inert_kg"] = (0.0,) * (n - 1) + (s_kg / (1.0 - eps),)
+    lay_d = _Layout(**sub, scale_only=True)
+    out_d = _Outputs(lay_d, PathLimits(), rtol=rtol, at_perigee=True)
+    lo, hi = lay_d.bounds()
+    try:
+        z_d, _ = find_feasible(out_d, _start(lay_d, rtol), lo, hi, n_eq=out_d.n_eq)
+        g = out_d(z_d)[0]
+        _, _, _, (_, y, _, _, _, _) = _flight(lay_d, z_d, rtol)
+    except FieldError:
+        return None
+    if not np.all(np.abs(g[1:1 + out_d.n_eq]) < 5.0):  # m/s: the transfer was not reached
+        return None
+    lay = _Layout(**common, scale_only=False)
+    z = np.zeros(lay.size)
+    z[:n] = z_d[0]
+    if kick:
+        z[n - 1] = 0.0
+    else:
+        mp_last = float(mp_ref[-1]) * math.exp(z_d[0]) + s_kg
+        z[n - 1] = math.log(mp_last / float(mp_ref[-1]))
+        z[lay.i_ins + 2] = min(0.9, max(0.002, s_kg / mp_last)) / _SHARE_SCALE
+    z[lay.i_kick:lay.i_pitch + lay.n_pitch] = z_d[lay_d.i_kick:lay_d.i_pitch + lay_d.n_pitch]
+    z[lay.i_ins] = min(8.0, time_to_apoapsis_s(y) / _COAST_SCALE_S)
+    return lay, z
+
+
+def _passes(common: dict, start, limits: PathLimits, rtol: float, max_iterations: int,
+            gross_mass_kg: float | None, max_gross_mass_kg: float | None):
+    """Scale-only feasibility from one start, then every stage free (after the fixed-coefficient
+    optimum when a stage carries a mass model). Returns (layout, outputs, result, flights)."""
+    specs = common["specs"]
+    lay1, z1, free = start
     out1 = _Outputs(lay1, limits, rtol=rtol)
     lo1, hi1 = lay1.bounds()
-    z1, n_fl = find_feasible(out1, z1, lo1, hi1, n_eq=out1.n_eq)
-    z2 = np.concatenate([np.full(len(specs), z1[0]), z1[1:]])
+    z1, n_fl = find_feasible(out1, z1, lo1, hi1, n_eq=out1.n_eq, free=free)
+    z2 = np.concatenate([np.full(len(specs), z1[0]), z1[1:]]) if lay1.scale_only else z1
+    common = dict(common)
     if gross_mass_kg is not None:  # scale the feasible vehicle and its payload to the gross mass
         k = gross_mass_kg / lay1.gross_mass(z1)
-        common.update(payload_kg=common["payload_kg"] * k, mp_ref=mp0 * k)
+        common.update(payload_kg=common["payload_kg"] * k, mp_ref=common["mp_ref"] * k)
         z2 = np.concatenate([z2, [0.0]])
 
     def integrated(z_start, **kw):
@@ -474,19 +635,36 @@ def size_for_orbit(specs, payload_mass_kg: float, goal: OrbitGoal, site: LaunchS
         return lay, out, solve_shooting(out, z_start, lo, hi, n_eq=out.n_eq, n_ineq=out.n_ineq, linear_ineq=lin,
                                         eq_tol=0.05, max_iterations=max_iterations, step=1e-6)
 
-    n_extra = 0
     if any(s.mass_model is not None for s in specs):
         # continuation: the optimum with the model's coefficients held fixed, then with the model itself
         _lay, _out, res0 = integrated(z2, specs=tuple(replace(s, mass_model=None) for s in specs))
-        n_extra = res0.n_flights
+        n_fl += res0.n_flights
         if res0.success:
             z2 = res0.z
     lay2, outputs, res = integrated(z2)
-    design = _design(lay2, outputs, res, n_fl + n_extra + res.n_flights, res.n_iterations)
-    if not res.success or gross_mass_kg is not None:
-        return design
-    out_kw = dict(rtol=rtol, max_gross_mass_kg=max_gross_mass_kg)
-    return replace(design, trade_factors=_trade_factors(common, limits, out_kw, res, lay2.gross_mass(res.z)))
+    return lay2, outputs, res, n_fl + res.n_flights
+
+
+def _merit(lay: _Layout, res: ShootingResult, gross_mass_kg: float | None) -> float:
+    """What the optimiser minimised, in kilograms: gross mass, or minus the payload for a fixed gross mass."""
+    return -lay.payload(res.z) if gross_mass_kg is not None else lay.gross_mass(res.z)
+
+
+def _basin_note(runs, kept: str, gross_mass_kg: float | None) -> str:
+    """Review note: the starting designs tried and what each gave."""
+    parts = []
+    for label, lay, _out, res, _n in runs:
+        if not res.success:
+            parts.append(f"{label}: no feasible design")
+        elif gross_mass_kg is not None:
+            parts.append(f"{label}: payload {lay.payload(res.z):,.1f} kg")
+        else:
+            parts.append(f"{label}: gross {lay.gross_mass(res.z):,.0f} kg")
+    design = next(r for r in runs if r[0] == kept)
+    coast = design[1].insertion(design[3].z, design[1].vehicle(design[3].z))
+    coast_text = f"; its insertion coast is {coast.coast_s:,.0f} s" if coast is not None else ""
+    return (f"steering: optimised from two starting designs ({'; '.join(parts)}); kept: the one from the "
+            f"{kept} start{coast_text} (direct shooting finds a local optimum from each start).")
 
 
 def _trade_factors(common: dict, limits: PathLimits, out_kw: dict, res: ShootingResult, gross: float) -> dict:

@@ -108,16 +108,18 @@ class _Evaluator:
     def g(self, z: np.ndarray) -> np.ndarray:
         return self._base(z)[0]
 
-    def jac(self, z: np.ndarray, lower: np.ndarray, upper: np.ndarray) -> np.ndarray:
+    def jac(self, z: np.ndarray, lower: np.ndarray, upper: np.ndarray, cols=None) -> np.ndarray:
+        """Forward-difference Jacobian of every output; with `cols`, of those variables only (others 0)."""
         z = np.array(z, float)
-        key = z.tobytes()
+        cols = range(z.size) if cols is None else cols
+        key = z.tobytes() + np.asarray(cols, np.int64).tobytes()
         if key not in self._j:
             g_base, token = self._base(z)
             g0 = g_base if token is None else np.asarray(self.fly(z, token)[0], float)  # replayed base
             if token is not None:
                 self.n_flights += 1
-            J = np.empty((g0.size, z.size))
-            for i in range(z.size):
+            J = np.zeros((g0.size, z.size))
+            for i in cols:
                 h = self.step if z[i] + self.step <= upper[i] else -self.step
                 zi = z.copy()
                 zi[i] += h
@@ -132,22 +134,31 @@ class _Stalled(Exception):
 
 
 def find_feasible(fly: Callable, z0, lower, upper, *, n_eq: int, max_evaluations: int = 60,
-                  step: float = FD_STEP) -> tuple[np.ndarray, int]:
+                  step: float = FD_STEP, free=None) -> tuple[np.ndarray, int]:
     """A point where the equality outputs vanish: bounded least squares (trust-region reflective,
     scipy.optimize.least_squares) on outputs[1:1+n_eq], with the replayed-step Jacobian.
 
+    `free` (indices into z, optional) restricts the search to those variables; the others stay at z0.
     Returns (z, flights flown).
     """
     from scipy.optimize import least_squares
 
     lower = np.asarray(lower, float)
     upper = np.asarray(upper, float)
+    z_full = np.clip(np.asarray(z0, float), lower, upper)
+    idx = np.arange(z_full.size) if free is None else np.asarray(free, int)
     ev = _Evaluator(fly, step)
     eq = slice(1, 1 + n_eq)
-    r = least_squares(lambda z: ev.g(z)[eq], np.clip(np.asarray(z0, float), lower, upper),
-                      jac=lambda z: ev.jac(z, lower, upper)[eq], bounds=(lower, upper), method="trf",
-                      xtol=1e-12, ftol=1e-12, gtol=1e-14, max_nfev=max_evaluations)
-    return np.clip(r.x, lower, upper), ev.n_flights
+
+    def full(x: np.ndarray) -> np.ndarray:
+        z = z_full.copy()
+        z[idx] = x
+        return z
+
+    r = least_squares(lambda x: ev.g(full(x))[eq], z_full[idx],
+                      jac=lambda x: ev.jac(full(x), lower, upper, idx)[eq][:, idx], bounds=(lower[idx], upper[idx]),
+                      method="trf", xtol=1e-12, ftol=1e-12, gtol=1e-14, max_nfev=max_evaluations)
+    return np.clip(full(r.x), lower, upper), ev.n_flights
 
 
 def solve_shooting(fly: Callable, z0, lower, upper, *, n_eq: int, n_ineq: int = 0,

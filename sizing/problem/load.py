@@ -222,9 +222,12 @@ def _flight_fields(col: _Collector, m, st, stage_names: set[str]) -> dict[str, A
     out: dict[str, Any] = {
         "orbit_apogee_m": col.quantity("mission.orbit_apogee", m.orbit_apogee, "length", lo=0.0),
         "insertion": m.insertion,
+        "transfer": m.transfer,
         "max_dynamic_pressure_pa": col.quantity("mission.max_dynamic_pressure", m.max_dynamic_pressure,
                                                 "pressure", lo=0.0),
         "max_pitch_rate_deg_s": col.quantity("mission.max_pitch_rate", m.max_pitch_rate, "angular_rate", lo=0.0),
+        "min_transfer_perigee_m": col.quantity("mission.min_transfer_perigee", m.min_transfer_perigee, "length",
+                                               lo=0.0, lo_open=False),
     }
     if m.orbit_apogee is not None and m.orbit_altitude is None:
         col.fault("mission.orbit_apogee: needs mission.orbit_altitude (the perigee altitude) beside it.")

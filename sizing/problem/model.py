@@ -130,6 +130,12 @@ class Problem:
         ``"coast"``, ``"kick_stage"`` or ``"direct"`` (orbit targets).
     max_dynamic_pressure_pa, max_pitch_rate_deg_s, max_acceleration_m_s2 : float or None
         Path limits of flight targets [Pa, deg/s, m/s^2].
+    min_transfer_perigee_m : float or None
+        Lowest perigee altitude of the transfer orbit an orbit ascent coasts in [m]
+        (None: `sizing.optimize.orbit_sizing.MIN_TRANSFER_PERIGEE_M`).
+    transfer : str or None
+        Starting designs of a coasting orbit insertion: ``"lightest"`` (None),
+        ``"short_coast"`` or ``"low_transfer"`` (`sizing.optimize.orbit_sizing.OrbitGoal`).
     steering : SteeringDef
     raw : Mapping
         The structure the problem was validated from (as read from TOML); the
@@ -153,6 +159,8 @@ class Problem:
     insertion: str | None = None
     max_dynamic_pressure_pa: float | None = None
     max_pitch_rate_deg_s: float | None = None
+    min_transfer_perigee_m: float | None = None
+    transfer: str | None = None
     steering: SteeringDef = field(default_factory=SteeringDef)
     g0_m_s2: float = 9.80665
     method: str = "auto"

@@ -41,6 +41,8 @@ class MissionTable(_Strict):
     insertion: Literal["coast", "kick_stage", "direct"] | None = None
     max_dynamic_pressure: Quantity | None = None  # Pa, path limit
     max_pitch_rate: Quantity | None = None  # deg/s, path limit of the steering programme
+    min_transfer_perigee: Quantity | None = None  # m, lowest perigee of a coasting transfer orbit
+    transfer: Literal["lightest", "short_coast", "low_transfer"] | None = None  # starting designs tried
     notes: str | None = None
 
 

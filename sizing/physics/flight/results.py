@@ -298,6 +298,10 @@ class FlightResult:
         Residuals of the end conditions when an optimiser set the programme; empty otherwise.
     warnings : tuple of str
         Design-review flags, each naming its rule and source.
+    coast_start_state : numpy.ndarray or None
+        Inertial state (x, y, z [m], vx, vy, vz [m/s]) where the insertion coast
+        begins (the last stage's cut-off, or burnout below a kick stage); None
+        without an insertion burn or when the flight ended before it.
     n_steps, n_rejected, n_rhs : int
         Accepted and rejected integration steps, right-hand-side evaluations.
     history : FlightHistory
@@ -338,6 +342,7 @@ class FlightResult:
     final_state: np.ndarray = field(repr=False, default_factory=lambda: np.zeros(N_STATE))
     end_east_m: float = math.nan
     end_north_m: float = math.nan
+    coast_start_state: np.ndarray | None = field(repr=False, default=None)
 
     @property
     def total_loss_m_s(self) -> float:
@@ -415,6 +420,17 @@ def _burnouts(frame: FlightFrame, names, burn: np.ndarray) -> tuple[StageBurnout
     return tuple(out)
 
 
+def _coast_start(ascent: AscentProfile | None, burn: np.ndarray, n_st: int) -> np.ndarray | None:
+    """State where the insertion coast begins: the cut-off row (restart) or the burnout below the kick stage."""
+    ins = ascent.insertion if ascent is not None else None
+    if ins is None:
+        return None
+    row = n_st if ins.propellant_kg is not None else n_st - 2
+    if row < 0 or row >= burn.shape[0] or not math.isfinite(burn[row, B_T]):
+        return None
+    return np.array(burn[row, B_Y:B_Y + 6], float)
+
+
 def _altitude(frame: FlightFrame, y: np.ndarray) -> float:
     return float(np.linalg.norm(y[0:3]) - frame.radius_m) if frame.round_earth else float(y[2])
 
@@ -457,5 +473,5 @@ def assemble(*, frame: FlightFrame, profile: str, stage_names, kernel_out, site_
         budget_residual_m_s=ideal - (v_in - bonus + sum(losses.values())), ascent_profile=ascent,
         targeting_residual=(), warnings=tuple(warnings), n_steps=int(o[OUT_N_STEPS]),
         n_rejected=int(o[OUT_N_REJECTED]), n_rhs=int(o[OUT_N_RHS]), history=history, final_state=y,
-        end_east_m=end_e, end_north_m=end_n,
+        end_east_m=end_e, end_north_m=end_n, coast_start_state=_coast_start(ascent, burn, len(stage_names)),
     )
