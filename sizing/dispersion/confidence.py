@@ -43,6 +43,11 @@ __all__ = ["solve_with_dispersions", "MAX_ROUNDS", "MSG_CONFIDENCE_TARGET", "MSG
 MAX_ROUNDS = 6
 MSG_CONFIDENCE_TARGET = "sizing to a probability needs an apogee or orbit target"
 MSG_CONFIDENCE_PAYLOAD = "sizing to a probability for an orbit sizes for minimum gross mass (give payload_mass)"
+#: Why an orbit sized to a probability starts from the short coast only (unless mission.transfer says otherwise).
+SHORT_COAST_WHY = ("sized from the short-coast start (mission.transfer = \"short_coast\"): the fixed steering "
+                   "programme of a low-transfer, long-coast design does not survive dispersions without guidance "
+                   "(a sample under 100 m/s short of the nominal ends its ascent below circular speed and coasts down "
+                   "instead of up to the target); set mission.transfer to choose otherwise")
 
 
 def _deficits(case, n: int) -> tuple[np.ndarray, dict[str, Any]]:
@@ -55,13 +60,18 @@ def _deficits(case, n: int) -> tuple[np.ndarray, dict[str, Any]]:
 
 
 def _with(problem, *, apogee_m: float | None = None, payload_kg: float | None = None):
+    """The problem re-read with a sizing apogee or payload; an orbit without a `mission.transfer`
+    plan is sized from the short-coast start only (`SHORT_COAST_WHY`)."""
     from ..problem.load import problem_from_dict
 
     raw = copy.deepcopy(dict(problem.raw))
+    raw["mission"] = dict(raw["mission"])
     if apogee_m is not None:
         raw["mission"]["apogee"] = float(apogee_m)
     if payload_kg is not None:
         raw["mission"]["payload_mass"] = float(payload_kg)
+    if problem.orbit_altitude_m is not None and problem.transfer is None:
+        raw["mission"]["transfer"] = "short_coast"
     return problem_from_dict(raw, source=problem.source)
 
 
@@ -160,6 +170,8 @@ def solve_with_dispersions(problem, *, method: str | None = None) -> SizingResul
         info.update(reserve_propellant_kg=target)
         what = (f"sized with a propellant reserve of {target:,.4g} kg carried above stage "
                 f"{case.vehicle.stages[-1].name!r} (the payload figure includes it)")
+    if problem.orbit_altitude_m is not None and problem.transfer is None:
+        what += "; " + SHORT_COAST_WHY
     verdict = "meets" if info["demonstrated"] else "does NOT demonstrate"
     msg = (f"{result.message}; {what}: {verdict} probability {spec.probability:g} at {spec.confidence:.0%} "
            f"confidence ({met:,} of {n:,} dispersed flights meet it, lower bound {prob['lower']:.4f}) after "

@@ -136,24 +136,71 @@ def flight_figures(case: DispersionCase, var: Variant, fr) -> tuple[str, str, di
 def fly_variants(case: DispersionCase, variants: Sequence[Variant]) -> list:
     """Flight results of the variants (one compiled call; one by one if a vehicle cannot lift off).
 
-    An entry is a FlightResult or the FieldError that refused its vehicle.
+    An entry is a FlightResult or the FieldError that refused its vehicle. An
+    ascent with an insertion coast is flown twice: the second time each sample
+    ignites its insertion burn at its own apoapsis (`_apsis_timed`).
     """
     if not variants:
         return []
+    profiles = [case.ascent] * len(variants) if case.ascent is not None else None
+    flown = _fly_batch(case, variants, profiles)
+    if case.ascent is None or case.ascent.insertion is None:
+        return flown
+    return _apsis_timed(case, variants, flown)
+
+
+def _fly_batch(case: DispersionCase, variants: Sequence[Variant], profiles) -> list:
     opts = dict(case.fly_options)
-    kw = dict(profiles=[case.ascent] * len(variants) if case.ascent is not None else None,
-              winds=[v.wind for v in variants], **opts)
     try:
-        return list(fly_many([v.vehicle for v in variants], [v.site for v in variants], **kw))
+        return list(fly_many([v.vehicle for v in variants], [v.site for v in variants], profiles=profiles,
+                             winds=[v.wind for v in variants], **opts))
     except FieldError:
         pass
     out: list = []
-    for v in variants:
+    for k, v in enumerate(variants):
         try:
-            out.extend(fly_many([v.vehicle], [v.site], profiles=[case.ascent] if case.ascent else None,
+            out.extend(fly_many([v.vehicle], [v.site], profiles=[profiles[k]] if profiles else None,
                                 winds=[v.wind], **opts))
         except FieldError as exc:
             out.append(exc)
+    return out
+
+
+def _apsis_timed(case: DispersionCase, variants: Sequence[Variant], flown: list) -> list:
+    """Re-fly each sample with its insertion coast moved by its own change of time to apoapsis.
+
+    The design's coast ends `lead` seconds from the apoapsis of its nominal
+    transfer orbit (the optimiser centres the finite burn); a dispersed sample
+    keeps that lead from the apoapsis of its own transfer orbit (two-body time
+    from its coast-start state, `sizing.physics.gravity.time_to_apoapsis_s`).
+    This is the one piece of guidance the fixed programme gets: an apsis-timed
+    restart, as a vehicle with navigation flies it (common practice, no source).
+    Without it a half-orbit coast turns a 1 % change of the transfer period into
+    an ignition half a minute off the apsis.
+    """
+    from dataclasses import replace
+
+    from ..physics.gravity import time_to_apoapsis_s
+
+    ins = case.ascent.insertion
+    nominal = _fly_batch(case, [Variant(case.vehicle, case.site, None, None, case.payload_mass_kg)],
+                         [case.ascent])[0]
+    if isinstance(nominal, FieldError) or nominal.coast_start_state is None:
+        return flown
+    lead = ins.coast_s - time_to_apoapsis_s(nominal.coast_start_state)
+    redo, profiles = [], []
+    for k, fr in enumerate(flown):
+        if isinstance(fr, FieldError) or fr.coast_start_state is None:
+            continue
+        t_apo = time_to_apoapsis_s(fr.coast_start_state)
+        if not math.isfinite(t_apo):
+            continue
+        redo.append(k)
+        profiles.append(replace(case.ascent, insertion=replace(ins, coast_s=max(0.0, t_apo + lead))))
+    again = _fly_batch(case, [variants[k] for k in redo], profiles) if redo else []
+    out = list(flown)
+    for k, fr in zip(redo, again):
+        out[k] = fr
     return out
 
 

@@ -90,8 +90,10 @@ def summarise(samples: dict[str, Any], *, probability: float | None = None, conf
         out["requirement_demonstrated"] = None if p_req is None else bool(prob["lower"] >= p_req)
         loss = deficit - d_nom
         rss = samples.get("rss") or {}
-        sig = S.rss_sigma([0.0 if not math.isfinite(g) else g for g in rss.get("one_sigma_effects", [])],
-                          meta["correlation"]) if rss else None
+        # an effect stored as None or inf: that one-sigma flight failed, and the RSS reserve is unbounded
+        effects = [math.inf if g is None else float(g) for g in rss.get("one_sigma_effects", [])]
+        sig = (S.rss_sigma(effects, meta["correlation"]) if all(map(math.isfinite, effects)) else math.inf) \
+            if rss else None
         probs = sorted(set(S.REPORT_PROBABILITIES) | ({p_req} if p_req else set()))
         rows = S.reserve_table(loss, c, probs, sig)
         bias = rss.get("bias", 0.0) if rss else 0.0

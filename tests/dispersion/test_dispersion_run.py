@@ -147,3 +147,18 @@ def test_dispersion_statistics_are_consistent_with_the_samples(serial_run):
     loss = sorted(-m + st["performance"]["nominal_margin"] for m in samples["metrics"]["target_margin"])
     assert r["reserve_order_statistic"] == loss[r["rank"] - 1]
     assert st["caution"].startswith("Preliminary estimates only")
+
+
+def test_a_failed_one_sigma_flight_makes_the_rss_reserve_unbounded_not_a_crash(serial_run):
+    """A one-sigma flight that fails stores its effect as null: the root-sum-square reserve is
+    then unbounded (a failure is no zero effect), and the statistics still come out."""
+    from sizing.dispersion.summary import summarise
+
+    folder, _ = serial_run
+    samples = load_samples(folder)
+    finite = summarise(samples, probability=0.9, confidence=0.9)
+    assert all(r["reserve_rss"] is not None and r["reserve_rss"] < float("inf") for r in finite["reserves"])
+    samples["rss"] = dict(samples["rss"], one_sigma_effects=[None, *samples["rss"]["one_sigma_effects"][1:]])
+    broken = summarise(samples, probability=0.9, confidence=0.9)
+    assert broken["probability_of_meeting"] == finite["probability_of_meeting"]
+    assert all(r["reserve_rss"] == float("inf") for r in broken["reserves"])
