@@ -625,24 +625,43 @@ def _passes(common: dict, start, limits: PathLimits, rtol: float, max_iterations
         common.update(payload_kg=common["payload_kg"] * k, mp_ref=common["mp_ref"] * k)
         z2 = np.concatenate([z2, [0.0]])
 
-    def integrated(z_start, **kw):
+    def integrated(z_start, lim=limits, **kw):
         lay = _Layout(**{**common, **kw}, scale_only=False, payload_free=gross_mass_kg is not None)
-        out = _Outputs(lay, limits, rtol=rtol, gross_mass_kg=gross_mass_kg, max_gross_mass_kg=max_gross_mass_kg)
+        out = _Outputs(lay, lim, rtol=rtol, gross_mass_kg=gross_mass_kg, max_gross_mass_kg=max_gross_mass_kg)
         lo, hi = lay.bounds()
         lin = None
-        if limits.max_pitch_rate_deg_s is not None:
-            lin = lay.pitch_rate_rows(z_start, limits.max_pitch_rate_deg_s)
+        if lim.max_pitch_rate_deg_s is not None:
+            lin = lay.pitch_rate_rows(z_start, lim.max_pitch_rate_deg_s)
         return lay, out, solve_shooting(out, z_start, lo, hi, n_eq=out.n_eq, n_ineq=out.n_ineq, linear_ineq=lin,
                                         eq_tol=0.05, max_iterations=max_iterations, step=1e-6)
 
+    def limited(z_start, **kw):
+        """The integrated optimum; from the short-coast start the transfer-perigee limit joins in a second
+        solve from the unlimited optimum when that optimum breaks it (a limit active far from the start
+        drove SLSQP into a far heavier basin). Returns (layout, outputs, result, flights)."""
+        off = replace(limits, min_transfer_perigee_m=0.0)
+        if free is not None or limits.transfer_perigee_m() <= 0 or common["goal"].insertion == "direct":
+            lay, out, res = integrated(z_start, **kw)
+            return lay, out, res, res.n_flights
+        lay, out, res = integrated(z_start, off, **kw)
+        if not res.success:
+            lay, out, res2 = integrated(z_start, **kw)
+            return lay, out, res2, res.n_flights + res2.n_flights
+        check = _Outputs(lay, limits, rtol=rtol, gross_mass_kg=gross_mass_kg, max_gross_mass_kg=max_gross_mass_kg)
+        g = check(res.z)[0]
+        if g[-1] >= -1e-4:  # the perigee margin is the last output; inactive: its multiplier is 0
+            return lay, check, replace(res, outputs=g), res.n_flights + 1
+        lay, out, res2 = integrated(res.z, **kw)
+        return lay, out, res2, res.n_flights + 1 + res2.n_flights
+
     if any(s.mass_model is not None for s in specs):
         # continuation: the optimum with the model's coefficients held fixed, then with the model itself
-        _lay, _out, res0 = integrated(z2, specs=tuple(replace(s, mass_model=None) for s in specs))
-        n_fl += res0.n_flights
+        _lay, _out, res0, n0 = limited(z2, specs=tuple(replace(s, mass_model=None) for s in specs))
+        n_fl += n0
         if res0.success:
             z2 = res0.z
-    lay2, outputs, res = integrated(z2)
-    return lay2, outputs, res, n_fl + res.n_flights
+    lay2, outputs, res, n2 = limited(z2)
+    return lay2, outputs, res, n_fl + n2
 
 
 def _merit(lay: _Layout, res: ShootingResult, gross_mass_kg: float | None) -> float:
