@@ -109,43 +109,51 @@ class _Stack:
 
 
 def _lagrange_start(stack: _Stack, target_m: float, tol_m: float, max_gross_to_payload: float):
-    """Ideal delta-v whose Lagrange split flies to the target apogee: (masses, delta-v, flights)."""
+    """Ideal delta-v whose Lagrange split flies to the target apogee: (masses, delta-v, flights).
+
+    The root is sought on sqrt(apogee above the site), nearly linear in the
+    delta-v (h = v_b^2 / 2g for a burnout speed v_b that grows with it), so a
+    bracket found by one extrapolation and Brent's method (scipy.optimize.brentq)
+    need few flights; each delta-v is flown once (memoised).
+    """
     from scipy.optimize import brentq
 
     c = [s.exhaust_velocity_vac_m_s for s in stack.specs]
     eps = [s.structural_coefficient for s in stack.specs]
     dv_cap = optimal_mass_ratios_for_growth(c, eps, math.log(max_gross_to_payload)).delta_v_m_s
-    v_t = math.sqrt(2.0 * G0_M_S2 * (target_m - stack.site.altitude_m))
-    flights = [0]
+    h_t = target_m - stack.site.altitude_m
+    v_t = math.sqrt(2.0 * G0_M_S2 * h_t)
+    seen: dict[float, float] = {}
     best = {"apogee": -math.inf, "dv": math.nan}
 
     def err(dv: float) -> float:
-        flights[0] += 1
-        try:
-            ap = stack.fly(stack.lagrange_masses(dv))[0]
-        except FieldError:  # cannot lift off at this size: short of the target
-            return -target_m
-        if ap > best["apogee"]:
-            best.update(apogee=ap, dv=dv)
-        return ap - target_m
+        if dv not in seen:
+            try:
+                ap = stack.fly(stack.lagrange_masses(dv))[0]
+            except FieldError:  # cannot lift off at this size: short of the target
+                ap = stack.site.altitude_m
+            if ap > best["apogee"]:
+                best.update(apogee=ap, dv=dv)
+            seen[dv] = math.sqrt(max(ap - stack.site.altitude_m, 0.0)) - math.sqrt(h_t)
+        return seen[dv]
 
-    lo, hi = None, min(1.3 * v_t, 0.999 * dv_cap)
-    while True:
-        e = err(hi)
-        if e >= 0:
-            break
+    top = 0.999 * dv_cap
+    lo, hi = None, min(1.3 * v_t, top)
+    while (e := err(hi)) < 0:
         lo = hi
-        if hi >= 0.999 * dv_cap * (1 - 1e-9):
+        if hi >= top * (1 - 1e-9):
             raise InfeasibleProblemError(
                 f"mission.apogee: apogee {target_m:g} m {MSG_TARGET_UNREACHABLE}; best apogee "
                 f"{best['apogee']:.1f} m at ideal delta-v {best['dv']:.1f} m/s (searched up to gross/payload = "
                 f"{max_gross_to_payload:g}). Raise Isp, lower structural coefficients, add a stage or lower the "
                 "target.", {"ideal_delta_v_m_s": best["dv"], "apogee_m": best["apogee"]})
-        hi = min(hi * 1.25, 0.999 * dv_cap)
+        # the no-loss slope d sqrt(h) / d dv = 1/sqrt(2 g) and 20 % more (a secant on these convex
+        # curves overshoots into exponentially heavy stacks)
+        hi = min(max(hi + 1.2 * (-e) * math.sqrt(2.0 * G0_M_S2), 1.05 * hi), top)
     if lo is None:
         lo = 0.05 * v_t
     dv = brentq(err, lo, hi, xtol=1.0, rtol=1e-5, maxiter=40) if err(lo) < 0 else lo
-    return stack.lagrange_masses(dv), dv, flights[0]
+    return stack.lagrange_masses(dv), dv, len(seen)
 
 
 def _integrated(stack: _Stack, mp0, target_m: float, tol_m: float, limits, *, gross_mass_kg=None,
