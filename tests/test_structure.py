@@ -76,3 +76,15 @@ def test_ideal_solve_does_not_load_the_compiled_flight_layer():
             "assert r.success; print('numba' in sys.modules)")
     out = subprocess.run([sys.executable, "-c", code], cwd=root, capture_output=True, text=True, check=True)
     assert out.stdout.strip() == "False"
+
+
+def test_no_function_is_longer_than_150_lines():
+    """Project rule (DEVELOPERS.md): a function over ~150 lines is a defect; split it."""
+    long = []
+    for path in sorted(PKG.rglob("*.py")):
+        for node in ast.walk(ast.parse(path.read_text())):
+            if isinstance(node, (ast.FunctionDef, ast.AsyncFunctionDef)):
+                n = node.end_lineno - node.lineno + 1
+                if n > 150:
+                    long.append(f"{path.relative_to(PKG)}:{node.lineno} {node.name} ({n} lines)")
+    assert not long, long
