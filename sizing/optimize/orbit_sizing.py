@@ -59,6 +59,9 @@ INSERTION_MODES = ("coast", "kick_stage", "direct")
 TRANSFER_PLANS = ("lightest", "short_coast", "low_transfer")
 _PITCH_SCALE_DEG = 30.0
 COAST0 = 300.0  # starting insertion coast [s]
+#: Longest coast of the "short_coast" plan, as a fraction of the target orbit's period (this tool's
+#: definition of short: an eighth of an orbit, 710 s at 500 km).
+SHORT_COAST_FRACTION = 0.125
 _COAST_SCALE_S = 1000.0
 _SHARE_SCALE = 0.05  # insertion share of the last stage's propellant per unit
 #: Weight of the pitch-programme smoothing term (Tikhonov regularisation of the nodes): a 10 deg wiggle
@@ -107,6 +110,13 @@ class OrbitGoal:
                              self.transfer)
         if not self.apogee_altitude_m >= self.perigee_altitude_m:
             raise FieldError("mission.orbit_apogee", "must be >= the perigee altitude.", self.apogee_altitude_m)
+
+
+def orbit_period_s(goal: OrbitGoal) -> float:
+    """Period of the target orbit [s]: 2 pi sqrt(a^3 / GM) (Kepler's third law; Curtis, Orbital Mechanics
+    for Engineering Students, 3rd ed., Eq. 2.83)."""
+    a = R_EARTH_EQ_M + 0.5 * (goal.perigee_altitude_m + goal.apogee_altitude_m)
+    return 2.0 * math.pi * math.sqrt(a ** 3 / GM_EARTH_M3_S2)
 
 
 @dataclass(frozen=True, slots=True)
@@ -208,6 +218,8 @@ class _Layout:
             lo[-1], hi[-1] = math.log(1e-3), math.log(1e3)
         if self.i_ins >= 0:
             lo[self.i_ins], hi[self.i_ins] = 0.0, 8.0  # coast up to 8000 s
+            if self.goal.transfer == "short_coast":  # what the plan asks for: no half-orbit coast
+                hi[self.i_ins] = SHORT_COAST_FRACTION * orbit_period_s(self.goal) / _COAST_SCALE_S
             lo[self.i_ins + 1], hi[self.i_ins + 1] = -45.0 / _PITCH_SCALE_DEG, 45.0 / _PITCH_SCALE_DEG
             if self.goal.insertion == "coast":
                 lo[self.i_ins + 2], hi[self.i_ins + 2] = 0.002 / _SHARE_SCALE, 0.9 / _SHARE_SCALE

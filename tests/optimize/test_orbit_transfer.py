@@ -59,6 +59,9 @@ def test_high_orbit_is_lighter_through_a_low_transfer_that_respects_the_perigee_
     assert lowest >= 180e3 - 1e3
     a = R_EARTH_EQ_M + 0.5 * (lowest + 900e3)
     assert coast == pytest.approx(math.pi * math.sqrt(a ** 3 / GM_EARTH_M3_S2), rel=0.15)
+    # the short-coast plan keeps to at most an eighth of the target orbit's period (this tool's definition)
+    period = 2.0 * math.pi * math.sqrt((R_EARTH_EQ_M + 900e3) ** 3 / GM_EARTH_M3_S2)  # Curtis Eq. 2.83
+    assert short.flight["steering"]["insertion"]["coast_s"] <= 0.125 * period + 1e-6
     for r in (both, short):
         f = r.flight
         assert abs(f["perigee_altitude_m"] - 900e3) <= f["target_tolerance"] + 1.0
