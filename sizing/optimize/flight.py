@@ -378,9 +378,12 @@ def stage_notes(fr: FlightResult, vehicle: Vehicle, *, orbit: bool) -> list[str]
         when = "at ignition (vacuum thrust)"
         if i == 0 and st.isp_sl_s:  # the first stage's thrust-to-weight is stated at lift-off, sea-level thrust
             tw, when = tw * st.isp_sl_s / st.isp_vac_s, "at lift-off (sea-level thrust)"
-        notes.append(f"gravity loss {grav:,.0f} m/s is above {HIGH_GRAVITY_LOSS_M_S:,.0f} m/s, the upper end of "
-                     f"the 1.0-1.5 km/s typical of launchers (Griffin & French, Space Vehicle Design, from memory): "
-                     f"most of it, {b.losses_m_s['gravity']:,.0f} m/s, is lost while stage {st.name!r} burns "
+        coast = fr.coast_gravity_loss_m_s
+        on_coast = (f" ({coast:,.0f} m/s of it on the insertion coast, speed traded for height)"
+                    if coast >= 0.5 else "")
+        notes.append(f"gravity loss {grav:,.0f} m/s{on_coast} is above {HIGH_GRAVITY_LOSS_M_S:,.0f} m/s, the upper "
+                     f"end of the 1.0-1.5 km/s typical of launchers (Griffin & French, Space Vehicle Design, from "
+                     f"memory): most of it, {b.losses_m_s['gravity']:,.0f} m/s, is lost while stage {st.name!r} burns "
                      f"{st.burn_time_s:,.0f} s at thrust-to-weight {tw:.2f} {when}; more thrust on that stage "
                      "shortens its burn.")
     drag, ideal = fr.losses_m_s["drag"], fr.ideal_delta_v_m_s

@@ -221,6 +221,10 @@ def _fly(vehicle: Vehicle, problem: Problem, *, record_history: bool = True) -> 
 
 
 #: Review note when the flight ends on the ground before every stage has burnt out.
+#: Budget terms of a flight with an insertion coast: its gravity loss split into the powered part and the
+#: part accrued on the coast (without a coast the term is "gravity loss").
+POWERED_GRAVITY_KEY = "gravity loss (powered flight)"
+COAST_BUDGET_KEY = "gravity on the insertion coast (speed traded for height)"
 IMPACT_UNDER_POWER_NOTE = ("the vehicle came back to the ground at {t:.1f} s before {stage!r} burnt out: "
                            "it cannot climb with this thrust (raise thrust-to-weight); the figures "
                            "above describe a failed flight.")
@@ -296,6 +300,12 @@ def flight_summary(fr: FlightResult, site_altitude_m: float = 0.0) -> dict[str, 
         })
     budget = {"ideal": float(fr.ideal_delta_v_m_s)}
     budget.update({f"{k} loss": 0.0 - v for k, v in losses.items()})
+    coast = float(fr.coast_gravity_loss_m_s)
+    out["coast_gravity_loss_m_s"] = f(coast)
+    if coast:  # the gravity loss split: powered flight, and the speed traded for height on the insertion coast
+        rest = {k: v for k, v in budget.items() if k not in ("ideal", "gravity loss")}
+        budget = {"ideal": budget["ideal"], POWERED_GRAVITY_KEY: coast - losses["gravity"], COAST_BUDGET_KEY: -coast,
+                  **rest}
     if fr.rotation_bonus_m_s:
         budget["Earth rotation"] = float(fr.rotation_bonus_m_s)
     budget["final inertial speed" if fr.profile != "vertical" else "speed at final burnout"] = (

@@ -16,7 +16,7 @@ import numpy as np
 
 from sizing.physics.flight.layout import (
     B_T, B_Y, END_APOGEE, END_BURNOUT, END_IMPACT, END_TIME_LIMIT, H_ACC, H_ALPHA, H_ALT, H_DRAG, H_M, H_MACH, H_Q,
-    H_STAGE, N_STATE,
+    H_STAGE, N_MOTION, N_STATE,
     H_T, H_THRUST, H_VREL, H_X, OUT_APOGEE, OUT_APOGEE_T, OUT_IMPACT_T, OUT_MAX_ACC, OUT_MAXQ,
     OUT_MAXQ_ALT, OUT_MAXQ_T, OUT_N_HIST, OUT_N_REJECTED, OUT_N_RHS, OUT_N_STEPS, OUT_RAIL_T, OUT_RAIL_V,
 )
@@ -302,6 +302,10 @@ class FlightResult:
         Inertial state (x, y, z [m], vx, vy, vz [m/s]) where the insertion coast
         begins (the last stage's cut-off, or burnout below a kick stage); None
         without an insertion burn or when the flight ended before it.
+    coast_gravity_loss_m_s : float
+        The part of ``losses_m_s["gravity"]`` accrued on the insertion coast
+        (cut-off to insertion ignition): speed traded for height on the way to
+        the apsis [m/s]; 0 without an insertion coast.
     n_steps, n_rejected, n_rhs : int
         Accepted and rejected integration steps, right-hand-side evaluations.
     history : FlightHistory
@@ -343,6 +347,7 @@ class FlightResult:
     end_east_m: float = math.nan
     end_north_m: float = math.nan
     coast_start_state: np.ndarray | None = field(repr=False, default=None)
+    coast_gravity_loss_m_s: float = 0.0
 
     @property
     def total_loss_m_s(self) -> float:
@@ -431,6 +436,17 @@ def _coast_start(ascent: AscentProfile | None, burn: np.ndarray, n_st: int) -> n
     return np.array(burn[row, B_Y:B_Y + 6], float)
 
 
+def _coast_gravity(ascent: AscentProfile | None, burn: np.ndarray, n_st: int) -> float:
+    """Gravity loss accrued between the insertion cut-off and ignition marks (burnout-table rows n_st
+    and n_st + 1, `setup._phase_table`) [m/s]; 0 without an insertion coast or when it was not flown."""
+    if ascent is None or ascent.insertion is None or burn.shape[0] < n_st + 2:
+        return 0.0
+    a, b = burn[n_st], burn[n_st + 1]
+    if not (math.isfinite(a[B_T]) and math.isfinite(b[B_T])):
+        return 0.0
+    return float(b[B_Y + N_MOTION] - a[B_Y + N_MOTION])  # the first accumulator is the gravity loss (`layout`)
+
+
 def _altitude(frame: FlightFrame, y: np.ndarray) -> float:
     return float(np.linalg.norm(y[0:3]) - frame.radius_m) if frame.round_earth else float(y[2])
 
@@ -474,4 +490,5 @@ def assemble(*, frame: FlightFrame, profile: str, stage_names, kernel_out, site_
         targeting_residual=(), warnings=tuple(warnings), n_steps=int(o[OUT_N_STEPS]),
         n_rejected=int(o[OUT_N_REJECTED]), n_rhs=int(o[OUT_N_RHS]), history=history, final_state=y,
         end_east_m=end_e, end_north_m=end_n, coast_start_state=_coast_start(ascent, burn, len(stage_names)),
+        coast_gravity_loss_m_s=_coast_gravity(ascent, burn, len(stage_names)),
     )
