@@ -18,7 +18,7 @@ from pathlib import Path
 
 from .result import CAUTION
 
-__all__ = ["SWEEP_KEYS", "parse_sweep", "run_sweep"]
+__all__ = ["SWEEP_KEYS", "local_optimum_notes", "parse_sweep", "run_sweep"]
 
 #: Mission keys a sweep may vary, with the kind of quantity each holds.
 SWEEP_KEYS = {"orbit_altitude": "length", "orbit_apogee": "length", "apogee": "length", "inclination": "angle",
@@ -85,10 +85,13 @@ def run_sweep(args) -> int:
             error_line(str(exc))
             continue
         rows.append(_row(key, v, result))
+    notes = local_optimum_notes(key, rows)
     if args.json:
-        print(json.dumps({"sweep": key, "points": rows, "caution": CAUTION}, indent=2))
+        print(json.dumps({"sweep": key, "points": rows, "notes": notes, "caution": CAUTION}, indent=2))
     else:
         _print_table(key, rows)
+        for n in notes:
+            print(f"review note: {n}")
     if args.out is not None and rows:
         with Path(args.out).open("w", newline="", encoding="utf-8") as fh:
             w = csv.DictWriter(fh, fieldnames=list(rows[0]))
@@ -97,6 +100,33 @@ def run_sweep(args) -> int:
             fh.write(f"\ncaution,{CAUTION}\n")
         print(f"wrote {args.out}", file=sys.stderr if args.json else sys.stdout)
     return EXIT_OK if any(r["status"] == "optimal" for r in rows) else EXIT_FAILED
+
+
+#: Sweep keys along which a harder target can only cost gross mass (a design for the harder target,
+#: re-steered, reaches the easier one): a lighter point above a heavier one marks a local optimum.
+_HARDER_WITH = ("orbit_altitude", "orbit_apogee", "apogee", "delta_v", "payload_mass")
+
+
+def local_optimum_notes(key: str, rows: list[dict]) -> list[str]:
+    """Review notes where the minimum gross mass falls along a sweep that only makes the target harder.
+
+    The optimiser finds a local optimum per point (docs/physics-flight.md §8); a
+    heavier point below a lighter one was not the global optimum.
+    """
+    if key not in _HARDER_WITH:
+        return []
+    col = f"{key} [{_UNITS[SWEEP_KEYS[key]]}]"
+    ok = [r for r in rows if r["status"] == "optimal" and math.isfinite(r.get("gross mass [kg]", math.nan))]
+    notes = []
+    for i, r in enumerate(ok):
+        later = [q for q in ok[i + 1:] if q["gross mass [kg]"] < r["gross mass [kg]"] * (1 - 1e-4)]
+        if later:
+            q = min(later, key=lambda x: x["gross mass [kg]"])
+            notes.append(f"{key} = {r[col]:,.6g} {_UNITS[SWEEP_KEYS[key]]} needs {r['gross mass [kg]']:,.1f} kg "
+                         f"but the harder {q[col]:,.6g} {_UNITS[SWEEP_KEYS[key]]} only {q['gross mass [kg]']:,.1f} "
+                         "kg: that point is a local optimum (the harder design, re-steered, would do); read it as "
+                         "an upper bound.")
+    return notes
 
 
 def _print_table(key: str, rows: list[dict]) -> None:

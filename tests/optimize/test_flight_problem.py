@@ -277,3 +277,20 @@ def test_unknown_steering_key_lists_the_steering_keys(tmp_path, capsys):
     assert main(["check", str(path)]) == EXIT_BAD_INPUT
     err = capsys.readouterr().err
     assert "steering.foo: unknown key" in err and "nodes_per_stage" in err and "mission" not in err
+
+
+def test_sweep_names_a_point_heavier_than_a_harder_one():
+    """A higher orbit can only cost gross mass (the design for it, re-steered, reaches the lower
+    one): a heavier point below a lighter one is named as a local optimum (consistency check, no
+    external source); a monotone sweep and a key that does not order the targets give no note."""
+    from sizing.cli_sweep import local_optimum_notes
+
+    def rows(masses):
+        return [{"orbit_altitude [m]": 3e5 + 5e4 * k, "status": "optimal", "gross mass [kg]": m}
+                for k, m in enumerate(masses)]
+
+    notes = local_optimum_notes("orbit_altitude", rows([7626.2, 7598.4, 7684.2]))
+    assert len(notes) == 1 and "300,000 m needs 7,626.2 kg" in notes[0] and "350,000 m only 7,598.4" in notes[0]
+    assert local_optimum_notes("orbit_altitude", rows([7500.0, 7598.4, 7684.2])) == []
+    assert local_optimum_notes("inclination", [{"inclination [deg]": 1.0, "status": "optimal",
+                                                "gross mass [kg]": 2.0}]) == []
