@@ -45,7 +45,8 @@ from sizing.physics.gravity import (circular_speed_m_s, launch_azimuth_deg, site
                                     time_to_apoapsis_s)
 from sizing.physics.rocket import stack_masses
 from sizing.physics.loss_estimate import gravity_loss_split
-from sizing.physics.vehicle import FlightStageSpec, LaunchSite, Vehicle, build_vehicle, structural_masses
+from sizing.physics.vehicle import (FlightStageSpec, LaunchSite, Vehicle, build_vehicle, structural_masses,
+                                    with_model_coefficients)
 from sizing.units import GM_EARTH_M3_S2, R_EARTH_EQ_M
 
 __all__ = ["INSERTION_MODES", "TRANSFER_PLANS", "MIN_TRANSFER_PERIGEE_M", "OrbitGoal", "PathLimits", "OrbitDesign", "size_for_orbit"]
@@ -442,6 +443,21 @@ def _initial_split(specs, payload_kg: float, goal: OrbitGoal, site: LaunchSite, 
     return np.maximum(mp, 0.05 * mp.sum() / len(mp))
 
 
+def _model_start(specs, mp0, payload_kg: float, goal: OrbitGoal, site: LaunchSite, loss_guess_m_s: float):
+    """Mass-model stages: the coefficient of each model at the starting split, the split again, twice
+    (fixed point). Each coefficient is held within [0.04, 0.20] (common practice, no source: the span of
+    liquid and solid stages), since a model's coefficient grows steeply as a stage gets small and a
+    lopsided start can run away. Returns (specs, propellant masses)."""
+    start = specs
+    for _ in range(2):
+        fresh = with_model_coefficients(start, mp0, payload_kg)
+        specs = tuple(replace(s, structural_coefficient=min(max(s.structural_coefficient, 0.04), 0.20))
+                      if s.mass_model is not None else s for s in fresh)
+        start = specs
+        mp0 = _initial_split(specs, payload_kg, goal, site, loss_guess_m_s)
+    return specs, mp0
+
+
 def _start(lay: _Layout, rtol: float) -> np.ndarray:
     """A starting design: a 3 deg kick, the upper-stage pitch falling linearly from the flight-path angle
     reached at their ignition to zero, and an insertion coast to the transfer orbit's apoapsis."""
@@ -519,20 +535,34 @@ def size_for_orbit(specs, payload_mass_kg: float, goal: OrbitGoal, site: LaunchS
                   nodes=nodes_per_stage, vertical_rise_s=vertical_rise_s, kick_duration_s=kick_duration_s,
                   azimuth_deg=az, plane_inclination_deg=goal.inclination_deg, payload_diameter_m=payload_diameter_m,
                   staging_delay_s=staging_delay_s)
-    runs = []
-    for label, start in _starts(common, limits, rtol):
-        lay2, outputs, res, n = _passes(common, start, limits, rtol, max_iterations, gross_mass_kg,
-                                        max_gross_mass_kg)
-        runs.append((label, lay2, outputs, res, n))
+    run = (common, limits, rtol, max_iterations, gross_mass_kg, max_gross_mass_kg)
+    runs = _run_starts(*run)
+    if any(s.mass_model is not None for s in specs):
+        # mass models: also start from the models' own coefficients (neither start wins everywhere: on
+        # corvid variants each one fails or lands 13 % heavier where the other does not)
+        specs2, mp2 = _model_start(specs, mp0, payload_mass_kg, goal, site, loss_guess_m_s)
+        runs += _run_starts(dict(common, specs=specs2, mp_ref=mp2), *run[1:], suffix=" (model coefficients)")
     n_total = sum(r[4] for r in runs)
-    label, lay2, outputs, res, _ = min(runs, key=lambda r: (not r[3].success, _merit(r[1], r[3], gross_mass_kg)))
+    label, lay2, outputs, res, _, used = min(runs, key=lambda r: (not r[3].success,
+                                                                 _merit(r[1], r[3], gross_mass_kg)))
     design = _design(lay2, outputs, res, n_total, sum(r[3].n_iterations for r in runs))
     if len(runs) > 1:
         design = replace(design, warnings=design.warnings + (_basin_note(runs, label, gross_mass_kg),))
     if not res.success or gross_mass_kg is not None:
         return design
     out_kw = dict(rtol=rtol, max_gross_mass_kg=max_gross_mass_kg)
-    return replace(design, trade_factors=_trade_factors(common, limits, out_kw, res, lay2.gross_mass(res.z)))
+    return replace(design, trade_factors=_trade_factors(used, limits, out_kw, res, lay2.gross_mass(res.z)))
+
+
+def _run_starts(common: dict, limits: PathLimits, rtol: float, max_iterations: int, gross_mass_kg, max_gross_mass_kg,
+                suffix: str = "") -> list:
+    """Every starting design optimised: (label, layout, outputs, result, flights, common) per start."""
+    runs = []
+    for label, start in _starts(common, limits, rtol):
+        lay2, outputs, res, n = _passes(common, start, limits, rtol, max_iterations, gross_mass_kg,
+                                        max_gross_mass_kg)
+        runs.append((label + suffix, lay2, outputs, res, n, common))
+    return runs
 
 
 def _starts(common: dict, limits: PathLimits, rtol: float):
@@ -684,7 +714,7 @@ def _merit(lay: _Layout, res: ShootingResult, gross_mass_kg: float | None) -> fl
 def _basin_note(runs, kept: str, gross_mass_kg: float | None) -> str:
     """Review note: the starting designs tried and what each gave."""
     parts = []
-    for label, lay, _out, res, _n in runs:
+    for label, lay, _out, res, _n, _common in runs:
         if not res.success:
             parts.append(f"{label}: no feasible design")
         elif gross_mass_kg is not None:
@@ -694,7 +724,8 @@ def _basin_note(runs, kept: str, gross_mass_kg: float | None) -> str:
     design = next(r for r in runs if r[0] == kept)
     coast = design[1].insertion(design[3].z, design[1].vehicle(design[3].z))
     coast_text = f"; its insertion coast is {coast.coast_s:,.0f} s" if coast is not None else ""
-    return (f"steering: optimised from two starting designs ({'; '.join(parts)}); kept: the one from the "
+    count = {2: "two", 3: "three", 4: "four"}.get(len(runs), str(len(runs)))
+    return (f"steering: optimised from {count} starting designs ({'; '.join(parts)}); kept: the one from the "
             f"{kept} start{coast_text} (direct shooting finds a local optimum from each start).")
 
 

@@ -41,6 +41,9 @@ MASS_ITEMS = ("tanks", "insulation", "engines", "thrust_structure", "interstage"
               "avionics", "wiring", "other")
 STAGE_KINDS = ("liquid", "solid", "hybrid", "hobby")
 TANK_METHODS = ("per_volume", "pressure_vessel")
+#: Share of a stage's structure above which avionics and wiring from the MERs get a review note
+#: (common practice, no source).
+AVIONICS_SHARE_NOTE = 0.25
 
 #: Each mass estimating relationship: (item, formula, source, fitted range).
 MERS: tuple[tuple[str, str, str, str], ...] = (
@@ -413,7 +416,7 @@ class StageMassModel:
 
     def review_notes(self, propellant_mass_kg: float, thrust_vac_n: float) -> list[str]:
         """Things a reviewer should see at one design point (MER ranges, odd geometry)."""
-        s, _items, geo = self._solve(propellant_mass_kg, thrust_vac_n)
+        s, items, geo = self._solve(propellant_mass_kg, thrust_vac_n)
         notes = []
         for which, lc in (("fuel tank", geo.fuel_tank_cylinder_length_m),
                           ("oxidiser tank", geo.oxidiser_tank_cylinder_length_m)):
@@ -425,6 +428,13 @@ class StageMassModel:
         if self.use_avionics_mer and float(s + propellant_mass_kg) < 1000.0:
             notes.append("avionics and wiring MERs are fitted to launch vehicles; this stage is below "
                          "1,000 kg, so override [stage.structure.fixed] avionics and wiring.")
+        elif self.use_avionics_mer and not {"avionics", "wiring"} <= set(self.fixed):
+            share = float(items["avionics"] + items["wiring"]) / float(s)
+            if share > AVIONICS_SHARE_NOTE:
+                notes.append(f"avionics and wiring (MERs) are {100 * share:.0f} % of this stage's structure (above "
+                             f"{100 * AVIONICS_SHARE_NOTE:.0f} %, common practice, no source): the launch-vehicle "
+                             "MERs overstate them for a small stage; give [stage.structure.fixed] avionics and "
+                             "wiring from the team's own estimate.")
         if self.tank_method == "per_volume" and not self._is_grain:
             v = float(geo.fuel_volume_m3 + geo.oxidiser_volume_m3)
             if v < 10.0:
