@@ -234,3 +234,16 @@ def test_problem_definition_error_pickles():
     err = ProblemDefinitionError("x.toml", ["a: b.", "c: d."])
     again = pickle.loads(pickle.dumps(err))
     assert again.faults == err.faults and str(again) == str(err)
+    two = ProblemDefinitionError("x.toml", ["a: b.", "dispersions: d."], ["x.toml", "t.toml"])
+    again = pickle.loads(pickle.dumps(two))
+    assert again.fault_sources == ("x.toml", "t.toml") and str(again) == str(two)
+
+
+def test_problem_definition_error_names_the_file_of_each_fault():
+    """Faults from two files (a design and its --dispersions table) each carry their own file."""
+    one = ProblemDefinitionError("t.toml", ["dispersions.seed: must be >= 0."], ["t.toml"])
+    assert str(one) == "t.toml: dispersions.seed: must be >= 0."
+    two = ProblemDefinitionError("x.toml", ["a: b.", "dispersions: d."], ["x.toml", "t.toml"])
+    assert str(two) == "x.toml and t.toml have 2 errors\n  x.toml: a: b.\n  t.toml: dispersions: d."
+    with pytest.raises(ValueError, match="one file per fault"):
+        ProblemDefinitionError("x.toml", ["a: b."], ["x.toml", "t.toml"])
