@@ -68,8 +68,8 @@ def error_lines(exc: Exception) -> None:
     from .errors import ProblemDefinitionError
 
     if isinstance(exc, ProblemDefinitionError) and len(exc.faults) > 1:
-        for fault in exc.faults:
-            error_line(f"{exc.source}: {fault}")
+        for source, fault in zip(exc.fault_sources, exc.faults):
+            error_line(f"{source}: {fault}")
     else:
         error_line(str(exc))
 

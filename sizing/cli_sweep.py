@@ -42,7 +42,7 @@ def parse_sweep(text: str) -> tuple[str, list[float]]:
     if len(parts) != 3:
         raise ValueError(f"--sweep {text!r}: the range must be START:STOP:STEP (e.g. 300km:1200km:100km).")
     try:
-        start, stop, step = (to_si(p.strip(), SWEEP_KEYS[key]) for p in parts)
+        start, stop, step = (to_si(_bare_number(p.strip()), SWEEP_KEYS[key]) for p in parts)
     except ValueError as exc:
         raise ValueError(f"--sweep {text!r}: {exc}") from None
     if not (step > 0 and stop >= start):
@@ -51,6 +51,15 @@ def parse_sweep(text: str) -> tuple[str, list[float]]:
     if n > _MAX_POINTS:
         raise ValueError(f"--sweep {text!r}: {n} points; at most {_MAX_POINTS} (use a study for more).")
     return key, [start + k * step for k in range(n)]
+
+
+def _bare_number(text: str) -> float | str:
+    """A bare number on the command line is SI, like a plain number in a file ("20000" -> 20000.0);
+    anything else stays text for `to_si` (which refuses a unit-less string)."""
+    try:
+        return float(text)
+    except ValueError:
+        return text
 
 
 def _row(key: str, value: float, result) -> dict:

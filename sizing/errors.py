@@ -61,22 +61,35 @@ class FieldError(SizingError, ValueError):
 
 
 class ProblemDefinitionError(SizingError, ValueError):
-    """A problem (or study) file that cannot be used, with one line per fault."""
+    """A problem (or study) file that cannot be used, with one line per fault.
 
-    def __init__(self, source: str, faults: Sequence[str]) -> None:
+    `fault_sources` names the file of each fault when they come from more than one
+    (a design file and the ``--dispersions`` file whose table replaces its own);
+    by default every fault is `source`'s.
+    """
+
+    def __init__(self, source: str, faults: Sequence[str], fault_sources: Sequence[str] | None = None) -> None:
         self.source = str(source)
         self.faults = tuple(faults)
         n = len(self.faults)
+        self.fault_sources = (self.source,) * n if fault_sources is None else tuple(map(str, fault_sources))
+        if len(self.fault_sources) != n:
+            raise ValueError(f"fault_sources: one file per fault ({n}). Got {len(self.fault_sources)}.")
+        files = list(dict.fromkeys(self.fault_sources))
         if n == 1:
-            text = f"{self.source}: {self.faults[0]}"
-        else:
+            text = f"{self.fault_sources[0]}: {self.faults[0]}"
+        elif files == [self.source]:
             text = f"{self.source} has {n} errors\n" + "\n".join(
                 f"  {f}" for f in self.faults
+            )
+        else:
+            text = f"{' and '.join(files)} have {n} errors\n" + "\n".join(
+                f"  {s}: {f}" for s, f in zip(self.fault_sources, self.faults)
             )
         super().__init__(text)
 
     def __reduce__(self):
-        return (type(self), (self.source, self.faults))
+        return (type(self), (self.source, self.faults, self.fault_sources))
 
 
 class StudyDefinitionError(ProblemDefinitionError):

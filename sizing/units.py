@@ -2,7 +2,8 @@
 
 Plain numbers in input files are SI (Isp in seconds). A string such as
 ``"11000 lb"`` or ``"2.2 km/s"`` is parsed with pint and converted to the SI unit
-the field expects; a wrong dimension is an error. pint is imported only when
+the field expects; a wrong dimension is an error, and so is a string with no
+unit (``"180"``) for a field that has a dimension. pint is imported only when
 a string value is met, so plain-number files load fast.
 """
 
@@ -18,6 +19,8 @@ __all__ = [
     "OMEGA_EARTH_RAD_S",
     "SI_UNITS",
     "MSG_G_IS_GRAMS",
+    "MSG_NO_UNIT",
+    "UNIT_EXAMPLES",
     "to_si",
     "isp_to_exhaust_velocity",
     "exhaust_velocity_to_isp",
@@ -59,9 +62,47 @@ SI_UNITS: dict[str, str] = {
 MSG_G_IS_GRAMS = ("{value!r} reads as a mass (g is the gram); for an acceleration in standard gravities "
                   "write '{n} g0' or '{n} gee' (= {si} m/s^2), or give m/s^2.")
 
+#: A string with no unit for a field with a dimension ("180" for a mass): refused, because
+#: a string is read as a number with a unit, and the unit the writer meant is unknown.
+MSG_NO_UNIT = ("{value!r} has no unit; write a plain number for {plain} ({unit}) "
+               "or a number with a unit such as {example!r}.")
+
+#: One written example per kind with a dimension, for `MSG_NO_UNIT` (each converts to its kind).
+UNIT_EXAMPLES: dict[str, str] = {
+    "mass": "12 kg",
+    "velocity": "2.2 km/s",
+    "length": "1.3 m",
+    "time": "3.5 s",
+    "force": "11 kN",
+    "pressure": "2 bar",
+    "area": "0.05 m^2",
+    "volume": "2 L",
+    "acceleration": "6 g0",
+    "impulse": "640 N*s",
+    "density": "1800 kg/m^3",
+    "temperature": "90 K",
+    "mass_per_length": "0.4 kg/m",
+    "mass_per_area": "1.2 kg/m^2",
+    "angle": "85 deg",
+    "angular_rate": "2 deg/s",
+}
+
+
+def _no_unit_message(value: str, kind: str) -> str:
+    """`MSG_NO_UNIT` filled in for `kind` (the SI unit written as in the docs, m^2 not m**2)."""
+    unit = SI_UNITS[kind].replace("**", "^")
+    plain = "degrees" if kind in ("angle", "angular_rate") else "SI"
+    return MSG_NO_UNIT.format(value=value, plain=plain, unit=unit, example=UNIT_EXAMPLES[kind])
+
 
 def _article(word: str) -> str:
     return "an" if word[:1] in "aeiou" else "a"
+
+
+def _wrong_dimension(value: str, kind: str) -> str:
+    target = SI_UNITS[kind]
+    return (f"{value!r} has the wrong dimension; {_article(kind)} {kind} in units such as "
+            f"{target or 'a plain number'} is expected.")
 
 
 @lru_cache(maxsize=1)
@@ -81,7 +122,9 @@ def to_si(value: float | int | str, kind: str) -> float:
     Parameters
     ----------
     value : float, int or str
-        Plain numbers are taken as already SI. Strings are parsed by pint.
+        Plain numbers are taken as already SI. Strings are parsed by pint
+        and must carry a unit unless `kind` is ``"dimensionless"`` (there
+        ``"0.08"`` and ``"8 %"`` are both 0.08).
     kind : str
         A key of `SI_UNITS`, e.g. ``"mass"``.
 
@@ -93,8 +136,8 @@ def to_si(value: float | int | str, kind: str) -> float:
     Raises
     ------
     ValueError
-        With a one-line message when the string cannot be parsed or has the
-        wrong dimension.
+        With a one-line message when the string cannot be parsed, has the
+        wrong dimension, or has no unit for a `kind` with a dimension.
 
     Examples
     --------
@@ -102,6 +145,8 @@ def to_si(value: float | int | str, kind: str) -> float:
     2200.0
     >>> to_si(5.0, "mass")
     5.0
+    >>> to_si("8 %", "dimensionless")
+    0.08
     """
     if isinstance(value, bool):
         raise ValueError(f"must be a number or a string with a unit. Got {value!r}.")
@@ -121,22 +166,22 @@ def to_si(value: float | int | str, kind: str) -> float:
             f"cannot read {value!r} as a quantity; write e.g. \"12 kg\" or a plain SI number."
         ) from None
     if not hasattr(q, "to"):
-        return float(q)
+        q = ureg.Quantity(q)
     if q.dimensionless and target == "":
         return float(q.to("").magnitude)
-    if q.unitless:
-        # a plain number written as a string: take it as SI
-        return float(q.magnitude)
+    if target and q.unitless:
+        # a pure number ("180", "1e3") or a number of a dimensionless unit ("8 %"): neither
+        # says which unit of a dimensional field was meant
+        if q.units == ureg.dimensionless:
+            raise ValueError(_no_unit_message(value, kind))
+        raise ValueError(_wrong_dimension(value, kind))
     try:
         out = float(q.to(target).magnitude)
     except Exception:
         if kind == "acceleration" and str(q.units) == "gram":
             raise ValueError(MSG_G_IS_GRAMS.format(value=value, n=f"{q.magnitude:g}",
                                                    si=f"{q.magnitude * G0_M_S2:,.4g}")) from None
-        raise ValueError(
-            f"{value!r} has the wrong dimension; {_article(kind)} {kind} in units such as "
-            f"{target or 'a plain number'} is expected."
-        ) from None
+        raise ValueError(_wrong_dimension(value, kind)) from None
     if not math.isfinite(out):
         raise ValueError(f"must be a finite number. Got {value!r}.")
     return out

@@ -15,7 +15,7 @@ from sizing.result import CAUTION
 
 HERE = Path(__file__).resolve().parent
 sys.path.insert(0, str(HERE / "dispersion"))
-from dispersion_helpers import HERON, ROOT, write_table  # noqa: E402
+from dispersion_helpers import HERON, HERON_TABLE, ROOT, write_table  # noqa: E402
 
 
 def test_disperse_writes_every_output_with_units_and_the_caution(tmp_path, capsys):
@@ -85,6 +85,56 @@ def test_disperse_bad_files_exit_2_in_one_line(tmp_path, capsys):
     assert capsys.readouterr().err.strip() == f"error: {water}: hobby.kind: {MSG_WATER}. Got 'water'."
     assert main(["disperse", str(HERON), "--dispersions", str(p), "--out", str(tmp_path / "y"), "--quiet"]) == 2
     assert capsys.readouterr().err.strip() == f"error: {p}: has no [dispersions] table."
+
+
+BAD_QUANTITY = '[dispersions]\n[[dispersions.input]]\nquantity = "*.ispp"\ndistribution = "normal"\nsigma = "1 %"\n'
+
+
+def _err_lines(capsys) -> list[str]:
+    cap = capsys.readouterr()
+    assert "Traceback" not in cap.err + cap.out
+    return cap.err.splitlines()
+
+
+@pytest.mark.parametrize("design", [HERON, ROOT / "problems" / "hobby_motor_two_stage.toml"],
+                         ids=["design", "hobby"])
+def test_disperse_bad_table_names_the_dispersions_file(tmp_path, capsys, design):
+    """The faulty table came from --dispersions FILE: the one line names that file, not the design."""
+    from sizing.problem.dispersions import MSG_UNKNOWN_QUANTITY
+
+    table = write_table(tmp_path, BAD_QUANTITY, "d1.toml")
+    assert main(["disperse", str(design), "--dispersions", str(table), "--out", str(tmp_path / "x"),
+                 "--quiet"]) == 2
+    err = _err_lines(capsys)
+    assert len(err) == 1, err
+    assert err[0].startswith(f"error: {table}: dispersions.input[1] (*.ispp).quantity: {MSG_UNKNOWN_QUANTITY}. "
+                             f"Got '*.ispp'. Allowed: ")
+    assert str(design) not in err[0]
+
+
+def test_disperse_unitless_spread_names_the_dispersions_file(tmp_path, capsys):
+    from sizing.units import MSG_NO_UNIT
+
+    table = write_table(tmp_path, HERON_TABLE.replace('low = "4.4 kg"', 'low = "4.4"'), "d1.toml")
+    assert main(["disperse", str(HERON), "--dispersions", str(table), "--out", str(tmp_path / "x"), "--quiet"]) == 2
+    assert _err_lines(capsys) == [
+        f"error: {table}: dispersions.input[4] (payload_mass).low: "
+        + MSG_NO_UNIT.format(value="4.4", plain="SI", unit="kg", example="12 kg")]
+
+
+def test_disperse_faults_in_both_files_each_name_their_file(tmp_path, capsys):
+    """A fault of the design and one of the --dispersions table: one line each, each naming its own file."""
+    design = tmp_path / "design.toml"
+    text = HERON.read_text()
+    assert "payload_mass = 4.5\n" in text
+    design.write_text(text.replace("payload_mass = 4.5\n", "payload_mass = -4.5\n", 1))
+    table = write_table(tmp_path, BAD_QUANTITY, "d1.toml")
+    assert main(["disperse", str(design), "--dispersions", str(table), "--out", str(tmp_path / "x"),
+                 "--quiet"]) == 2
+    err = _err_lines(capsys)
+    assert len(err) == 2, err
+    assert err[0] == f"error: {design}: mission.payload_mass: must be > 0. Got -4.5."
+    assert err[1].startswith(f"error: {table}: dispersions.input[1] (*.ispp).quantity: ")
 
 
 def test_disperse_into_another_runs_folder_needs_restart(tmp_path, capsys):

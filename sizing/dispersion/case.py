@@ -318,6 +318,7 @@ def case_from_file(path: str | Path, *, dispersions: str | Path | None = None) -
     ------
     ProblemDefinitionError
         Bad input, no ``[dispersions]`` table, or a file that cannot be dispersed.
+        A fault of the table given by `dispersions` names that file, not `path`.
     """
     from ..problem.load import read_toml
 
@@ -329,13 +330,30 @@ def case_from_file(path: str | Path, *, dispersions: str | Path | None = None) -
         data["dispersions"] = extra["dispersions"]
     if "dispersions" not in data:
         raise ProblemDefinitionError(str(path), [MSG_NO_DISPERSIONS + "."])
-    if "hobby" in data:
-        from ..problem.hobby import hobby_problem_from_dict
+    try:
+        if "hobby" in data:
+            from ..problem.hobby import hobby_problem_from_dict
 
-        return case_from_hobby(hobby_problem_from_dict(data, source=str(path), base_dir=Path(path).parent))
-    from ..problem.load import problem_from_dict
+            return case_from_hobby(hobby_problem_from_dict(data, source=str(path), base_dir=Path(path).parent))
+        from ..problem.load import problem_from_dict
 
-    return case_from_problem(problem_from_dict(data, source=str(path)))
+        return case_from_problem(problem_from_dict(data, source=str(path)))
+    except ProblemDefinitionError as exc:
+        if dispersions is None:
+            raise
+        raise _table_faults_named_by(exc, str(dispersions)) from None
+
+
+def _is_table_fault(fault: str) -> bool:
+    """True for a fault of the [dispersions] table ("dispersions.input[1] ...", "dispersions: ...")."""
+    return fault.startswith("dispersions") and fault[len("dispersions"):][:1] in (".", ":", "[", " ", "")
+
+
+def _table_faults_named_by(exc: ProblemDefinitionError, table_file: str) -> ProblemDefinitionError:
+    """`exc` with the faults of the [dispersions] table named by `table_file`, the file the table came from."""
+    sources = [table_file if _is_table_fault(f) else s for s, f in zip(exc.fault_sources, exc.faults)]
+    primary = exc.source if exc.source in sources else table_file
+    return type(exc)(primary, exc.faults, sources)
 
 
 def sized_design(problem, result=None):

@@ -646,6 +646,23 @@ def _check_axes(spec: StudyFile, stage_names: list[str | None], faults: list[str
         if ax.is_sampled and spec.study.design == "grid" and ax.levels is None:
             faults.append(f"axis[{i + 1}]: {MSG_SAMPLED_NEEDS_METHOD}. Got low = {ax.low:g}, "
                           f"high = {ax.high:g} with design = 'grid'.")
+        _check_axis_unit_strings(ax, i, faults)
+
+
+def _check_axis_unit_strings(ax: AxisTable, i: int, faults: list[str]) -> None:
+    """Strings in ``values = [...]`` of a quantity field read with `to_si` at load, before any case runs
+    ("150" with no unit, "150 m" for a mass); numbers and their ranges are the problem loader's, per case."""
+    from .labels import si_kind  # local: labels imports this module
+
+    kind = si_kind(ax.field)
+    if ax.values is None or kind is None:
+        return
+    for j, v in enumerate(ax.values):
+        if isinstance(v, str):
+            try:
+                to_si(v, kind)
+            except ValueError as exc:
+                faults.append(f"axis[{i + 1}].values[{j + 1}] ({ax.field}): {exc}")
 
 
 def _check_sampling_design(spec: StudyFile, faults: list[str]) -> None:

@@ -211,6 +211,14 @@ def test_cli_sweep_writes_a_table_with_units(tmp_path, capsys):
     assert "Preliminary estimates only" in out.read_text()
 
 
+def test_cli_sweep_bare_numbers_are_si():
+    """On the command line a bare number is SI, as a plain number is in a file; units still convert."""
+    from sizing.cli_sweep import parse_sweep
+
+    assert parse_sweep("apogee=20000:30000:10000") == ("apogee", [20000.0, 30000.0])
+    assert parse_sweep("apogee=20 km:30000:10km") == ("apogee", [20000.0, 30000.0])
+
+
 @pytest.mark.parametrize("spec, text", [("colour=1:2:1", "KEY one of"), ("apogee=10km:20km", "START:STOP:STEP"),
                                         ("apogee=20km:10km:1km", "STOP >= START"),
                                         ("apogee=1m:100km:1m", "at most")])

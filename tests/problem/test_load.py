@@ -111,6 +111,44 @@ def test_load_problem_wrong_unit_dimension(tmp_path):
     assert len(faults) == 1 and "mission.delta_v" in faults[0] and "wrong dimension" in faults[0]
 
 
+@pytest.mark.parametrize("old, new, field, value, kind", [
+    ("payload_mass = 100", 'payload_mass = "180"', "mission.payload_mass", "180", "mass"),
+    ("delta_v = 5000", 'delta_v = "5000"', "mission.delta_v", "5000", "velocity"),
+    ("isp = 280", 'isp = "280"', "stage[1] (low).isp", "280", "time"),
+    ("isp = 280", 'isp = 280\ndiameter = "130"', "stage[1] (low).diameter", "130", "length"),
+    ("delta_v = 5000", 'delta_v = 5000\ninclination = "28.5"', "mission.inclination", "28.5", "angle"),
+])
+def test_load_problem_unitless_string_exits_2_in_one_line(tmp_path, capsys, old, new, field, value, kind):
+    """A string is a number with a unit (docs/problem-files.md): "180" for a mass is refused, not read as
+    180 kg, in one line naming the file, the field, the value and the two allowed forms."""
+    from sizing.cli import main
+    from sizing.units import SI_UNITS, UNIT_EXAMPLES
+
+    p = _write(tmp_path, BASE.replace(old, new, 1))
+    assert main(["check", str(p)]) == 2
+    cap = capsys.readouterr()
+    plain = "degrees" if kind == "angle" else "SI"
+    assert cap.err.splitlines() == [
+        f"error: {p}: {field}: {value!r} has no unit; write a plain number for {plain} ({SI_UNITS[kind]}) "
+        f"or a number with a unit such as {UNIT_EXAMPLES[kind]!r}."]
+    assert "Traceback" not in cap.err + cap.out
+
+
+@pytest.mark.parametrize("value", ['"0.1"', '"10 %"', "0.1"])
+def test_load_problem_dimensionless_string_is_still_a_number(tmp_path, value):
+    """A dimensionless field takes a plain number, a string number or a percentage, as before."""
+    p = load_problem(_write(tmp_path, BASE.replace("structural_coefficient = 0.1\n",
+                                                   f"structural_coefficient = {value}\n")))
+    assert p.stages[0].structural_coefficient == pytest.approx(0.1, rel=1e-12)
+
+
+def test_load_problem_percent_for_a_mass_is_the_wrong_dimension(tmp_path):
+    """"8 %" reduces to a pure number in pint; for a mass it is a wrong dimension, not 8 kg."""
+    faults = _faults(tmp_path, BASE.replace("payload_mass = 100", 'payload_mass = "8 %"'))
+    assert faults == ["mission.payload_mass: '8 %' has the wrong dimension; a mass in units such as kg "
+                      "is expected."]
+
+
 def test_load_problem_unparseable_unit(tmp_path):
     faults = _faults(tmp_path, BASE.replace("delta_v = 5000", 'delta_v = "fast"'))
     assert "mission.delta_v" in faults[0] and "cannot read" in faults[0]
@@ -196,3 +234,16 @@ def test_problem_definition_error_pickles():
     err = ProblemDefinitionError("x.toml", ["a: b.", "c: d."])
     again = pickle.loads(pickle.dumps(err))
     assert again.faults == err.faults and str(again) == str(err)
+    two = ProblemDefinitionError("x.toml", ["a: b.", "dispersions: d."], ["x.toml", "t.toml"])
+    again = pickle.loads(pickle.dumps(two))
+    assert again.fault_sources == ("x.toml", "t.toml") and str(again) == str(two)
+
+
+def test_problem_definition_error_names_the_file_of_each_fault():
+    """Faults from two files (a design and its --dispersions table) each carry their own file."""
+    one = ProblemDefinitionError("t.toml", ["dispersions.seed: must be >= 0."], ["t.toml"])
+    assert str(one) == "t.toml: dispersions.seed: must be >= 0."
+    two = ProblemDefinitionError("x.toml", ["a: b.", "dispersions: d."], ["x.toml", "t.toml"])
+    assert str(two) == "x.toml and t.toml have 2 errors\n  x.toml: a: b.\n  t.toml: dispersions: d."
+    with pytest.raises(ValueError, match="one file per fault"):
+        ProblemDefinitionError("x.toml", ["a: b."], ["x.toml", "t.toml"])

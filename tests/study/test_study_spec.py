@@ -116,6 +116,23 @@ def test_spec_axis_number_with_unit_string_one_line():
     assert str(err).startswith("s.toml: axis[1].stop: must be a number")
 
 
+def test_spec_axis_value_without_a_unit_is_refused_at_load():
+    """"6000" in values = [...] of a mass field: refused when the study loads, not as a failed case later;
+    unit strings and plain numbers still load, and a dimensionless field takes a string number."""
+    from sizing.units import MSG_NO_UNIT
+
+    data = small_study(axis=[{"field": "mission.payload_mass", "values": [4000.0, "5 t", "6000", "7 m"]}])
+    err = _faults(data)
+    assert err.faults == (
+        "axis[1].values[3] (mission.payload_mass): "
+        + MSG_NO_UNIT.format(value="6000", plain="SI", unit="kg", example="12 kg"),
+        "axis[1].values[4] (mission.payload_mass): '7 m' has the wrong dimension; a mass in units such as kg "
+        "is expected.")
+    assert str(err).startswith("s.toml has 2 errors")
+    study_from_dict(small_study(axis=[{"field": "stage.first.structural_coefficient", "values": ["0.1", "12 %"]}]),
+                    source="s.toml")
+
+
 @pytest.mark.parametrize("study, fault", [
     ({"samples": "many"}, "study.samples: must be a whole number. Got 'many'."),
     ({"samples": 0}, "study.samples: must be > 0. Got 0."),
