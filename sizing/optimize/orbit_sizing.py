@@ -63,6 +63,8 @@ COAST0 = 300.0  # starting insertion coast [s]
 #: Longest coast of the "short_coast" plan, as a fraction of the target orbit's period (this tool's
 #: definition of short: an eighth of an orbit, 710 s at 500 km).
 SHORT_COAST_FRACTION = 0.125
+#: Orbit residual [m/s] under which the scale-only feasibility counts as reached (else every stage moves).
+FEASIBLE_START_M_S = 5.0
 _COAST_SCALE_S = 1000.0
 _SHARE_SCALE = 0.05  # insertion share of the last stage's propellant per unit
 #: Weight of the pitch-programme smoothing term (Tikhonov regularisation of the nodes): a 10 deg wiggle
@@ -661,6 +663,10 @@ def _passes(common: dict, start, limits: PathLimits, rtol: float, max_iterations
     lo1, hi1 = lay1.bounds()
     z1, n_fl = find_feasible(out1, z1, lo1, hi1, n_eq=out1.n_eq, free=free)
     z2 = np.concatenate([np.full(len(specs), z1[0]), z1[1:]]) if lay1.scale_only else z1
+    if lay1.scale_only and not np.all(np.abs(out1(z1)[0][1:1 + out1.n_eq]) < FEASIBLE_START_M_S):
+        # the split scaled as a whole misses the orbit: let every stage's propellant move too
+        z2, n_more = _full_feasibility(common, z2, limits, rtol)
+        n_fl += n_more + 1
     common = dict(common)
     if gross_mass_kg is not None:  # scale the feasible vehicle and its payload to the gross mass
         k = gross_mass_kg / lay1.gross_mass(z1)
@@ -704,6 +710,16 @@ def _passes(common: dict, start, limits: PathLimits, rtol: float, max_iterations
             z2 = res0.z
     lay2, outputs, res, n2 = limited(z2)
     return lay2, outputs, res, n_fl + n2
+
+
+def _full_feasibility(common: dict, z: np.ndarray, limits: PathLimits, rtol: float) -> tuple[np.ndarray, int]:
+    """Least squares for the orbit with every variable free (masses one by one), from z; the mass model
+    off (fixed coefficients), as in the first integrated pass. Returns (z, flights)."""
+    specs = tuple(replace(s, mass_model=None) for s in common["specs"])
+    lay = _Layout(**{**common, "specs": specs}, scale_only=False)
+    out = _Outputs(lay, replace(limits, min_transfer_perigee_m=0.0), rtol=rtol)
+    lo, hi = lay.bounds()
+    return find_feasible(out, z, lo, hi, n_eq=out.n_eq)
 
 
 def _merit(lay: _Layout, res: ShootingResult, gross_mass_kg: float | None) -> float:
