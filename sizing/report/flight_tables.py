@@ -25,7 +25,7 @@ FLIGHT_QUANTITIES: tuple[tuple[str, str, str, str], ...] = (
     ("rail_exit_speed_m_s", "rail-exit speed", "m/s", ".1f"),
     ("max_dynamic_pressure_pa", "max dynamic pressure (max-q)", "Pa", ",.0f"),
     ("max_acceleration_m_s2", "max acceleration", "m/s^2", ".1f"),
-    ("liftoff_thrust_to_weight", "lift-off thrust-to-weight (mean thrust of a thrust curve)", "-", ".2f"),
+    ("liftoff_thrust_to_weight", "lift-off thrust-to-weight (thrust at site pressure; a curve: its mean)", "-", ".2f"),
     ("perigee_altitude_m", "perigee altitude above sea level", "m", ",.0f"),
     ("apogee_altitude_m", "apogee altitude above sea level", "m", ",.0f"),
     ("inclination_deg", "inclination", "deg", ".3f"),

@@ -268,7 +268,7 @@ HARDWARE_QUANTITIES: tuple[tuple[str, str, str], ...] = (
     ("engine_count", "engine count [-]", "d"),
     ("engine_mass_kg", "engine mass, all engines [kg]", "mass"),
     ("thrust_vac_n", "vacuum thrust [N]", ",.0f"),
-    ("thrust_to_weight", "thrust-to-weight at ignition [-]", ".3f"),
+    ("thrust_to_weight", "thrust-to-weight at ignition, vacuum thrust [-]", ".3f"),
     ("burn_time_s", "burn time [s]", ".1f"),
     ("gravity_loss_m_s", "estimated gravity loss [m/s]", ",.1f"),
 )
