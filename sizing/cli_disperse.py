@@ -155,6 +155,9 @@ def print_statistics(st: dict, summary=None, console=None) -> None:
     if summary is not None:
         head += f" in {summary.elapsed_s:.1f} s ({summary.ran:,} flown now, {summary.done_before:,} resumed)"
     con.print(head)
+    if s["failed"] or s["invalid"]:
+        con.print("  failed: the flight did not lift off, or came back to the ground before final burnout; no "
+                  "vehicle: the sampled values make none (e.g. a negative mass); both count as missing the target")
     con.print(f"requirement: {escape(st['requirement'])}")
     pm = st.get("probability_of_meeting")
     c = st["confidence"]
@@ -172,6 +175,11 @@ def print_statistics(st: dict, summary=None, console=None) -> None:
                   f"{shape['perigee_short_by_10_km_share']:.1%} of flights end with the perigee more than 10 km "
                   f"below the target's, {shape['perigee_below_surface_share']:.1%} below the surface; a guided "
                   "vehicle trades such shape errors with the reserve, this model does not")
+        perf = st.get("performance") or {}
+        if abs(perf.get("nominal_margin", 1.0)) < 1.0:
+            con.print("the nominal flight meets the target with no margin (no reserve carried), so about half of "
+                      "the dispersed flights miss even with guidance; size with `probability` in \\[dispersions] to "
+                      "carry a reserve")
     if st.get("reserves"):
         u = st["target_unit"]
         t = Table(title=escape(f"Flight performance reserve [{u}]: {st['performance']['what']} that a fraction p of "
