@@ -41,9 +41,14 @@ def cache_dir() -> Path:
 
 
 def cache_is_warm(path: Path | None = None) -> bool:
-    """True when the flight kernel's compiled code is in the cache (no compile on the first flight)."""
+    """True when the flight kernel's compiled code for this checkout is in the cache (no compile on the
+    first flight). numba files a source's cache under ``<folder name>_<sha1 of its folder path>``
+    (numba.core.caching, `_CacheLocator.get_suitable_cache_subpath`), so another checkout of the same
+    sources at another path has its own entry and compiles anew."""
     d = cache_dir() if path is None else path
-    return d.is_dir() and any(d.rglob("kernel.run_flight*.nbi"))
+    flight = Path(__file__).resolve().parent / "flight"
+    sub = d / f"{flight.name}_{hashlib.sha1(str(flight).encode()).hexdigest()}"
+    return sub.is_dir() and any(sub.glob("kernel.run_flight*.nbi"))
 
 
 def _announce_compile(path: Path) -> None:

@@ -200,3 +200,22 @@ def test_coast_and_insertion_burn_fly_a_hohmann_transfer():
     orbit = setup.frame.orbit(y)
     assert orbit.perigee_alt_m == pytest.approx(800e3, abs=500.0)
     assert orbit.apogee_alt_m == pytest.approx(800e3, abs=500.0)
+
+
+def test_compile_note_sees_only_this_checkouts_cache(tmp_path):
+    """The first-flight compile note (README promise): another checkout's cached kernel (numba files
+    each source folder under its own hashed name) does not count as this one's."""
+    import hashlib
+    from pathlib import Path
+
+    import sizing.physics._jit as jit
+
+    flight = Path(jit.__file__).resolve().parent / "flight"
+    other = tmp_path / f"flight_{hashlib.sha1(b'/elsewhere/sizing/physics/flight').hexdigest()}"
+    other.mkdir()
+    (other / "kernel.run_flight-474.py311.nbi").write_bytes(b"")
+    assert not jit.cache_is_warm(tmp_path)
+    mine = tmp_path / f"flight_{hashlib.sha1(str(flight).encode()).hexdigest()}"
+    mine.mkdir()
+    (mine / "kernel.run_flight-474.py311.nbi").write_bytes(b"")
+    assert jit.cache_is_warm(tmp_path)

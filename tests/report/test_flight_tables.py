@@ -19,6 +19,7 @@ from rich.console import Console
 
 from sizing import load_problem, solve
 from sizing.cli import EXIT_OK, main, print_result
+from sizing.optimize.flight_problem import COAST_BUDGET_KEY, POWERED_GRAVITY_KEY
 from sizing.report import result_markdown, write_stage_table
 from sizing.report.flight_tables import (
     BUDGET_RESIDUAL_LABEL,
