@@ -84,7 +84,7 @@ def cmd_disperse(args: argparse.Namespace) -> int:
     out = args.out or Path("runs") / f"{args.file.stem}-dispersion"
     con = _console(stderr=True)
     if not args.quiet:
-        con.print(f"reading {args.file} (a problem file is sized first, a hobby file's stack searched first)")
+        con.print(f"reading {args.file}")
     case = case_from_file(args.file, dispersions=args.dispersions)
     n = args.samples or case.spec.samples
     if not args.quiet:
@@ -162,13 +162,13 @@ def print_statistics(st: dict, summary=None, console=None) -> None:
     pm = st.get("probability_of_meeting")
     c = st["confidence"]
     if pm:
-        con.print(f"probability of meeting it: {pm['estimate']:.4%} ({pm['met']:,} of {pm['n']:,}); at least "
-                  f"{pm['lower']:.4%} at {c:.0%} confidence (Clopper-Pearson)")
+        con.print(f"probability of meeting it: {pm['estimate']:.2%} ({pm['met']:,} of {pm['n']:,}); at least "
+                  f"{pm['lower']:.2%} at {c:.0%} confidence (Clopper-Pearson)")
         req = st.get("probability_required")
         if req is not None:
             ok = st["requirement_demonstrated"]
             word = "[bold green]demonstrated[/]" if ok else "[bold red]not demonstrated[/]"
-            con.print(f"required {req:.4%}: {word} at {c:.0%} confidence")
+            con.print(f"required {100 * req:.6g} %: {word} at {c:.0%} confidence")
     shape = st.get("orbit_shape")
     if shape:
         con.print(f"orbit shape with the fixed steering programme (no guidance): "

@@ -29,7 +29,7 @@ FLIGHT_QUANTITIES: tuple[tuple[str, str, str, str], ...] = (
     ("perigee_altitude_m", "perigee altitude above sea level", "m", ",.0f"),
     ("apogee_altitude_m", "apogee altitude above sea level", "m", ",.0f"),
     ("inclination_deg", "inclination", "deg", ".3f"),
-    ("orbit_speed_m_s", "speed at insertion", "m/s", ",.1f"),
+    ("orbit_speed_m_s", "inertial speed at insertion", "m/s", ",.1f"),
     ("flight_path_angle_deg", "flight-path angle at insertion", "deg", ".3f"),
     ("iterations", "sizing iterations", "-", ",d"),
     ("flights", "flights flown by the sizing", "-", ",d"),
