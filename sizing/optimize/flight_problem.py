@@ -228,6 +228,13 @@ COAST_BUDGET_KEY = "gravity on the insertion coast (speed traded for height)"
 IMPACT_UNDER_POWER_NOTE = ("the vehicle came back to the ground at {t:.1f} s before {stage!r} burnt out: "
                            "it cannot climb with this thrust (raise thrust-to-weight); the figures "
                            "above describe a failed flight.")
+#: The same for a vehicle that had reached space (above 100 km, the conventional edge): the programme,
+#: not the thrust, brought it down; the loss and max-q figures are those of its re-entry.
+REENTRY_UNDER_POWER_NOTE = ("the vehicle reached {h:,.0f} km and came back to the ground at {t:.1f} s before "
+                            "{stage!r} burnt out: its fixed steering programme does not suit this vehicle (a "
+                            "programme optimised for other masses or thrust; `sizing solve` re-optimises it); "
+                            "the figures above describe a failed flight and its re-entry, so no other review "
+                            "notes are given.")
 
 
 def fly_problem(problem: Problem) -> tuple[Vehicle, FlightResult]:
@@ -239,6 +246,10 @@ def fly_problem(problem: Problem) -> tuple[Vehicle, FlightResult]:
         raise ProblemDefinitionError(problem.source, [str(exc)]) from None
     if fr.terminated_by == "impact" and len(fr.burnouts) < len(vehicle.stages):
         stage = vehicle.stages[len(fr.burnouts)].name
+        top = float(fr.history.altitude_m.max()) if fr.history.t_s.size else 0.0
+        if top > 100e3:
+            note = REENTRY_UNDER_POWER_NOTE.format(h=top / 1e3, t=fr.impact_time_s, stage=stage)
+            return vehicle, replace(fr, warnings=tuple(fr.warnings) + (note,))
         note = IMPACT_UNDER_POWER_NOTE.format(t=fr.impact_time_s, stage=stage)
         fr = replace(fr, warnings=tuple(fr.warnings) + (note,))
     from .flight import stage_notes  # the notes `solve` writes for the same flight

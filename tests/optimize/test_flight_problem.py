@@ -302,3 +302,25 @@ def test_sweep_names_a_point_heavier_than_a_harder_one():
     assert local_optimum_notes("orbit_altitude", rows([7500.0, 7598.4, 7684.2])) == []
     assert local_optimum_notes("inclination", [{"inclination [deg]": 1.0, "status": "optimal",
                                                 "gross mass [kg]": 2.0}]) == []
+
+
+@pytest.mark.slow
+def test_fly_names_the_programme_when_a_variant_reenters(tmp_path, capsys):
+    """The half-orbit-coast demo design with 1 % less first-stage thrust climbs above 100 km and
+    re-enters on its fixed programme: `sizing fly` says so and gives no loss or max-q notes drawn
+    from the re-entry (consistency check, no external source; 100 km is the conventional edge of
+    space)."""
+    import re
+
+    design = tmp_path / "design.toml"
+    assert main(["solve", str(ROOT / "problems" / "jackdaw_orbit.toml"), "--out", str(design)]) == EXIT_OK
+    text = design.read_text()
+    m = re.search(r"(?m)^thrust = ([0-9.e+]+)$", text)  # the first stage's thrust comes first
+    weak = tmp_path / "weak.toml"
+    weak.write_text(text[:m.start(1)] + repr(0.99 * float(m.group(1))) + text[m.end(1):])
+    capsys.readouterr()
+    assert main(["fly", str(weak), "--json"]) == EXIT_FAILED  # a failed flight
+    flown = json.loads(capsys.readouterr().out)
+    notes = flown["warnings"]
+    assert any("fixed steering programme does not suit this vehicle" in n for n in notes)
+    assert not any(n.startswith(("drag loss", "max-q", "gravity loss")) for n in notes)
