@@ -32,7 +32,6 @@ import sys
 import tempfile
 import time
 import tomllib
-from dataclasses import replace
 from pathlib import Path
 
 import numpy as np
@@ -41,10 +40,10 @@ ROOT = Path(__file__).resolve().parents[1]
 sys.path.insert(0, str(ROOT))
 
 from sizing.dispersion.case import case_from_problem  # noqa: E402
+from sizing.dispersion.flights import apsis_lead_s, apsis_timed_ascent  # noqa: E402
 from sizing.dispersion.run import load_samples, run_dispersion  # noqa: E402
 from sizing.dispersion.sampling import draw  # noqa: E402
 from sizing.physics.flight import fly_ascent, fly_vertical  # noqa: E402
-from sizing.physics.gravity import time_to_apoapsis_s  # noqa: E402
 from sizing.problem.load import load_problem, problem_from_dict, read_toml  # noqa: E402
 
 _CASE = None
@@ -64,15 +63,6 @@ def _design_case(problem_file: Path, table_file: Path):
     return case_from_problem(design)
 
 
-def _lead_s(case) -> float | None:
-    """Nominal lead of the insertion ignition before the transfer apoapsis [s] (None: no coast)."""
-    ins = case.ascent.insertion if case.ascent is not None else None
-    if ins is None:
-        return None
-    fr = fly_ascent(case.vehicle, case.site, case.ascent, record_history=False)
-    return ins.coast_s - time_to_apoapsis_s(fr.coast_start_state)
-
-
 def _fly_one(case, row, lead=None):
     """One sample, one call per flight; a coasting ascent is re-flown with its restart timed from
     its own apoapsis (the same apsis-timed restart `run_dispersion` flies)."""
@@ -82,11 +72,8 @@ def _fly_one(case, row, lead=None):
     fr = fly_ascent(v.vehicle, v.site, case.ascent, record_history=False)
     if lead is None or fr.coast_start_state is None:
         return fr
-    t_apo = time_to_apoapsis_s(fr.coast_start_state)
-    if not np.isfinite(t_apo):
-        return fr
-    ins = replace(case.ascent.insertion, coast_s=max(0.0, t_apo + lead))
-    return fly_ascent(v.vehicle, v.site, replace(case.ascent, insertion=ins), record_history=False)
+    ascent = apsis_timed_ascent(case.ascent, fr.coast_start_state, lead)
+    return fr if ascent is None else fly_ascent(v.vehicle, v.site, ascent, record_history=False)
 
 
 def _figure(case, fr) -> float:
@@ -102,7 +89,7 @@ def _peer_chunk(ids) -> list[float]:
 def _peer(case, n: int, workers: int) -> tuple[float, list[float]]:
     global _CASE
     t = time.perf_counter()
-    _CASE = (case, _lead_s(case))
+    _CASE = (case, apsis_lead_s(case))
     if workers == 1:
         out = _peer_chunk(range(n))
     else:

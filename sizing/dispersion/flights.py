@@ -18,12 +18,14 @@ from __future__ import annotations
 import json
 import math
 import time
+from dataclasses import replace
 from typing import Any, Callable, Sequence
 
 import numpy as np
 
 from ..errors import FieldError
 from ..physics.flight import fly_many
+from ..physics.gravity import time_to_apoapsis_s
 from ..physics.recovery import descend
 from .case import DispersionCase, Variant, orbit_energy_shortfall_m_s
 from .sampling import draw
@@ -166,6 +168,28 @@ def _fly_batch(case: DispersionCase, variants: Sequence[Variant], profiles) -> l
     return out
 
 
+def apsis_lead_s(case: DispersionCase) -> float | None:
+    """Lead of the design's insertion ignition on the apoapsis of its nominal transfer orbit [s]
+    (coast minus the two-body time from the coast start to apoapsis); None without an insertion coast
+    or when the nominal flight does not reach it."""
+    if case.ascent is None or case.ascent.insertion is None:
+        return None
+    nominal = _fly_batch(case, [Variant(case.vehicle, case.site, None, None, case.payload_mass_kg)],
+                         [case.ascent])[0]
+    if isinstance(nominal, FieldError) or nominal.coast_start_state is None:
+        return None
+    return case.ascent.insertion.coast_s - time_to_apoapsis_s(nominal.coast_start_state)
+
+
+def apsis_timed_ascent(ascent, coast_start_state, lead_s: float):
+    """The ascent programme with its insertion coast ending `lead_s` before the apoapsis of the transfer
+    orbit through `coast_start_state` (two-body time); None when that orbit has no apoapsis."""
+    t_apo = time_to_apoapsis_s(coast_start_state)
+    if not math.isfinite(t_apo):
+        return None
+    return replace(ascent, insertion=replace(ascent.insertion, coast_s=max(0.0, t_apo + lead_s)))
+
+
 def _apsis_timed(case: DispersionCase, variants: Sequence[Variant], flown: list) -> list:
     """Re-fly each sample with its insertion coast moved by its own change of time to apoapsis.
 
@@ -178,25 +202,17 @@ def _apsis_timed(case: DispersionCase, variants: Sequence[Variant], flown: list)
     Without it a half-orbit coast turns a 1 % change of the transfer period into
     an ignition half a minute off the apsis.
     """
-    from dataclasses import replace
-
-    from ..physics.gravity import time_to_apoapsis_s
-
-    ins = case.ascent.insertion
-    nominal = _fly_batch(case, [Variant(case.vehicle, case.site, None, None, case.payload_mass_kg)],
-                         [case.ascent])[0]
-    if isinstance(nominal, FieldError) or nominal.coast_start_state is None:
+    lead = apsis_lead_s(case)
+    if lead is None:
         return flown
-    lead = ins.coast_s - time_to_apoapsis_s(nominal.coast_start_state)
     redo, profiles = [], []
     for k, fr in enumerate(flown):
         if isinstance(fr, FieldError) or fr.coast_start_state is None:
             continue
-        t_apo = time_to_apoapsis_s(fr.coast_start_state)
-        if not math.isfinite(t_apo):
-            continue
-        redo.append(k)
-        profiles.append(replace(case.ascent, insertion=replace(ins, coast_s=max(0.0, t_apo + lead))))
+        ascent = apsis_timed_ascent(case.ascent, fr.coast_start_state, lead)
+        if ascent is not None:
+            redo.append(k)
+            profiles.append(ascent)
     again = _fly_batch(case, [variants[k] for k in redo], profiles) if redo else []
     out = list(flown)
     for k, fr in zip(redo, again):

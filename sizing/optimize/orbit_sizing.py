@@ -41,8 +41,9 @@ from sizing.physics.flight import layout as L
 from sizing.physics.flight.kernel import run_flight
 from sizing.physics.flight.profiles import InsertionBurn
 from sizing.physics.flight.setup import burn_schedule, prepare_flight, replay_steps
-from sizing.physics.gravity import (circular_speed_m_s, launch_azimuth_deg, site_rotation_speed_m_s,
-                                    time_to_apoapsis_s)
+from sizing.physics.flight.results import insertion_coast_rows
+from sizing.physics.gravity import (circular_speed_m_s, launch_azimuth_deg, lowest_coast_radius_m,
+                                    site_rotation_speed_m_s, time_to_apoapsis_s)
 from sizing.physics.rocket import stack_masses
 from sizing.physics.loss_estimate import gravity_loss_split
 from sizing.physics.vehicle import (FlightStageSpec, LaunchSite, Vehicle, build_vehicle, structural_masses,
@@ -348,25 +349,6 @@ def orbit_residuals_m_s(y: np.ndarray, rp_t: float, ra_t: float, *, at_perigee: 
     return [math.sqrt(vx * vx + vy * vy + vz * vz) - v_req, (hn - math.sqrt(GM_EARTH_M3_S2 * p_t)) / rn], inc
 
 
-def perigee_radius_m(y: np.ndarray) -> float:
-    """Perigee radius of the two-body orbit through a state [m]: r_p = p / (1 + e), with p = h^2 / mu and
-    e from the energy and angular momentum (Curtis, Orbital Mechanics for Engineering Students, 3rd ed.,
-    Ch. 2; from memory). A state on an escape path returns its p / (1 + e) all the same."""
-    r = np.asarray(y[0:3], float)
-    v = np.asarray(y[3:6], float)
-    h2 = float(np.sum(np.cross(r, v) ** 2))
-    energy = 0.5 * float(v @ v) - GM_EARTH_M3_S2 / float(np.linalg.norm(r))
-    e = math.sqrt(max(0.0, 1.0 + 2.0 * energy * h2 / GM_EARTH_M3_S2 ** 2))
-    return h2 / GM_EARTH_M3_S2 / (1.0 + e)
-
-
-def lowest_coast_radius_m(y: np.ndarray) -> float:
-    """Lowest radius of a coast from a cut-off state up to the next apoapsis [m]: the cut-off radius when
-    climbing (r . v >= 0), else the perigee radius passed on the way (two-body)."""
-    r = np.asarray(y[0:3], float)
-    return float(np.linalg.norm(r)) if float(r @ np.asarray(y[3:6], float)) >= 0 else perigee_radius_m(y)
-
-
 def _flight(lay: _Layout, z: np.ndarray, rtol: float, steps: np.ndarray | None = None):
     """Fly design z; with `steps`, replay that step record (see `replay_steps`) when the phases allow it."""
     vehicle = lay.vehicle(z)
@@ -422,9 +404,8 @@ class _Outputs:
         if self.gross_cap is not None:
             res.append((self.gross_cap - gross) / self.gross_cap)
         if self.rp_min is not None:  # the coast arc, from the state at cut-off (or below the kick stage)
-            n_st = len(self.lay.specs)
-            row = burn[n_st] if self.lay.goal.insertion == "coast" else burn[n_st - 2]
-            low = lowest_coast_radius_m(row[L.B_Y:L.B_Y + 6]) if math.isfinite(row[L.B_T]) else 0.0
+            rows = insertion_coast_rows(burn, len(self.lay.specs))
+            low = lowest_coast_radius_m(rows[0][L.B_Y:L.B_Y + 6]) if rows is not None else 0.0
             res.append((low - self.rp_min) / 100e3)  # 1 unit = 100 km; a flight that never cut off: far below
         return np.array(res), (token if steps is None else None)
 
@@ -445,17 +426,19 @@ def _initial_split(specs, payload_kg: float, goal: OrbitGoal, site: LaunchSite, 
     return np.maximum(mp, 0.05 * mp.sum() / len(mp))
 
 
+def _fixed_coefficients(specs) -> tuple[FlightStageSpec, ...]:
+    """The specs with their mass models off: each stage keeps its structural coefficient."""
+    return tuple(replace(s, mass_model=None) for s in specs)
+
+
 def _model_start(specs, mp0, payload_kg: float, goal: OrbitGoal, site: LaunchSite, loss_guess_m_s: float):
     """Mass-model stages: the coefficient of each model at the starting split, the split again, twice
     (fixed point). Each coefficient is held within [0.04, 0.20] (common practice, no source: the span of
     liquid and solid stages), since a model's coefficient grows steeply as a stage gets small and a
     lopsided start can run away. Returns (specs, propellant masses)."""
-    start = specs
     for _ in range(2):
-        fresh = with_model_coefficients(start, mp0, payload_kg)
         specs = tuple(replace(s, structural_coefficient=min(max(s.structural_coefficient, 0.04), 0.20))
-                      if s.mass_model is not None else s for s in fresh)
-        start = specs
+                      if s.mass_model is not None else s for s in with_model_coefficients(specs, mp0, payload_kg))
         mp0 = _initial_split(specs, payload_kg, goal, site, loss_guess_m_s)
     return specs, mp0
 
@@ -609,7 +592,7 @@ def _low_transfer_start(common: dict, h_p: float, rtol: float):
     out of reach of the starting split.
     """
     goal, mp_ref, payload = common["goal"], common["mp_ref"], common["payload_kg"]
-    specs = tuple(replace(s, mass_model=None) for s in common["specs"])  # a start: fixed coefficients do
+    specs = _fixed_coefficients(common["specs"])  # a start: fixed coefficients do
     n = len(specs)
     kick = goal.insertion == "kick_stage"
     direct = OrbitGoal(h_p, goal.apogee_altitude_m, goal.inclination_deg, goal.ascending,
@@ -663,10 +646,12 @@ def _passes(common: dict, start, limits: PathLimits, rtol: float, max_iterations
     lo1, hi1 = lay1.bounds()
     z1, n_fl = find_feasible(out1, z1, lo1, hi1, n_eq=out1.n_eq, free=free)
     z2 = np.concatenate([np.full(len(specs), z1[0]), z1[1:]]) if lay1.scale_only else z1
-    if lay1.scale_only and not np.all(np.abs(out1(z1)[0][1:1 + out1.n_eq]) < FEASIBLE_START_M_S):
-        # the split scaled as a whole misses the orbit: let every stage's propellant move too
-        z2, n_more = _full_feasibility(common, z2, limits, rtol)
-        n_fl += n_more + 1
+    if lay1.scale_only:
+        n_fl += 1  # the check below flies the feasible point once more
+        if not np.all(np.abs(out1(z1)[0][1:1 + out1.n_eq]) < FEASIBLE_START_M_S):
+            # the split scaled as a whole misses the orbit: let every stage's propellant move too
+            z2, n_more = _full_feasibility(common, z2, limits, rtol)
+            n_fl += n_more
     common = dict(common)
     if gross_mass_kg is not None:  # scale the feasible vehicle and its payload to the gross mass
         k = gross_mass_kg / lay1.gross_mass(z1)
@@ -687,11 +672,10 @@ def _passes(common: dict, start, limits: PathLimits, rtol: float, max_iterations
         """The integrated optimum; from the short-coast start the transfer-perigee limit joins in a second
         solve from the unlimited optimum when that optimum breaks it (a limit active far from the start
         drove SLSQP into a far heavier basin). Returns (layout, outputs, result, flights)."""
-        off = replace(limits, min_transfer_perigee_m=0.0)
         if free is not None or limits.transfer_perigee_m() <= 0 or common["goal"].insertion == "direct":
             lay, out, res = integrated(z_start, **kw)
             return lay, out, res, res.n_flights
-        lay, out, res = integrated(z_start, off, **kw)
+        lay, out, res = integrated(z_start, replace(limits, min_transfer_perigee_m=0.0), **kw)
         if not res.success:
             lay, out, res2 = integrated(z_start, **kw)
             return lay, out, res2, res.n_flights + res2.n_flights
@@ -704,7 +688,7 @@ def _passes(common: dict, start, limits: PathLimits, rtol: float, max_iterations
 
     if any(s.mass_model is not None for s in specs):
         # continuation: the optimum with the model's coefficients held fixed, then with the model itself
-        _lay, _out, res0, n0 = limited(z2, specs=tuple(replace(s, mass_model=None) for s in specs))
+        _lay, _out, res0, n0 = limited(z2, specs=_fixed_coefficients(specs))
         n_fl += n0
         if res0.success:
             z2 = res0.z
@@ -715,8 +699,7 @@ def _passes(common: dict, start, limits: PathLimits, rtol: float, max_iterations
 def _full_feasibility(common: dict, z: np.ndarray, limits: PathLimits, rtol: float) -> tuple[np.ndarray, int]:
     """Least squares for the orbit with every variable free (masses one by one), from z; the mass model
     off (fixed coefficients), as in the first integrated pass. Returns (z, flights)."""
-    specs = tuple(replace(s, mass_model=None) for s in common["specs"])
-    lay = _Layout(**{**common, "specs": specs}, scale_only=False)
+    lay = _Layout(**{**common, "specs": _fixed_coefficients(common["specs"])}, scale_only=False)
     out = _Outputs(lay, replace(limits, min_transfer_perigee_m=0.0), rtol=rtol)
     lo, hi = lay.bounds()
     return find_feasible(out, z, lo, hi, n_eq=out.n_eq)

@@ -25,6 +25,7 @@ __all__ = [
     "OrbitElements",
     "orbit_elements",
     "time_to_apoapsis_s",
+    "lowest_coast_radius_m",
 ]
 
 
@@ -249,3 +250,17 @@ def time_to_apoapsis_s(y) -> float:
     mean = ecc - e * math.sin(ecc)
     n = math.sqrt(GM_EARTH_M3_S2 / a ** 3)
     return float(((math.pi - mean) % (2.0 * math.pi)) / n)
+
+
+def lowest_coast_radius_m(y) -> float:
+    """Lowest radius of a two-body coast from an inertial state (x, y, z, vx, vy, vz) up to the next
+    apoapsis [m]: the state's own radius when climbing (r . v >= 0), else the perigee radius passed on the
+    way (`orbit_elements`, vis-viva and angular momentum)."""
+    r = [float(c) for c in y[0:3]]
+    v = [float(c) for c in y[3:6]]
+    rn = math.sqrt(sum(c * c for c in r))
+    rv = sum(a * b for a, b in zip(r, v))
+    if rv >= 0:
+        return rn
+    vn = math.sqrt(sum(c * c for c in v))
+    return orbit_elements(rn, vn, math.asin(max(-1.0, min(1.0, rv / (rn * vn)))), radius_earth_m=0.0).perigee_alt_m

@@ -23,7 +23,8 @@ from sizing.physics.flight.layout import (
 from sizing.physics.flight.profiles import AscentProfile
 from sizing.physics.gravity import OrbitElements, orbit_elements
 
-__all__ = ["LOSS_KEYS", "StageBurnout", "FlightHistory", "FlightResult", "FlightFrame", "assemble"]
+__all__ = ["LOSS_KEYS", "StageBurnout", "FlightHistory", "FlightResult", "FlightFrame", "assemble",
+           "insertion_coast_rows"]
 
 #: Names of the loss terms in every ``losses_m_s`` mapping.
 LOSS_KEYS = ("gravity", "drag", "steering", "pressure")
@@ -425,26 +426,25 @@ def _burnouts(frame: FlightFrame, names, burn: np.ndarray) -> tuple[StageBurnout
     return tuple(out)
 
 
-def _coast_start(ascent: AscentProfile | None, burn: np.ndarray, n_st: int) -> np.ndarray | None:
-    """State where the insertion coast begins: the cut-off row (restart) or the burnout below the kick stage."""
-    ins = ascent.insertion if ascent is not None else None
-    if ins is None:
+def insertion_coast_rows(burn: np.ndarray, n_st: int) -> tuple[np.ndarray, np.ndarray] | None:
+    """Burnout-table rows (time, stage, state) where the insertion coast begins and ends: the marked
+    cut-off (row n_st: the last stage's cut-off, or the burnout below a kick stage) and the marked
+    insertion ignition (row n_st + 1), `setup._phase_table`. None when the flight did not reach them."""
+    if burn.shape[0] < n_st + 2:
         return None
-    row = n_st if ins.propellant_kg is not None else n_st - 2
-    if row < 0 or row >= burn.shape[0] or not math.isfinite(burn[row, B_T]):
-        return None
-    return np.array(burn[row, B_Y:B_Y + 6], float)
-
-
-def _coast_gravity(ascent: AscentProfile | None, burn: np.ndarray, n_st: int) -> float:
-    """Gravity loss accrued between the insertion cut-off and ignition marks (burnout-table rows n_st
-    and n_st + 1, `setup._phase_table`) [m/s]; 0 without an insertion coast or when it was not flown."""
-    if ascent is None or ascent.insertion is None or burn.shape[0] < n_st + 2:
-        return 0.0
     a, b = burn[n_st], burn[n_st + 1]
-    if not (math.isfinite(a[B_T]) and math.isfinite(b[B_T])):
-        return 0.0
-    return float(b[B_Y + N_MOTION] - a[B_Y + N_MOTION])  # the first accumulator is the gravity loss (`layout`)
+    return (a, b) if math.isfinite(a[B_T]) and math.isfinite(b[B_T]) else None
+
+
+def _coast(ascent: AscentProfile | None, burn: np.ndarray, n_st: int) -> tuple[np.ndarray | None, float]:
+    """(inertial state where the insertion coast begins, gravity loss accrued on the coast [m/s]);
+    (None, 0) without an insertion coast or when it was not flown."""
+    rows = insertion_coast_rows(burn, n_st) if ascent is not None and ascent.insertion is not None else None
+    if rows is None:
+        return None, 0.0
+    a, b = rows
+    # the first accumulator of the state is the gravity loss (`layout`)
+    return np.array(a[B_Y:B_Y + 6], float), float(b[B_Y + N_MOTION] - a[B_Y + N_MOTION])
 
 
 def _altitude(frame: FlightFrame, y: np.ndarray) -> float:
@@ -477,6 +477,7 @@ def assemble(*, frame: FlightFrame, profile: str, stage_names, kernel_out, site_
     impact_t = o[OUT_IMPACT_T]
     impact_x = _state_figures(frame, impact_t, y.tolist())[1] if math.isfinite(impact_t) else math.nan
     end_e, end_n = (float(c) for c in frame.ground_offset(float(o[1]), float(y[0]), float(y[1]), float(y[2])))
+    coast_start, coast_gravity = _coast(ascent, burn, len(stage_names))
     return FlightResult(
         profile=profile, terminated_by=terminated,
         apogee_m=apogee if not is_ascent else math.nan, time_to_apogee_s=t_apogee if not is_ascent else math.nan,
@@ -489,6 +490,5 @@ def assemble(*, frame: FlightFrame, profile: str, stage_names, kernel_out, site_
         budget_residual_m_s=ideal - (v_in - bonus + sum(losses.values())), ascent_profile=ascent,
         targeting_residual=(), warnings=tuple(warnings), n_steps=int(o[OUT_N_STEPS]),
         n_rejected=int(o[OUT_N_REJECTED]), n_rhs=int(o[OUT_N_RHS]), history=history, final_state=y,
-        end_east_m=end_e, end_north_m=end_n, coast_start_state=_coast_start(ascent, burn, len(stage_names)),
-        coast_gravity_loss_m_s=_coast_gravity(ascent, burn, len(stage_names)),
+        end_east_m=end_e, end_north_m=end_n, coast_start_state=coast_start, coast_gravity_loss_m_s=coast_gravity,
     )
