@@ -151,7 +151,8 @@ def test_dispersion_statistics_are_consistent_with_the_samples(serial_run):
 
 def test_a_failed_one_sigma_flight_makes_the_rss_reserve_unbounded_not_a_crash(serial_run):
     """A one-sigma flight that fails stores its effect as null: the root-sum-square reserve is
-    then unbounded (a failure is no zero effect), and the statistics still come out."""
+    then unbounded (a failure is no zero effect), and the statistics still come out (consistency
+    check, no external source)."""
     from sizing.dispersion.summary import summarise
 
     folder, _ = serial_run
